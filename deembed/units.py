@@ -1,0 +1,126 @@
+"""Parsing and printing of quantities with units: the only place units are read or written.
+
+Everything inside the package is SI (Hz, m, s, W, ohm, dB). Each parser takes the option's name
+so that its error names it.
+"""
+from __future__ import annotations
+
+import math
+import re
+
+from .errors import OptionError
+
+_NUM = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
+
+_FREQ = {"hz": 1.0, "khz": 1e3, "mhz": 1e6, "ghz": 1e9}
+_LENGTH = {"m": 1.0, "cm": 0.01, "mm": 0.001, "km": 1000.0, "ft": 0.3048, "feet": 0.3048, "foot": 0.3048,
+           "'": 0.3048, "in": 0.0254, "inch": 0.0254, '"': 0.0254}
+_TIME = {"s": 1.0, "ms": 1e-3, "us": 1e-6, "µs": 1e-6, "ns": 1e-9, "ps": 1e-12}
+_POWER = {"w": 1.0, "mw": 1e-3, "kw": 1e3}
+
+FEET_PER_M = 1 / 0.3048
+
+
+def _split(text, option: str, what: str, example: str):
+    if text is None:
+        raise OptionError(option, f"a {what} is needed, e.g. {example}")
+    s = str(text).strip()
+    m = re.fullmatch(rf"\s*({_NUM})\s*([^\d\s]*)\s*", s)
+    if not m:
+        raise OptionError(option, f"cannot read {s!r} as a {what}; write it like {example}")
+    value = float(m.group(1))
+    if not math.isfinite(value):
+        raise OptionError(option, f"{s!r} is not a finite {what}; write it like {example}")
+    return value, m.group(2).lower()
+
+
+def _scaled(text, option, what, example, table, default_unit=None):
+    value, unit = _split(text, option, what, example)
+    if unit == "":
+        if default_unit is None:
+            raise OptionError(option, f"{text!r} has no unit; write it like {example}")
+        unit = default_unit
+    if unit not in table:
+        units = ", ".join(sorted({k for k in table if k.isalpha()}))
+        raise OptionError(option, f"unknown unit {unit!r} in {text!r}; use one of {units} (e.g. {example})")
+    return value * table[unit]
+
+
+def parse_frequency(text, option: str = "frequency") -> float:
+    """'14.2MHz', '7100 kHz', '1.3e9Hz' -> Hz. A unit is required; the result must be positive."""
+    hz = _scaled(text, option, "frequency", "14.2MHz", _FREQ)
+    if hz <= 0:
+        raise OptionError(option, f"{text!r}: a frequency must be positive")
+    return hz
+
+
+def parse_length(text, option: str = "--length", allow_zero: bool = True) -> float:
+    """'30m', '98ft', '98 ft', "12'" -> metres. A unit is required (metres and feet are both in use)."""
+    m = _scaled(text, option, "length", "30m or 98ft", _LENGTH)
+    if m < 0 or (m == 0 and not allow_zero):
+        raise OptionError(option, f"{text!r}: a length must be {'zero or ' if allow_zero else ''}positive")
+    return m
+
+
+def parse_delay(text, option: str = "--delay") -> float:
+    """One-way delay: '152ns', '0.152us'; a bare number is taken as nanoseconds. -> seconds."""
+    s = _scaled(text, option, "delay", "152ns", _TIME, default_unit="ns")
+    if s < 0:
+        raise OptionError(option, f"{text!r}: a delay must be zero or positive")
+    return s
+
+
+def parse_power(text, option: str = "--power") -> float:
+    """'100W', '1.5kW', '500mW'; a bare number is taken as watts. -> watts (positive)."""
+    w = _scaled(text, option, "power", "100W", _POWER, default_unit="w")
+    if w <= 0:
+        raise OptionError(option, f"{text!r}: a power must be positive")
+    return w
+
+
+def parse_loss_point(text, option: str = "--loss") -> tuple[float, float]:
+    """'1.25dB@14MHz' -> (1.25, 14e6): a one-way matched loss in dB at a frequency."""
+    s = str(text).strip()
+    parts = s.split("@")
+    if len(parts) != 2:
+        raise OptionError(option, f"cannot read {s!r}; write the loss and its frequency like 1.25dB@14MHz")
+    db_text = parts[0].strip()
+    if db_text.lower().endswith("db"):
+        db_text = db_text[:-2]
+    try:
+        db = float(db_text)
+    except ValueError:
+        raise OptionError(option, f"cannot read {parts[0]!r} as dB; write it like 1.25dB@14MHz") from None
+    if not math.isfinite(db) or db < 0:
+        raise OptionError(option, f"{s!r}: a matched loss must be a finite number of dB, zero or more")
+    return db, parse_frequency(parts[1], option)
+
+
+def parse_positive(text, option: str, what: str = "value", upper: float | None = None,
+                   upper_inclusive: bool = True) -> float:
+    """A plain positive number, optionally bounded above (e.g. velocity factor in (0, 1])."""
+    try:
+        v = float(text)
+    except (TypeError, ValueError):
+        raise OptionError(option, f"cannot read {text!r} as a number") from None
+    if not math.isfinite(v) or v <= 0:
+        raise OptionError(option, f"{text!r}: the {what} must be a positive number")
+    if upper is not None and (v > upper or (v == upper and not upper_inclusive)):
+        bound = f"at most {upper:g}" if upper_inclusive else f"below {upper:g}"
+        raise OptionError(option, f"{text!r}: the {what} must be {bound}")
+    return v
+
+
+def fmt_freq(hz: float, digits: int = 4) -> str:
+    """Readable frequency: 14.2 MHz, 7.1 kHz."""
+    if hz is None or not math.isfinite(hz):
+        return "n/a"
+    for unit, scale in (("GHz", 1e9), ("MHz", 1e6), ("kHz", 1e3)):
+        if abs(hz) >= scale:
+            return f"{hz / scale:.{digits}g} {unit}"
+    return f"{hz:.{digits}g} Hz"
+
+
+def fmt_length(m: float) -> str:
+    """Metres with feet beside: '30.48 m (100.0 ft)'."""
+    return f"{m:.2f} m ({m * FEET_PER_M:.1f} ft)"
