@@ -7,10 +7,12 @@ come from. See ``deembed/data/cables.toml``.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from importlib import resources
+import os
 
 from .errors import InputFileError, OptionError
 from .line import LossModel, Section
+
+DATA_DIR = os.path.join(os.path.dirname(os.path.abspath(__file__)), "data")
 
 try:  # Python 3.11+
     import tomllib
@@ -62,8 +64,6 @@ def _parse_catalog(data: dict, origin: str) -> dict[str, Cable]:
 
 def load_toml(path) -> dict:
     """Read a TOML file, turning every failure into an InputFileError that names the file."""
-    import os
-
     p = str(path)
     if not os.path.exists(p):
         raise InputFileError(p, "no such file; check the path")
@@ -81,7 +81,8 @@ def load_toml(path) -> dict:
 
 
 def builtin_catalog() -> dict[str, Cable]:
-    text = resources.files("deembed").joinpath("data/cables.toml").read_text(encoding="utf-8")
+    with open(os.path.join(DATA_DIR, "cables.toml"), encoding="utf-8") as fh:
+        text = fh.read()
     return _parse_catalog(tomllib.loads(text), "deembed/data/cables.toml")
 
 

@@ -104,14 +104,14 @@ def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Sec
 
 
 def line_from_options(*, cable=None, length=None, vf=None, delay=None, z0=None, loss=(), cables_file=None,
-                      line_file=None) -> tuple[Line, list[str]]:
+                      line_file=None, allow_extrapolation: bool = False) -> tuple[Line, list[str]]:
     """The line described by the command-line options (or by ``--line FILE``)."""
     given = [n for n, v in (("--cable", cable), ("--length", length), ("--vf", vf), ("--delay", delay),
                             ("--z0", z0), ("--loss", loss)) if v]
     if line_file:
         if given:
             raise OptionError("--line", f"give either --line or {', '.join(given)}, not both")
-        return read_line_file(line_file, cables_file)
+        return read_line_file(line_file, cables_file, allow_extrapolation)
     if not given:
         raise OptionError("--line", "say which line to remove: --cable ID --length L, or --length/--vf/--loss, "
                                     "or --line FILE (see deembed correct --help)")
@@ -120,11 +120,11 @@ def line_from_options(*, cable=None, length=None, vf=None, delay=None, z0=None, 
     return Line((sec,)), notes
 
 
-def read_line_file(path, cables_file=None) -> tuple[Line, list[str]]:
+def read_line_file(path, cables_file=None, allow_extrapolation: bool = False) -> tuple[Line, list[str]]:
     """A line from a TOML line description or a measured/characterized 2-port Touchstone file."""
     p = str(path)
     if not p.lower().endswith(".toml"):
-        return _two_port_line(p), []
+        return _two_port_line(p, allow_extrapolation), []
     data = _cables.load_toml(p)
     cat = _cables.catalog(cables_file)
     extra = data.get("cables", {})
@@ -142,7 +142,7 @@ def read_line_file(path, cables_file=None) -> tuple[Line, list[str]]:
         if unknown:
             raise InputFileError(p, f"{where}: unknown key(s) {', '.join(unknown)}; use {', '.join(sorted(known))}")
         if "measured" in entry:
-            parts.append(_two_port_line(os.path.join(base, str(entry["measured"]))).parts[0])
+            parts.append(_two_port_line(os.path.join(base, str(entry["measured"])), allow_extrapolation).parts[0])
             continue
         loss = entry.get("loss", [])
         if isinstance(loss, str):
@@ -163,14 +163,14 @@ def _txt(v):
     return None if v is None else str(v)
 
 
-def _two_port_line(path: str) -> Line:
+def _two_port_line(path: str, allow_extrapolation: bool = False) -> Line:
     """A measured (or characterized) 2-port file as a line. A characterization carries its model."""
     try:
         from .characterize import line_from_characterization  # optional: the far-end characterization
     except ImportError:  # pragma: no cover - present once characterization lands
         line_from_characterization = None
     if line_from_characterization is not None:
-        found = line_from_characterization(path)
+        found = line_from_characterization(path, allow_extrapolation=allow_extrapolation)
         if found is not None:
             return found
     from .touchstone import read_sweep

@@ -1,0 +1,14 @@
+"""Regenerate the sample sweeps of the invented "Ridgeback Hill" station (see deembed/samples.py).
+
+    python sample_sweeps/generate.py         # writes into this folder
+"""
+import os
+import sys
+
+sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+
+from deembed.samples import write_samples  # noqa: E402
+
+if __name__ == "__main__":
+    for path in write_samples(os.path.dirname(os.path.abspath(__file__))):
+        print(path)
