@@ -186,8 +186,6 @@ _register_optional()
 
 def main(argv=None) -> int:
     """Console entry point: run a command, turning user errors into one line and exit status 2."""
-    import click
-
     args = list(sys.argv[1:] if argv is None else argv)
     debug = "--debug" in args
     args = [a for a in args if a != "--debug"]
@@ -199,17 +197,23 @@ def main(argv=None) -> int:
             raise
         print(f"error: {exc}", file=sys.stderr)
         return 2
-    except click.exceptions.Exit as exc:
+    except typer.Exit as exc:
         return exc.exit_code
-    except click.ClickException as exc:
-        exc.show()
-        return exc.exit_code
-    except click.exceptions.Abort:
+    except typer.Abort:
         print("aborted", file=sys.stderr)
         return 1
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130
+    except Exception as exc:  # usage errors of the option parser carry show() and exit_code
+        if hasattr(exc, "show") and hasattr(exc, "exit_code"):
+            exc.show()
+            return exc.exit_code
+        if debug:
+            raise
+        print(f"internal error: {type(exc).__name__}: {exc} (run again with --debug for the traceback, "
+              "and please report it)", file=sys.stderr)
+        return 1
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -4,10 +4,20 @@ from __future__ import annotations
 from .units import fmt_freq
 
 
-def _spans(spans) -> str:
+def _spans(spans, most: int = 2) -> str:
+    """The widest ``most`` spans, in frequency order, and how many more there are."""
     if not spans:
         return "none in sweep"
-    return ", ".join(f"{fmt_freq(lo)} to {fmt_freq(hi)}" for lo, hi in spans)
+    widest = sorted(sorted(spans, key=lambda sp: sp[1] - sp[0], reverse=True)[:most])
+    text = ", ".join(f"{fmt_freq(lo)} to {fmt_freq(hi)}" for lo, hi in widest)
+    return text + (f" (+{len(spans) - most} narrow)" if len(spans) > most else "")
+
+
+def _row(label: str, left: str, right: str) -> str:
+    """A label and two columns; a long left cell pushes the right one onto its own line."""
+    if len(left) > 32:
+        return f"{label:24}{left}\n{'':58}{right}"
+    return f"{label:24}{left:34}{right}"
 
 
 def _min(end: dict) -> str:
@@ -21,8 +31,9 @@ def _res(end: dict) -> str:
     items = end.get("resonances") or []
     if not items:
         return "none in sweep"
-    shown = [f"{fmt_freq(r['freq_hz'], 6)} ({r['kind']})" for r in items[:3]]
-    return ", ".join(shown) + (f" +{len(items) - 3}" if len(items) > 3 else "")
+    if len(items) > 3:  # the line's rotation makes many crossings at the analyzer end
+        return f"{len(items)} crossings, {fmt_freq(items[0]['freq_hz'], 6)} to {fmt_freq(items[-1]['freq_hz'], 6)}"
+    return ", ".join(f"{fmt_freq(r['freq_hz'], 6)} ({r['kind']})" for r in items)
 
 
 def _q(end: dict) -> str:
@@ -45,12 +56,12 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
         f"{ln['matched_loss_db']['at_stop']:.2f} dB at {fmt_freq(ln['f_stop_hz'])}",
         "",
         f"{'':24}{'at the analyzer':34}{'at the feedpoint'}",
-        f"{'lowest SWR':24}{_min(sh):34}{_min(fp)}",
-        f"{'resonance (X = 0)':24}{_res(sh):34}{_res(fp)}",
+        _row("lowest SWR", _min(sh), _min(fp)),
+        _row("resonance (X = 0)", _res(sh), _res(fp)),
     ]
     for key in (fp.get("bandwidth_hz") or {}):
-        lines.append(f"{f'SWR <= {key} span':24}{_spans(sh['bandwidth_hz'].get(key)):34}{_spans(fp['bandwidth_hz'][key])}")
-    lines.append(f"{'Q near best match':24}{_q(sh):34}{_q(fp)}")
+        lines.append(_row(f"SWR <= {key} span", _spans(sh["bandwidth_hz"].get(key)), _spans(fp["bandwidth_hz"][key])))
+    lines.append(_row("Q near best match", _q(sh), _q(fp)))
     trim = fp.get("trim")
     if trim:
         verb = "lengthen" if trim["length_change_percent"] > 0 else "shorten"
