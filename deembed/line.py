@@ -220,7 +220,7 @@ class Line:
 
     def s_params(self, freq_hz, z_ref_ohm: float = Z_REF_OHM):
         """The whole line's S-parameters at ``z_ref_ohm``, shape (n, 2, 2)."""
-        if len(self.parts) == 1 and isinstance(self.parts[0], MeasuredTwoPort):
+        if len(self.parts) == 1 and hasattr(self.parts[0], "s_params"):  # a measured or characterized 2-port (50 ohm)
             return self.parts[0].s_params(freq_hz)
         return abcd_to_s(self.abcd(freq_hz), z_ref_ohm)
 

@@ -24,6 +24,8 @@ class Sweep:
         The reference resistance the file itself stated (for reporting only).
     comments : tuple of str
         Comment lines of the file, without the leading '!'.
+    notes : tuple of str
+        Remarks made while reading (defaults used, lines ignored), for the caller to show.
     """
 
     freq_hz: np.ndarray
@@ -31,6 +33,7 @@ class Sweep:
     source: str = "<memory>"
     file_z_ref_ohm: float = Z_REF_OHM
     comments: tuple = field(default_factory=tuple)
+    notes: tuple = field(default_factory=tuple)
 
     @property
     def nports(self) -> int:

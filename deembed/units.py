@@ -43,7 +43,10 @@ def _scaled(text, option, what, example, table, default_unit=None):
     if unit not in table:
         units = ", ".join(sorted({k for k in table if k.isalpha()}))
         raise OptionError(option, f"unknown unit {unit!r} in {text!r}; use one of {units} (e.g. {example})")
-    return value * table[unit]
+    scaled = value * table[unit]
+    if not math.isfinite(scaled):
+        raise OptionError(option, f"{text!r} is too large a {what}; write it like {example}")
+    return scaled
 
 
 def parse_frequency(text, option: str = "frequency") -> float:
@@ -124,3 +127,26 @@ def fmt_freq(hz: float, digits: int = 4) -> str:
 def fmt_length(m: float) -> str:
     """Metres with feet beside: '30.48 m (100.0 ft)'."""
     return f"{m:.2f} m ({m * FEET_PER_M:.1f} ft)"
+
+
+_CAPACITANCE = {"f": 1.0, "uf": 1e-6, "µf": 1e-6, "nf": 1e-9, "pf": 1e-12, "ff": 1e-15}
+_INDUCTANCE = {"h": 1.0, "mh": 1e-3, "uh": 1e-6, "µh": 1e-6, "nh": 1e-9, "ph": 1e-12}
+_RESISTANCE = {"ohm": 1.0, "ohms": 1.0, "ω": 1.0, "r": 1.0}
+
+
+def parse_capacitance(text, option: str = "--open-c") -> float:
+    """'12fF', '0.05pF' -> farads. A unit is required; a kit's stated offset may be negative."""
+    return _scaled(text, option, "capacitance", "12fF", _CAPACITANCE)
+
+
+def parse_inductance(text, option: str = "--short-l") -> float:
+    """'5pH', '0.02nH' -> henries. A unit is required; a kit's stated offset may be negative."""
+    return _scaled(text, option, "inductance", "5pH", _INDUCTANCE)
+
+
+def parse_resistance(text, option: str = "--load-r") -> float:
+    """'50.2', '50.2ohm' -> ohms (a bare number is ohms). Must be positive."""
+    r = _scaled(text, option, "resistance", "50.2ohm", _RESISTANCE, default_unit="ohm")
+    if r <= 0:
+        raise OptionError(option, f"{text!r}: a resistance must be positive")
+    return r

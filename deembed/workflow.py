@@ -85,7 +85,8 @@ def budget_columns(corr, power_w: float) -> dict:
 def analyse(sweep, line, opts: Options):
     """Correct a sweep and work out everything the outputs show. Returns (correction, summary, table)."""
     corr = correct(sweep, line)
-    summary = summarise(corr, thresholds=opts.thresholds, notes=list(opts.notes) + list(getattr(sweep, "notes", ())))
+    summary = summarise(corr, thresholds=opts.thresholds, notes=list(opts.notes) + list(getattr(sweep, "notes", ())),
+                        sweep_info={"comments": list(getattr(sweep, "comments", ()))})
     budget = budget_columns(corr, opts.power_w) if opts.power_w else None
     table = table_columns(corr, budget)
     if opts.target_hz is not None:

@@ -1,0 +1,859 @@
+"""Characterize a feed line from reflections measured at its analyzer end with standards at its far end.
+
+Three ways in, by what was measured at the far end:
+
+* **open, short and load**: the three-term one-port error model (directivity e00, source match e11,
+  reflection tracking e10e01) solved per frequency, then read as the reciprocal 2-port of the whole run,
+  connectors, adapters and mixed-impedance sections included (:func:`osl_error_terms`,
+  :func:`error_terms_to_two_port`);
+* **open and short**: a uniform line, Zc = sqrt(Zoc Zsc), tanh(gamma l) = Zsc / Zc (:func:`open_short_line`);
+* **open alone or short alone**: the physical line model fitted by least squares (:func:`fit_line_model`).
+
+Every method also fits the physical model (a :class:`~deembed.line.Section`: nominal Z0, one-way delay,
+matched loss c*sqrt(f) + d*f) so the line can be evaluated at frequencies other than the measured ones
+without interpolating raw complex values across many phase turns (:class:`CharacterizedLine`).
+
+Conventions: reflections at 50 ohm; port 1 of every 2-port at the analyzer, port 2 at the far end;
+frequency is the first axis; everything vectorised over frequency.
+
+References
+----------
+D. Rytting, "Network Analyzer Error Models and Calibration Methods", seminar notes (the three-term model).
+D. M. Pozar, *Microwave Engineering* 4th ed. (Wiley 2012), sec. 2.1, 2.7 (lossy lines).
+S. W. Ellingson, *Electromagnetics Vol. 1* (VT Publishing 2018), "Measurement of transmission line
+characteristics" (line from open- and short-circuit impedances).
+F. Witt, "Measuring Cable Loss", *QEX* May/Jun 2005, p. 44 (matched loss from open/short return loss).
+"""
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from .errors import DeembedError, InputFileError, OptionError
+from .line import (C0_M_PER_S, DB_PER_NP, M_PER_100FT, Line, LossModel, Section, abcd_to_s, s_to_abcd)
+from .rf import Z_REF_OHM
+
+MODEL_TAG = "deembed-line-model:"
+"""Comment prefix under which a characterization file stores its fitted physical model (JSON)."""
+
+METHODS = ("open-short-load", "open-short", "open", "short")
+
+CATALOG_FLAG_RATIO = 1.5
+"""Measured loss above this multiple of the catalog figure is flagged (wet, crushed or aged cable).
+
+Decision: the catalog's figures are nominal to about +/-15-25 %; 1.5x is well outside that band, so a
+flag means something is wrong with the run rather than with the catalog (common practice, no source).
+"""
+
+MAX_SINGLE_RESIDUAL = 0.05
+"""Largest RMS misfit in reflection (linear units) accepted for a one-standard fit."""
+
+FREQ_MATCH_RTOL = 1e-9
+"""Relative tolerance under which a sweep frequency counts as one of the characterization's own points."""
+
+
+class CharacterizationError(DeembedError):
+    """A characterization that cannot be trusted (a fit that failed, data that do not describe a line)."""
+
+
+# --------------------------------------------------------------------------------------------------
+# Standards
+# --------------------------------------------------------------------------------------------------
+def standard_gammas(freq_hz, *, open_c_f=0.0, short_l_h=0.0, load_r_ohm=Z_REF_OHM, z_ref_ohm=Z_REF_OHM):
+    """Actual reflections of an open, a short and a load with small lumped offsets.
+
+    Parameters
+    ----------
+    freq_hz : array_like (n,)
+        Frequencies, Hz.
+    open_c_f : float
+        Fringing capacitance of the open, F (0 = ideal open).
+    short_l_h : float
+        Inductance of the short, H (0 = ideal short).
+    load_r_ohm : float
+        Resistance of the load, ohm (``z_ref_ohm`` = ideal load).
+
+    Returns
+    -------
+    (gamma_open, gamma_short, gamma_load) : three complex arrays (n,)
+
+    Notes
+    -----
+    Gamma = (Z - Zref)/(Z + Zref) (Pozar 4th ed. eq. 2.35) with Z_open = 1/(j w C), Z_short = j w L,
+    Z_load = R; written for the open as (1 - j w C Zref)/(1 + j w C Zref) so that C = 0 gives exactly +1.
+    """
+    w = 2 * np.pi * np.asarray(freq_hz, dtype=float)
+    yc = 1j * w * open_c_f * z_ref_ohm
+    g_open = (1 - yc) / (1 + yc)
+    zl = 1j * w * short_l_h
+    g_short = (zl - z_ref_ohm) / (zl + z_ref_ohm)
+    g_load = np.full(w.shape, (load_r_ohm - z_ref_ohm) / (load_r_ohm + z_ref_ohm), dtype=complex)
+    return g_open, g_short, g_load
+
+
+# --------------------------------------------------------------------------------------------------
+# Open, short and load: the three-term error model and its 2-port
+# --------------------------------------------------------------------------------------------------
+def osl_error_terms(m_open, m_short, m_load, *, freq_hz=None, open_c_f=0.0, short_l_h=0.0,
+                    load_r_ohm=Z_REF_OHM, z_ref_ohm=Z_REF_OHM):
+    """Solve the one-port three-term error model from open, short and load measured through the run.
+
+    Parameters
+    ----------
+    m_open, m_short, m_load : array_like complex (n,)
+        Reflections measured at the analyzer with the open, short and load at the far end.
+    freq_hz : array_like (n,), optional
+        Frequencies, Hz; needed only when a standard has an offset (capacitance or inductance).
+    open_c_f, short_l_h, load_r_ohm : float
+        The standards' offsets (see :func:`standard_gammas`); defaults are ideal standards.
+
+    Returns
+    -------
+    (e00, e11, e10e01) : complex arrays (n,)
+        Directivity, source match and reflection tracking.
+
+    Notes
+    -----
+    Model: Gm = e00 + e10e01 Ga / (1 - e11 Ga) (Rytting; check-values F16). Ideal standards (Ga = +1, -1, 0)
+    give the closed form e00 = M_L, A = M_O - e00, B = M_S - e00, e11 = (A + B)/(A - B),
+    e10e01 = -2AB/(A - B) (check-values F17). Otherwise the linear form
+    Gm = b + Ga a + Ga Gm c with a = e10e01 - e00 e11, b = e00, c = e11 gives three linear equations per
+    frequency, solved in one batched call.
+    """
+    mo, ms, ml = (np.asarray(m, dtype=complex) for m in (m_open, m_short, m_load))
+    ideal = open_c_f == 0 and short_l_h == 0 and load_r_ohm == z_ref_ohm
+    if ideal:
+        e00 = ml.copy()
+        a = mo - e00
+        b = ms - e00
+        den = a - b
+        if np.any(den == 0):
+            raise CharacterizationError("the open and the short measure the same; check that the files are an "
+                                        "open and a short at the far end")
+        return e00, (a + b) / den, -2 * a * b / den
+    if freq_hz is None:
+        raise OptionError("freq_hz", "standards with offsets need the frequencies; pass freq_hz")
+    ga = np.stack(standard_gammas(freq_hz, open_c_f=open_c_f, short_l_h=short_l_h, load_r_ohm=load_r_ohm,
+                                  z_ref_ohm=z_ref_ohm), axis=-1)  # (n, 3)
+    gm = np.stack(np.broadcast_arrays(mo, ms, ml), axis=-1)  # (n, 3)
+    # unknowns x = (a, b, c): Ga*a + b + Ga*Gm*c = Gm
+    mat = np.stack([ga, np.ones_like(ga), ga * gm], axis=-1)  # (n, 3, 3)
+    try:
+        x = np.linalg.solve(mat, gm[..., None])[..., 0]
+    except np.linalg.LinAlgError:
+        raise CharacterizationError("the three standards do not determine the error terms at some frequency "
+                                    "(two standards measure the same); check the files") from None
+    a, e00, e11 = x[..., 0], x[..., 1], x[..., 2]
+    return e00, e11, a + e00 * e11
+
+
+def apply_error_terms(gamma_m, e00, e11, e10e01):
+    """Remove the error terms from a measured reflection: Ga = (Gm - e00)/(e10e01 + e11 (Gm - e00)) (F16)."""
+    d = np.asarray(gamma_m, dtype=complex) - e00
+    return d / (e10e01 + e11 * d)
+
+
+def continuous_sqrt(p, freq_hz):
+    """The square root of ``p`` (n,) whose phase runs continuously across the sweep.
+
+    Notes
+    -----
+    The phase of ``p`` is unwrapped and halved, so neighbouring points take the same branch. That leaves one
+    sign for the whole sweep; it is chosen so that the phase, extrapolated by a straight line to 0 Hz, lands
+    nearer 0 than pi (a run's transmission phase is -w*tau plus a small dispersive part). With a single
+    point the principal root is taken.
+    """
+    p = np.asarray(p, dtype=complex)
+    f = np.asarray(freq_hz, dtype=float)
+    half = np.unwrap(np.angle(p)) / 2
+    t = np.sqrt(np.abs(p)) * np.exp(1j * half)
+    if p.size >= 2:
+        intercept = np.polyfit(f, half, 1)[1]
+        if abs((intercept + np.pi) % (2 * np.pi) - np.pi) > np.pi / 2:
+            t = -t
+    return t
+
+
+def error_terms_to_two_port(e00, e11, e10e01, freq_hz):
+    """The reciprocal 2-port equivalent to the error terms, S (n, 2, 2), port 1 at the analyzer.
+
+    Notes
+    -----
+    S11 = e00, S22 = e11, S21 = S12 = sqrt(e10e01) with the branch of :func:`continuous_sqrt`. Only the
+    product S21 S12 matters for de-embedding; the sign of S21 matters for the physical-model fit and for
+    any later cascade.
+    """
+    t = continuous_sqrt(e10e01, freq_hz)
+    s = np.empty(np.shape(t) + (2, 2), dtype=complex)
+    s[:, 0, 0] = e00
+    s[:, 1, 1] = e11
+    s[:, 0, 1] = t
+    s[:, 1, 0] = t
+    return s
+
+
+# --------------------------------------------------------------------------------------------------
+# Open and short: a uniform line
+# --------------------------------------------------------------------------------------------------
+def _anchor_im(im, freq_hz, approx_delay_s):
+    """Unwrap Im(gamma l) (known mod pi) across the sweep and fix its integer multiple of pi."""
+    f = np.asarray(freq_hz, dtype=float)
+    im = np.unwrap(im, period=np.pi) if im.size >= 2 else im
+    if approx_delay_s is not None:
+        m = np.round(np.mean(2 * np.pi * f * approx_delay_s - im) / np.pi)
+    elif im.size >= 2:
+        m = np.round(-np.polyfit(f, im, 1)[1] / np.pi)  # beta*l -> 0 at 0 Hz
+    else:
+        m = 0.0  # principal branch: assumes a line shorter than a quarter wave
+    return im + m * np.pi
+
+
+def open_short_line(z_oc, z_sc, *, freq_hz=None, open_c_f=0.0, short_l_h=0.0, approx_delay_s=None):
+    """Characteristic impedance and complex electrical length of a uniform line from Zoc and Zsc.
+
+    Parameters
+    ----------
+    z_oc, z_sc : array_like complex (n,)
+        Input impedances with the far end open and shorted, ohm.
+    freq_hz : array_like (n,), optional
+        Frequencies, Hz. Needed for offsets and to choose the branch of beta*l over a sweep.
+    open_c_f, short_l_h : float
+        Offsets of the open (F) and short (H); 0 = ideal.
+    approx_delay_s : float, optional
+        Approximate one-way delay (length / (VF c)), to anchor the branch of beta*l.
+
+    Returns
+    -------
+    (zc_ohm, gamma_l) : complex arrays (n,)
+        Zc (Re > 0) and gamma*l = alpha*l + j beta*l (Np + j rad).
+
+    Notes
+    -----
+    Ideal standards: Zc = sqrt(Zoc Zsc), tanh(gamma l) = Zsc / Zc (check-values F14, Ellingson vol. 1,
+    lossy form from F6). tanh has period j*pi, so beta*l is known only mod pi: the principal value is
+    unwrapped across the sweep and its multiple of pi fixed either by ``approx_delay_s`` or by
+    extrapolating beta*l to 0 at 0 Hz; a single frequency with neither takes the principal branch
+    (a line shorter than a quarter wave, as in Cheng's example, check-values E3).
+
+    With offsets (Z_L = 1/(jwC) for the open, jwL for the short) the symmetric line's ABCD (A = D,
+    A^2 - BC = 1) obeys Zin (C + A Y_L) = A + B Y_L for each termination: two linear homogeneous equations
+    in (A, B, C), whose solution is the cross product of their coefficient rows, scaled so that
+    A^2 - BC = 1. Then Zc = sqrt(B/C), gamma*l = ln(A + B/Zc).
+    """
+    zoc = np.asarray(z_oc, dtype=complex)
+    zsc = np.asarray(z_sc, dtype=complex)
+    if open_c_f == 0 and short_l_h == 0:
+        zc = np.sqrt(zoc * zsc)
+        zc = np.where(zc.real < 0, -zc, zc)
+        gl = np.arctanh(zsc / zc)
+    else:
+        if freq_hz is None:
+            raise OptionError("freq_hz", "standards with offsets need the frequencies; pass freq_hz")
+        w = 2 * np.pi * np.asarray(freq_hz, dtype=float)
+        y_open = 1j * w * open_c_f
+        z_short = 1j * w * short_l_h
+        r1 = np.stack([zoc * y_open - 1, -y_open, zoc], axis=-1)  # A(Zin Y - 1) - B Y + C Zin = 0
+        r2 = np.stack([zsc - z_short, -np.ones_like(zsc), zsc * z_short], axis=-1)  # A(Zin - Z) - B + C Zin Z = 0
+        abc = np.cross(r1, r2)
+        abc = abc / np.sqrt(abc[..., 0] ** 2 - abc[..., 1] * abc[..., 2])[..., None]
+        a, b, c = abc[..., 0], abc[..., 1], abc[..., 2]
+        zc = np.sqrt(b / c)
+        zc = np.where(zc.real < 0, -zc, zc)
+        gl = np.log(a + b / zc)
+        gl = np.where(gl.real < 0, -gl, gl)  # the root with a passive (decaying) wave
+    if freq_hz is not None:
+        gl = gl.real + 1j * _anchor_im(gl.imag, freq_hz, approx_delay_s)
+    elif approx_delay_s is not None:
+        raise OptionError("freq_hz", "an approximate delay needs the frequencies")
+    return zc, gl
+
+
+def uniform_two_port(zc_ohm, gamma_l, z_ref_ohm=Z_REF_OHM):
+    """S (n, 2, 2) at ``z_ref_ohm`` of a uniform line given per frequency by Zc and gamma*l (ABCD, Pozar Table 4.2)."""
+    zc = np.asarray(zc_ohm, dtype=complex)
+    gl = np.asarray(gamma_l, dtype=complex)
+    m = np.empty(gl.shape + (2, 2), dtype=complex)
+    ch, sh = np.cosh(gl), np.sinh(gl)
+    m[..., 0, 0] = ch
+    m[..., 0, 1] = zc * sh
+    m[..., 1, 0] = sh / zc
+    m[..., 1, 1] = ch
+    return abcd_to_s(m, z_ref_ohm)
+
+
+def matched_loss_from_return_loss(rl_open_db=None, rl_short_db=None):
+    """The trade's quick estimate of one-way matched loss from an open- and/or short-terminated line, dB.
+
+    Notes
+    -----
+    An open or short at the far end returns everything it gets, so the return loss at the input is twice
+    the one-way matched loss: ML = RL/2; with both, ML = (RL_open + RL_short)/4 evens out the ripple of a
+    Zc not quite 50 ohm (F. Witt, QEX May/Jun 2005 p. 44, citing the ARRL Antenna Book; check-values F11).
+    """
+    vals = [np.asarray(v, dtype=float) for v in (rl_open_db, rl_short_db) if v is not None]
+    if not vals:
+        raise OptionError("return loss", "give the return loss with the far end open, shorted, or both")
+    return sum(vals) / (2 * len(vals))
+
+
+# --------------------------------------------------------------------------------------------------
+# The physical model, fitted
+# --------------------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class ModelFit:
+    """A physical line model fitted to measured data.
+
+    Attributes
+    ----------
+    section : Section
+        The fitted uniform section (Z0, one-way delay, loss c*sqrt(f) + d*f).
+    residual_rms, residual_max : float
+        RMS and largest misfit of the fitted quantities (linear reflection / S-parameter units).
+    n_points : int
+    z0_fitted : bool
+        Whether Z0 was fitted (else it is the nominal value given).
+    """
+
+    section: Section
+    residual_rms: float
+    residual_max: float
+    n_points: int
+    z0_fitted: bool
+
+
+def _initial_guess(freq_hz, q):
+    """Delay and loss from a round-trip quantity q ~ exp(-2 gamma l) (S21 S12, or Gamma_in/Gamma_L)."""
+    f = np.asarray(freq_hz, dtype=float)
+    phase = np.unwrap(np.angle(q))
+    slope = np.polyfit(f, phase, 1)[0]
+    tau = -slope / (4 * np.pi)
+    from scipy.optimize import nnls
+
+    a_np = -np.log(np.maximum(np.abs(q), 1e-12)) / 2
+    cd, _ = nnls(np.column_stack([np.sqrt(f), f]), a_np)
+    return tau, float(cd[0]), float(cd[1])
+
+
+def fit_line_model(freq_hz, *, s=None, gamma_in=None, gamma_load=None, z0_ohm=Z_REF_OHM, fit_z0=False,
+                   max_residual=None, max_nfev=200, label="fitted line") -> ModelFit:
+    """Fit a uniform line (delay, conductor and dielectric loss, optionally Z0) by least squares.
+
+    Give either ``s`` (n, 2, 2), a measured 2-port of the run, or ``gamma_in`` (n,) measured with a known
+    termination ``gamma_load`` (+1 for an ideal open, -1 for an ideal short) at the far end.
+
+    Parameters
+    ----------
+    freq_hz : array_like (n,)
+        Frequencies, Hz (at least 5).
+    z0_ohm : float
+        Nominal characteristic impedance, ohm (fixed unless ``fit_z0``).
+    max_residual : float, optional
+        Refuse a fit whose RMS misfit is above this (linear units).
+    max_nfev : int
+        Most model evaluations allowed; a fit that needs more is refused as not converged.
+
+    Returns
+    -------
+    ModelFit
+
+    Raises
+    ------
+    CharacterizationError
+        When the data do not look like a line, the fit does not converge, or its misfit is above
+        ``max_residual``; the message says why and what to do.
+
+    Notes
+    -----
+    The model is :class:`~deembed.line.Section` (RLGC with R ~ sqrt(f), G ~ f; Pozar 4th ed. sec. 2.1, 2.7),
+    evaluated as S at 50 ohm. For a 2-port the residuals are S11, S22 and S21*S12 (the product is free of
+    the sign ambiguity of S21); for one standard, Gamma_in = S11 + S21 S12 G_L/(1 - S22 G_L).
+    Initial guess: Gamma_in ~ G_L exp(-2 gamma l), so the unwrapped phase falls as -4 pi f tau and
+    |Gamma_in| = exp(-2 A(f)); the loss is fitted by non-negative least squares on [sqrt(f), f].
+    Solved with ``scipy.optimize.least_squares`` (trust-region reflective, bounds keep delay and loss >= 0).
+    """
+    from scipy.optimize import least_squares
+
+    f = np.asarray(freq_hz, dtype=float)
+    n = f.size
+    if n < 5:
+        raise CharacterizationError(f"a line model needs at least 5 frequencies to fit; the sweep has {n}. "
+                                    "Sweep the line over more points")
+    if s is not None:
+        s = np.asarray(s, dtype=complex)
+        meas = np.concatenate([s[:, 0, 0], s[:, 1, 1], s[:, 1, 0] * s[:, 0, 1]])
+        q = s[:, 1, 0] * s[:, 0, 1]
+    else:
+        g_in = np.asarray(gamma_in, dtype=complex)
+        g_l = np.broadcast_to(np.asarray(gamma_load, dtype=complex), g_in.shape)
+        meas = g_in
+        q = g_in / g_l
+    tau0, c0, d0 = _initial_guess(f, q)
+    if not tau0 > 0:
+        raise CharacterizationError("the measured phase does not fall with frequency as a line's does; check "
+                                    "that the file is the line with the standard at its far end, and that the "
+                                    "sweep's points are close enough (well under half a turn of round-trip "
+                                    "phase apart: a step below 1/(4 x delay))")
+    f_top = float(f.max())
+    scale = np.array([tau0, 1.0, 1.0, z0_ohm])
+
+    def unpack(x):
+        tau = x[0] * scale[0]
+        c = x[1] / math.sqrt(f_top)
+        d = x[2] / f_top
+        z0 = x[3] * scale[3] if fit_z0 else z0_ohm
+        return Section(float(z0), float(tau), LossModel(float(c), float(d)), label=label)
+
+    def model(x):
+        sm = abcd_to_s(unpack(x).abcd(f))
+        if s is not None:
+            return np.concatenate([sm[:, 0, 0], sm[:, 1, 1], sm[:, 1, 0] * sm[:, 0, 1]])
+        return sm[:, 0, 0] + sm[:, 0, 1] * sm[:, 1, 0] * g_l / (1 - sm[:, 1, 1] * g_l)
+
+    def resid(x):
+        r = model(x) - meas
+        return np.concatenate([r.real, r.imag])
+
+    x0 = np.array([1.0, c0 * math.sqrt(f_top), d0 * f_top, 1.0])
+    lo = np.array([1e-6, 0.0, 0.0, 0.05])
+    hi = np.array([np.inf, np.inf, np.inf, 20.0])
+    if not fit_z0:
+        x0, lo, hi = x0[:3], lo[:3], hi[:3]
+
+        def resid3(x):
+            return resid(np.append(x, 1.0))
+
+        fun = resid3
+    else:
+        fun = resid
+    x0 = np.clip(x0, lo, np.where(np.isfinite(hi), hi, x0 + 1))
+    with np.errstate(all="ignore"):
+        res = least_squares(fun, x0, bounds=(lo, hi), method="trf", x_scale="jac", xtol=1e-14, ftol=1e-14,
+                            gtol=1e-14, max_nfev=max_nfev)
+    if res.status <= 0 or not np.all(np.isfinite(res.x)):
+        raise CharacterizationError(f"the line-model fit did not converge ({res.message.rstrip('.')}); "
+                                    "check that the files are the standards at the line's far end, or measure "
+                                    "open, short and load for a model-free characterization")
+    x = res.x if fit_z0 else np.append(res.x, 1.0)
+    sec = unpack(x)
+    r = model(x) - meas
+    rms = float(np.sqrt(np.mean(np.abs(r) ** 2)))
+    worst = float(np.max(np.abs(r)))
+    if max_residual is not None and rms > max_residual:
+        raise CharacterizationError(
+            f"the best line-model fit leaves an RMS misfit of {rms:.3g} in reflection (more than {max_residual:g}): "
+            "the run does not behave as one uniform line of the given Z0 (adapters, mixed-impedance sections, a "
+            "fault), or the file is not the standard at its far end. Measure open and short (or open, short and "
+            "load) to characterize it without a model")
+    return ModelFit(sec, rms, worst, n, bool(fit_z0))
+
+
+# --------------------------------------------------------------------------------------------------
+# The whole characterization
+# --------------------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Characterization:
+    """A feed line characterized from far-end standards.
+
+    Attributes
+    ----------
+    method : str
+        One of ``METHODS``.
+    freq_hz : ndarray (n,)
+        The measured frequencies, Hz.
+    s : ndarray (n, 2, 2)
+        The run's 2-port at 50 ohm, port 1 at the analyzer (for one standard: the fitted model's).
+    fit : ModelFit
+        The physical model fitted to the run.
+    zc_ohm : ndarray (n,) or None
+        Characteristic impedance per frequency (open-short method only).
+    standards : dict
+        The standards' offsets (open_c_f, short_l_h, load_r_ohm).
+    notes : tuple of str
+    """
+
+    method: str
+    freq_hz: np.ndarray
+    s: np.ndarray
+    fit: ModelFit
+    zc_ohm: np.ndarray | None = None
+    standards: dict = field(default_factory=dict)
+    notes: tuple = ()
+
+    @property
+    def section(self) -> Section:
+        return self.fit.section
+
+    @property
+    def f_min_hz(self) -> float:
+        return float(self.freq_hz[0])
+
+    @property
+    def f_max_hz(self) -> float:
+        return float(self.freq_hz[-1])
+
+    def line(self, source: str = "<memory>", allow_extrapolation: bool = False) -> Line:
+        """The characterized run as a :class:`~deembed.line.Line`."""
+        return Line((CharacterizedLine(self.freq_hz, self.s, self.section, self.f_min_hz, self.f_max_hz,
+                                       self.method, source, allow_extrapolation),))
+
+
+def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None, z0_ohm=Z_REF_OHM,
+                 open_c_f=0.0, short_l_h=0.0, load_r_ohm=Z_REF_OHM, approx_delay_s=None,
+                 max_residual=MAX_SINGLE_RESIDUAL) -> Characterization:
+    """Characterize a run from the reflections measured at its analyzer end with standards at its far end.
+
+    Parameters
+    ----------
+    freq_hz : array_like (n,)
+        Strictly increasing frequencies, Hz, shared by every standard's measurement.
+    gamma_open, gamma_short, gamma_load : array_like complex (n,), optional
+        Reflections (50 ohm) measured with the open, short, load at the far end. Open+short+load,
+        open+short, open alone or short alone.
+    z0_ohm : float
+        Nominal Z0 for a one-standard fit, ohm.
+    open_c_f, short_l_h, load_r_ohm : float
+        Offsets of a characterized kit (ideal by default).
+    approx_delay_s : float, optional
+        Approximate one-way delay to anchor the open-short branch of beta*l.
+    max_residual : float
+        Largest RMS misfit accepted for a one-standard fit.
+    """
+    f = np.asarray(freq_hz, dtype=float)
+    if f.ndim != 1 or f.size == 0 or np.any(np.diff(f) <= 0) or f[0] <= 0:
+        raise OptionError("freq_hz", "frequencies must be positive and strictly increasing")
+    have = tuple(g is not None for g in (gamma_open, gamma_short, gamma_load))
+    offsets = {"open_c_f": float(open_c_f), "short_l_h": float(short_l_h), "load_r_ohm": float(load_r_ohm)}
+    g_o, g_s, g_l = standard_gammas(f, open_c_f=open_c_f, short_l_h=short_l_h, load_r_ohm=load_r_ohm)
+    notes = []
+    if have == (True, True, True):
+        e00, e11, e10e01 = osl_error_terms(gamma_open, gamma_short, gamma_load, freq_hz=f, open_c_f=open_c_f,
+                                           short_l_h=short_l_h, load_r_ohm=load_r_ohm)
+        s = error_terms_to_two_port(e00, e11, e10e01, f)
+        fit = fit_line_model(f, s=s, z0_ohm=z0_ohm, fit_z0=True, label="characterized run (equivalent uniform line)")
+        if fit.residual_rms > 0.01:
+            notes.append(f"the run is not one uniform line (model misfit {fit.residual_rms:.3g} RMS): on its measured "
+                         "points it is used exactly, elsewhere through the equivalent uniform line only approximately")
+        return Characterization("open-short-load", f, s, fit, None, offsets, tuple(notes))
+    if have == (True, True, False):
+        z = lambda g: Z_REF_OHM * (1 + np.asarray(g, dtype=complex)) / (1 - np.asarray(g, dtype=complex))  # noqa: E731
+        with np.errstate(divide="ignore", invalid="ignore"):
+            zoc, zsc = z(gamma_open), z(gamma_short)
+        if not (np.all(np.isfinite(zoc)) and np.all(np.isfinite(zsc))):
+            raise CharacterizationError("a reflection of exactly 1 (or exactly -1 for the open) means no line is "
+                                        "there; check the files")
+        zc, gl = open_short_line(zoc, zsc, freq_hz=f, open_c_f=open_c_f, short_l_h=short_l_h,
+                                 approx_delay_s=approx_delay_s)
+        s = uniform_two_port(zc, gl)
+        fit = fit_line_model(f, s=s, z0_ohm=z0_ohm, fit_z0=True, label="characterized line")
+        if fit.residual_rms > 0.01:
+            notes.append(f"the line departs from the physical model (misfit {fit.residual_rms:.3g} RMS): off its measured "
+                         "points it is evaluated only approximately")
+        return Characterization("open-short", f, s, fit, zc, offsets, tuple(notes))
+    if have in ((True, False, False), (False, True, False)):
+        which = "open" if have[0] else "short"
+        g_in = gamma_open if have[0] else gamma_short
+        fit = fit_line_model(f, gamma_in=g_in, gamma_load=g_o if have[0] else g_s, z0_ohm=z0_ohm,
+                             max_residual=max_residual, label="fitted line")
+        s = abcd_to_s(fit.section.abcd(f))
+        notes.append(f"one standard only: Z0 taken as {z0_ohm:g} ohm, the line is the fitted model")
+        return Characterization(which, f, s, fit, None, offsets, tuple(notes))
+    raise OptionError("--open/--short/--load", "give open, short and load; or open and short; or open or short "
+                                               "alone (a load alone, or a load with one other standard, cannot "
+                                               "characterize the line)")
+
+
+# --------------------------------------------------------------------------------------------------
+# Report numbers
+# --------------------------------------------------------------------------------------------------
+def default_report_frequencies(f_min_hz, f_max_hz, most=6):
+    """Round frequencies (1-2-5 steps) inside the range, at most ``most`` of them, Hz."""
+    lo, hi = float(f_min_hz), float(f_max_hz)
+    decades = range(int(math.floor(math.log10(lo))), int(math.ceil(math.log10(hi))) + 1)
+    vals = [m * 10.0 ** d for d in decades for m in (1, 2, 5) if lo <= m * 10.0 ** d <= hi]
+    if not vals:
+        return [lo, math.sqrt(lo * hi), hi] if hi > lo else [lo]
+    if len(vals) > most:
+        idx = np.round(np.linspace(0, len(vals) - 1, most)).astype(int)
+        vals = [vals[i] for i in sorted(set(idx))]
+    return vals
+
+
+def characterization_report(ch: Characterization, *, at_hz=None, length_m=None, cable=None,
+                            flag_ratio=CATALOG_FLAG_RATIO, gamma_open=None, gamma_short=None) -> dict:
+    """The numbers a user wants from a characterization, as a JSON-ready dict (SI units, named in keys).
+
+    Parameters
+    ----------
+    at_hz : sequence of float, optional
+        Frequencies to report the loss at (default: :func:`default_report_frequencies`).
+    length_m : float, optional
+        Physical length; gives the velocity factor, loss per 100 m / 100 ft and k1, k2 per 100 ft.
+    cable : deembed.cables.Cable, optional
+        Catalog cable to compare the loss with; measured loss above ``flag_ratio`` times the catalog's is
+        flagged. Without ``length_m`` the length is estimated from the delay and the cable's VF.
+    gamma_open, gamma_short : arrays (n,), optional
+        The raw open/short measurements, for the return-loss check ML = RL/2 (F11).
+
+    Notes
+    -----
+    k1, k2 (dB per 100 ft at f in MHz: A = k1 sqrt(f) + k2 f) are the fitted LossModel's c, d rescaled:
+    k1 = 8.6859 c 1e3 (30.48/length), k2 = 8.6859 d 1e6 (30.48/length), the inverse of
+    :meth:`LossModel.from_k`. Loss at a frequency is Re(gamma l) of the full RLGC model, in dB.
+    """
+    sec = ch.section
+    at = list(at_hz) if at_hz else default_report_frequencies(ch.f_min_hz, ch.f_max_hz)
+    at_arr = np.asarray(at, dtype=float)
+    loss_db = np.atleast_1d(sec.matched_loss_db(at_arr))
+    notes = list(ch.notes)
+    out = {
+        "method": ch.method,
+        "f_min_hz": ch.f_min_hz, "f_max_hz": ch.f_max_hz, "points": int(ch.freq_hz.size),
+        "standards": dict(ch.standards),
+        "model": {"z0_ohm": sec.z0_ohm, "z0_fitted": ch.fit.z0_fitted, "delay_s": sec.delay_s,
+                  "electrical_length_m": sec.delay_s * C0_M_PER_S, "c_np": sec.loss.c_np, "d_np": sec.loss.d_np,
+                  "residual_rms": ch.fit.residual_rms, "residual_max": ch.fit.residual_max},
+    }
+    length_used, length_note = length_m, None
+    if length_m is None and cable is not None:
+        length_used = sec.delay_s * C0_M_PER_S * cable.vf
+        length_note = f"length estimated as {length_used:.2f} m from the delay and the {cable.id} velocity factor"
+        notes.append(length_note)
+    if length_m is not None:
+        vf = length_m / (sec.delay_s * C0_M_PER_S)
+        out["length_m"] = length_m
+        out["vf"] = vf
+        if vf > 1.0:
+            raise OptionError("--length", f"the measured delay {sec.delay_s * 1e9:.4g} ns over {length_m:g} m means a "
+                                          f"velocity factor of {vf:.3g}, above 1; check the length")
+        if cable is not None and abs(vf - cable.vf) > 0.05 * cable.vf:
+            notes.append(f"velocity factor {vf:.3f} differs from the catalog's {cable.vf:g} for {cable.id} by more than 5 %")
+    if length_used:
+        per_ft = M_PER_100FT / length_used
+        out["k1_db_per_100ft"] = DB_PER_NP * sec.loss.c_np * 1e3 * per_ft
+        out["k2_db_per_100ft"] = DB_PER_NP * sec.loss.d_np * 1e6 * per_ft
+    else:
+        out["k1_db_run"] = DB_PER_NP * sec.loss.c_np * 1e3  # whole run, dB per sqrt(MHz)
+        out["k2_db_run"] = DB_PER_NP * sec.loss.d_np * 1e6  # whole run, dB per MHz
+    rows = []
+    flagged = False
+    for fa, ldb in zip(at_arr, loss_db):
+        row = {"freq_hz": float(fa), "loss_db": float(ldb)}
+        if not (ch.f_min_hz * (1 - FREQ_MATCH_RTOL) <= fa <= ch.f_max_hz * (1 + FREQ_MATCH_RTOL)):
+            row["outside_range"] = True
+        if length_used:
+            row["loss_db_per_100m"] = float(ldb) * 100.0 / length_used
+            row["loss_db_per_100ft"] = float(ldb) * M_PER_100FT / length_used
+        if cable is not None and length_used:
+            cat = float(cable.loss_db_per_100ft(fa))
+            row["catalog_db_per_100ft"] = cat
+            row["ratio_to_catalog"] = row["loss_db_per_100ft"] / cat if cat > 0 else None
+            if cat > 0 and row["ratio_to_catalog"] > flag_ratio:
+                row["flag"] = "well above catalog"
+                flagged = True
+        rows.append(row)
+    out["loss"] = rows
+    if any(r.get("outside_range") for r in rows):
+        notes.append("some report frequencies lie outside the characterized range: their loss is extrapolated")
+    if cable is not None:
+        out["catalog"] = {"id": cable.id, "name": cable.name, "source": cable.source, "flag_ratio": flag_ratio,
+                          "flagged": flagged}
+        if flagged:
+            notes.append(f"measured loss is well above (more than {flag_ratio:g}x) the catalog figure for "
+                         f"{cable.id}: suspect water in the cable, damage, or a poor connector")
+    if ch.zc_ohm is not None:
+        idx = np.argmin(np.abs(ch.freq_hz[None, :] - at_arr[:, None]), axis=1)  # nearest measured point
+        out["zc_measured_ohm"] = [{"freq_hz": float(ch.freq_hz[i]), "re": float(ch.zc_ohm[i].real),
+                                   "im": float(ch.zc_ohm[i].imag)} for i in idx]
+    rl = {}
+    for name, g in (("open", gamma_open), ("short", gamma_short)):
+        if g is not None:
+            mag = np.abs(np.asarray(g, dtype=complex))
+            rl[name] = np.interp(at_arr, ch.freq_hz, -20 * np.log10(mag))  # magnitudes only, not complex values
+    if rl:
+        est = matched_loss_from_return_loss(rl.get("open"), rl.get("short"))
+        for row, e in zip(rows, np.atleast_1d(est)):
+            row["loss_db_from_return_loss"] = float(e)
+    out["notes"] = notes
+    return out
+
+
+# --------------------------------------------------------------------------------------------------
+# Files
+# --------------------------------------------------------------------------------------------------
+def model_record(ch: Characterization) -> dict:
+    """The fitted model as stored in a characterization file's comment."""
+    sec = ch.section
+    return {"version": 1, "method": ch.method, "z0_ohm": sec.z0_ohm, "delay_s": sec.delay_s,
+            "c_np": sec.loss.c_np, "d_np": sec.loss.d_np, "f_min_hz": ch.f_min_hz, "f_max_hz": ch.f_max_hz,
+            "residual_rms": ch.fit.residual_rms}
+
+
+def write_characterization(path, ch: Characterization, comments=()) -> None:
+    """Write the run's 2-port as Touchstone (atomically), its fitted model in a comment line.
+
+    The model line reads ``! deembed-line-model: {json}`` (keys of :func:`model_record`).
+    """
+    from .touchstone import write_touchstone
+
+    lines = ["deembed line characterization, method " + ch.method,
+             "port 1 at the analyzer, port 2 at the far end of the run; S at 50 ohm",
+             *comments,
+             MODEL_TAG + " " + json.dumps(model_record(ch), sort_keys=True)]
+    write_touchstone(path, ch.freq_hz, ch.s, comments=tuple(lines), fmt="RI", unit="MHz")
+
+
+_REQUIRED = ("method", "z0_ohm", "delay_s", "c_np", "d_np", "f_min_hz", "f_max_hz")
+
+
+def _find_model(path: str):
+    """(record dict, line number) from a file's model comment, or None when the file has none."""
+    import os
+
+    if not os.path.isfile(path):
+        return None
+    try:
+        with open(path, "r", encoding="latin-1") as fh:
+            for num, text in enumerate(fh, 1):
+                s = text.strip()
+                if not s.startswith("!"):
+                    continue
+                body = s[1:].strip()
+                if body.startswith(MODEL_TAG):
+                    return body[len(MODEL_TAG):].strip(), num
+    except OSError:
+        return None
+    return None
+
+
+def line_from_characterization(path, allow_extrapolation: bool = False):
+    """A :class:`~deembed.line.Line` from a characterization file, or None for a plain 2-port file.
+
+    The line uses the measured 2-port on the characterization's own frequencies and the fitted physical
+    model elsewhere inside its range; beyond the range it refuses unless ``allow_extrapolation``.
+    """
+    p = str(path)
+    found = _find_model(p)
+    if found is None:
+        return None
+    text, num = found
+    try:
+        rec = json.loads(text)
+        vals = {k: rec[k] for k in _REQUIRED}
+        for k in _REQUIRED[1:]:
+            vals[k] = float(vals[k])
+            if not math.isfinite(vals[k]):
+                raise ValueError(k)
+    except (ValueError, KeyError, TypeError):
+        raise InputFileError(p, "the line-model comment is damaged; run deembed characterize again to rewrite "
+                                "the file", line=num) from None
+    if not (vals["z0_ohm"] > 0 and vals["delay_s"] >= 0 and vals["c_np"] >= 0 and vals["d_np"] >= 0
+            and 0 < vals["f_min_hz"] <= vals["f_max_hz"]):
+        raise InputFileError(p, "the line-model comment holds values no line can have; run deembed characterize "
+                                "again to rewrite the file", line=num)
+    from .touchstone import read_sweep
+
+    sw = read_sweep(p, expect_ports=2)
+    sec = Section(vals["z0_ohm"], vals["delay_s"], LossModel(vals["c_np"], vals["d_np"]),
+                  label=f"characterized line ({vals['method']})")
+    part = CharacterizedLine(np.asarray(sw.freq_hz, dtype=float), np.asarray(sw.s, dtype=complex), sec,
+                             vals["f_min_hz"], vals["f_max_hz"], str(vals["method"]), p, bool(allow_extrapolation))
+    return Line((part,))
+
+
+def with_extrapolation(line: Line, allow: bool = True) -> Line:
+    """The same line with every characterized part allowed (or not) to extrapolate."""
+    parts = tuple(replace(p, allow_extrapolation=allow) if isinstance(p, CharacterizedLine) else p
+                  for p in line.parts)
+    return Line(parts, name=line.name)
+
+
+@dataclass(frozen=True)
+class CharacterizedLine:
+    """A run known from a characterization: measured on its own points, its physical model elsewhere.
+
+    Attributes
+    ----------
+    freq_hz, s : the characterization's frequencies (Hz) and 2-port (n, 2, 2) at 50 ohm.
+    section : the fitted physical model.
+    f_min_hz, f_max_hz : the characterized range.
+    method, source : how and from which file.
+    allow_extrapolation : evaluate the model beyond the range (otherwise refuse).
+
+    Notes
+    -----
+    Off the measured points the run is evaluated through its fitted model, never by interpolating the
+    measured complex values (which turn through many phase turns over a long run). For a run that is not
+    uniform (adapters, a 75 ohm section) the model is one equivalent uniform line, so off-grid values are
+    approximate; on the measured points they are exact.
+    """
+
+    freq_hz: np.ndarray
+    s: np.ndarray
+    section: Section
+    f_min_hz: float
+    f_max_hz: float
+    method: str = ""
+    source: str = "<memory>"
+    allow_extrapolation: bool = False
+
+    def _on_grid(self, f):
+        """Indices of ``f`` in the measured grid when every point is one of them, else None."""
+        g = self.freq_hz
+        if f.shape == g.shape and np.array_equal(f, g):
+            return np.arange(g.size)
+        idx = np.clip(np.searchsorted(g, f), 0, g.size - 1)
+        idx_lo = np.clip(idx - 1, 0, g.size - 1)
+        best = np.where(np.abs(g[idx_lo] - f) < np.abs(g[idx] - f), idx_lo, idx)
+        if np.all(np.abs(g[best] - f) <= FREQ_MATCH_RTOL * np.abs(f)):
+            return best
+        return None
+
+    def _check_range(self, f):
+        if self.allow_extrapolation or f.size == 0:
+            return
+        lo, hi = float(np.min(f)), float(np.max(f))
+        if lo < self.f_min_hz * (1 - FREQ_MATCH_RTOL) or hi > self.f_max_hz * (1 + FREQ_MATCH_RTOL):
+            from .units import fmt_freq
+
+            raise OptionError("--line", f"{self.source} characterizes the line from {fmt_freq(self.f_min_hz)} to "
+                                        f"{fmt_freq(self.f_max_hz)}, but the sweep runs from {fmt_freq(lo)} to "
+                                        f"{fmt_freq(hi)}; characterize the line over the sweep's range, or pass "
+                                        "--extrapolate to use its fitted model beyond it")
+
+    def s_params(self, freq_hz):
+        """S (n, 2, 2) at 50 ohm: measured values on the characterization's points, the model elsewhere."""
+        f = np.atleast_1d(np.asarray(freq_hz, dtype=float))
+        idx = self._on_grid(f)
+        if idx is not None:
+            return self.s[idx]
+        self._check_range(f)
+        return abcd_to_s(self.section.abcd(f))
+
+    def abcd(self, freq_hz):
+        return s_to_abcd(self.s_params(freq_hz))
+
+    def matched_loss_db(self, freq_hz):
+        """One-way matched loss of the fitted model, dB (the line's loss without the mismatch ripple)."""
+        f = np.asarray(freq_hz, dtype=float)
+        self._check_range(np.atleast_1d(f))
+        return self.section.matched_loss_db(f)
+
+    def describe(self) -> str:
+        from .units import fmt_freq
+
+        sec = self.section
+        return (f"characterized line ({self.method}, {fmt_freq(self.f_min_hz)}-{fmt_freq(self.f_max_hz)}"
+                f"{', ' + self.source if self.source else ''}): model Z0 {sec.z0_ohm:.4g} ohm, "
+                f"delay {sec.delay_s * 1e9:.4f} ns")
+
+
+__all__ = [
+    "CATALOG_FLAG_RATIO", "Characterization", "CharacterizationError", "CharacterizedLine", "MODEL_TAG",
+    "ModelFit", "apply_error_terms", "characterization_report", "characterize", "continuous_sqrt",
+    "default_report_frequencies", "error_terms_to_two_port", "fit_line_model", "line_from_characterization",
+    "matched_loss_from_return_loss", "model_record", "open_short_line", "osl_error_terms", "standard_gammas",
+    "uniform_two_port", "with_extrapolation", "write_characterization",
+]
