@@ -7,7 +7,9 @@ come from. See ``deembed/data/cables.toml``.
 from __future__ import annotations
 
 from dataclasses import dataclass
+import math
 import os
+import re
 
 from .errors import InputFileError, OptionError
 from .line import LossModel, Section
@@ -51,12 +53,15 @@ def _parse_catalog(data: dict, origin: str) -> dict[str, Cable]:
         missing = [k for k in ("z0", "vf", "k1", "k2") if k not in entry]
         if missing:
             raise InputFileError(origin, f"cable [{cid}] lacks {', '.join(missing)}; give z0, vf, k1 and k2")
+        if any(isinstance(entry[k], bool) for k in ("z0", "vf", "k1", "k2")):
+            raise InputFileError(origin, f"cable [{cid}]: z0, vf, k1 and k2 must be numbers, not true/false")
         try:
             z0, vf, k1, k2 = (float(entry[k]) for k in ("z0", "vf", "k1", "k2"))
         except (TypeError, ValueError):
             raise InputFileError(origin, f"cable [{cid}]: z0, vf, k1 and k2 must be numbers") from None
-        if not (z0 > 0 and 0 < vf <= 1 and k1 >= 0 and k2 >= 0):
-            raise InputFileError(origin, f"cable [{cid}]: need z0 > 0, 0 < vf <= 1, k1 >= 0, k2 >= 0")
+        if not (0 < z0 < math.inf and 0 < vf <= 1 and 0 <= k1 < math.inf and 0 <= k2 < math.inf):
+            raise InputFileError(origin, f"cable [{cid}]: need finite z0 > 0, 0 < vf <= 1, k1 >= 0, k2 >= 0; "
+                                         "correct the entry")
         out[cid.lower()] = Cable(cid.lower(), str(entry.get("name", cid)), z0, vf, k1, k2,
                                  str(entry.get("source", "user catalog, no source given")))
     return out
@@ -73,7 +78,9 @@ def load_toml(path) -> dict:
         with open(p, "rb") as fh:
             return tomllib.load(fh)
     except tomllib.TOMLDecodeError as exc:
-        raise InputFileError(p, f"not valid TOML ({exc}); fix the file") from None
+        m = re.search(r"line (\d+)", str(exc))
+        raise InputFileError(p, f"not valid TOML ({exc}); fix the file",
+                             line=int(m.group(1)) if m else None) from None
     except UnicodeDecodeError:
         raise InputFileError(p, "not a UTF-8 text file; save it as UTF-8 TOML") from None
     except OSError as exc:

@@ -179,6 +179,13 @@ def _register_optional():
         characterize_command = None
     if characterize_command is not None:
         app.command("characterize")(characterize_command)
+    try:
+        from .cli_compare import compare_command, site_command
+    except ImportError:
+        compare_command = site_command = None
+    if compare_command is not None:
+        app.command("compare")(compare_command)
+        app.command("site")(site_command)
 
 
 _register_optional()
@@ -195,7 +202,7 @@ def main(argv=None) -> int:
     except DeembedError as exc:
         if debug:
             raise
-        print(f"error: {exc}", file=sys.stderr)
+        print("error: " + " ".join(str(exc).splitlines()), file=sys.stderr)  # always one line
         return 2
     except typer.Exit as exc:
         return exc.exit_code
@@ -205,9 +212,17 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130
-    except Exception as exc:  # usage errors of the option parser carry show() and exit_code
-        if hasattr(exc, "show") and hasattr(exc, "exit_code"):
-            exc.show()
+    except Exception as exc:  # usage errors of the option parser carry format_message() and exit_code
+        if hasattr(exc, "format_message") and hasattr(exc, "exit_code"):
+            if debug:
+                raise
+            # one line, like our own errors, instead of the parser's usage block
+            msg = " ".join(str(exc.format_message()).split())
+            if not msg:  # no arguments at all: the parser has already shown the help
+                return exc.exit_code
+            ctx = getattr(exc, "ctx", None)
+            hint = f" (see '{ctx.command_path} -h')" if ctx is not None and getattr(ctx, "command_path", "") else ""
+            print(f"error: {msg}{hint}", file=sys.stderr)
             return exc.exit_code
         if debug:
             raise

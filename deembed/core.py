@@ -83,7 +83,9 @@ def correct(sweep, line) -> Correction:
     f = sweep.freq_hz
     s = line.s_params(f)
     g_in = sweep.gamma
-    g_feed = feedpoint_gamma(g_in, s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1])
+    # where the line passes nothing the result is not finite; callers refuse it (workflow.check_finite)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        g_feed = feedpoint_gamma(g_in, s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1])
     return Correction(freq_hz=f, gamma_shack=g_in, gamma_feed=g_feed,
                       matched_loss_db=np.asarray(line.matched_loss_db(f), dtype=float),
                       line=line, source=sweep.source)

@@ -42,6 +42,34 @@ def run_demo(out_dir: str, echo=print) -> dict:
     echo(correction_text(summary, folder))
     results["vertical-2m"] = summary
 
+    echo("\n== After the tower work: the 2 m vertical against its baseline, and against a wet-run sweep ==")
+    from .compare import compare_corrections, compare_text
+    from .compare_report import compare_paths, write_compare_outputs
+    from .core import correct
+    from .touchstone import read_sweep
+
+    line, _ = line_from_options(line_file=s("vertical-2m.line.toml"))
+    base = correct(read_sweep(s("vertical-2m.s1p")), line)
+    folder = os.path.join(out_dir, "compare")
+    os.makedirs(folder, exist_ok=True)
+    results["compare"] = {}
+    for name in ("vertical-2m-after", "vertical-2m-wet"):
+        later = correct(read_sweep(s(f"{name}.s1p")), line)
+        res = compare_corrections(base, later)
+        write_compare_outputs(res, base, later, compare_paths(s(f"{name}.s1p"), folder),
+                              title=f"2 m vertical: {name} against its baseline")
+        echo(compare_text(res) + "\n")
+        results["compare"][name] = res
+
+    echo("== The whole site, every feed against its baseline (site file) ==")
+    from .cli_compare import site_text
+    from .site import run_site
+
+    folder = os.path.join(out_dir, "site")
+    summary = run_site(s("ridgeback-hill.site.toml"), folder)
+    echo(site_text(summary, folder))
+    results["site"] = summary
+
     echo(f"\nDemo results are in {os.path.abspath(out_dir)}/ : one folder per antenna, each with a "
          "<name>.report.html to open in a browser.")
     return results

@@ -141,7 +141,9 @@ class Section:
         yp = g + 1j * w * c
         gl = np.sqrt(zs * yp)
         # principal roots: Re(gamma) >= 0 and Re(Zc) > 0 for passive lines.
-        zc = np.sqrt(zs / yp) if self.delay_s > 0 else np.full(np.shape(w), complex(self.z0_ohm))
+        # at 0 Hz zs = yp = 0: Zc is 0/0 there, and its limit is the nominal Z0 (R ~ sqrt(f), G ~ f)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            zc = np.sqrt(zs / yp) if self.delay_s > 0 else np.full(np.shape(w), complex(self.z0_ohm))
         return gl, np.where(np.isfinite(zc), zc, self.z0_ohm)
 
     def abcd(self, freq_hz):

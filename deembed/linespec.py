@@ -128,10 +128,12 @@ def read_line_file(path, cables_file=None, allow_extrapolation: bool = False) ->
     data = _cables.load_toml(p)
     cat = _cables.catalog(cables_file)
     extra = data.get("cables", {})
+    if not isinstance(extra, dict):
+        raise InputFileError(p, "'cables' must hold tables, one per cable: [cables.ID] with z0, vf, k1, k2")
     if extra:
         cat.update(_cables._parse_catalog(extra, p))
     sections = data.get("section")
-    if not isinstance(sections, list) or not sections:
+    if not isinstance(sections, list) or not sections or not all(isinstance(e, dict) for e in sections):
         raise InputFileError(p, "no [[section]] tables; describe the line as one or more [[section]] tables")
     known = {"cable", "length", "vf", "delay", "z0", "loss", "label", "measured"}
     parts, notes = [], []
@@ -141,6 +143,13 @@ def read_line_file(path, cables_file=None, allow_extrapolation: bool = False) ->
         unknown = sorted(set(entry) - known)
         if unknown:
             raise InputFileError(p, f"{where}: unknown key(s) {', '.join(unknown)}; use {', '.join(sorted(known))}")
+        texts = {"cable": entry.get("cable"), "measured": entry.get("measured"), "label": entry.get("label")}
+        texts.update({"loss": entry.get("loss")} if not isinstance(entry.get("loss"), list)
+                     else {f"loss[{j}]": v for j, v in enumerate(entry["loss"], 1)})
+        wrong = [k for k, v in texts.items() if v is not None and not isinstance(v, str)]
+        if wrong:
+            raise InputFileError(p, f"{where}: '{wrong[0]}' must be a quoted string, e.g. cable = \"rg213\", "
+                                    f"loss = [\"1.25dB@14MHz\"], measured = \"arrestor.s2p\"")
         if "measured" in entry:
             parts.append(_two_port_line(os.path.join(base, str(entry["measured"])), allow_extrapolation).parts[0])
             continue

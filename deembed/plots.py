@@ -28,13 +28,27 @@ def _mhz(freq_hz):
     return np.asarray(freq_hz) / 1e6
 
 
+def _marks(f_mhz) -> dict:
+    """Line style extras: a sweep of one or two points is drawn with markers, or it would not show."""
+    return {"marker": "o", "ms": 5} if np.size(f_mhz) < 3 else {}
+
+
+def _xrange(ax, f_mhz) -> None:
+    """X axis over the sweep, set explicitly (traces that are all off-scale or one point wide would
+    otherwise leave matplotlib's autoscale with nothing to go on)."""
+    lo, hi = float(f_mhz[0]), float(f_mhz[-1])
+    pad = 0.02 * (hi - lo) if hi > lo else max(0.01 * abs(lo), 1e-3)
+    ax.set_xlim(lo - pad, hi + pad)
+
+
 def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends"):
     """SWR against frequency at the analyzer and at the feedpoint, on one chart."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
     s_sh, s_fp = rf.swr(corr.gamma_shack), rf.swr(corr.gamma_feed)
-    ax.plot(f, s_sh, color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"])
-    ax.plot(f, s_fp, color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"])
+    ax.plot(f, s_sh, color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"], **_marks(f))
+    ax.plot(f, s_fp, color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    _xrange(ax, f)
     finite = np.concatenate([s_sh[np.isfinite(s_sh)], s_fp[np.isfinite(s_fp)]])
     top = min(max(float(finite.max()) if finite.size else 3.0, 3.0), 10.0)
     for lim in limits:
@@ -53,8 +67,10 @@ def return_loss_plot(corr, ax=None):
     """Return loss (positive dB) at both ends."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
-    ax.plot(f, rf.return_loss_db(corr.gamma_shack), color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"])
-    ax.plot(f, rf.return_loss_db(corr.gamma_feed), color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"])
+    ax.plot(f, rf.return_loss_db(corr.gamma_shack), color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"],
+            **_marks(f))
+    ax.plot(f, rf.return_loss_db(corr.gamma_feed), color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    _xrange(ax, f)
     ax.invert_yaxis()
     ax.set_xlabel("Frequency (MHz)")
     ax.set_ylabel("Return loss (dB, larger is better)")
@@ -69,8 +85,9 @@ def impedance_plot(corr, ax=None):
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
     z = rf.z_from_gamma(corr.gamma_feed)
-    ax.plot(f, z.real, color=FEED_COLOUR, lw=2.0, label="R (resistance)")
-    ax.plot(f, z.imag, color="#2f7d6d", lw=2.0, ls="-.", label="X (reactance)")
+    ax.plot(f, z.real, color=FEED_COLOUR, lw=2.0, label="R (resistance)", **_marks(f))
+    ax.plot(f, z.imag, color="#2f7d6d", lw=2.0, ls="-.", label="X (reactance)", **_marks(f))
+    _xrange(ax, f)
     ax.axhline(0, color="#444444", lw=0.8)
     ax.axhline(50, color="#8a8a8a", lw=0.8, ls=":")
     finite = np.abs(np.concatenate([z.real, z.imag]))
@@ -123,10 +140,13 @@ def budget_plot(freq_hz, budget: dict, ax=None):
     """Power budget against frequency: delivered into the antenna, lost in the line, returned."""
     fig, ax = _axes(ax)
     f = _mhz(freq_hz)
-    ax.plot(f, budget["budget_delivered_w"], color=FEED_COLOUR, lw=2.0, label="radiated or lost in the antenna")
-    ax.plot(f, budget["budget_line_dissipated_w"], color="#8b6c3e", lw=1.6, ls="-.", label="lost in the line")
+    ax.plot(f, budget["budget_delivered_w"], color=FEED_COLOUR, lw=2.0, label="radiated or lost in the antenna",
+            **_marks(f))
+    ax.plot(f, budget["budget_line_dissipated_w"], color="#8b6c3e", lw=1.6, ls="-.", label="lost in the line",
+            **_marks(f))
     ax.plot(f, budget["budget_reflected_at_tx_w"], color=SHACK_COLOUR, lw=1.6, ls="--",
-            label="reflected back to the transmitter")
+            label="reflected back to the transmitter", **_marks(f))
+    _xrange(ax, f)
     ax.set_xlabel("Frequency (MHz)")
     ax.set_ylabel("Watts")
     ax.set_title("Where the transmitter's power goes")

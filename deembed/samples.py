@@ -33,6 +33,41 @@ cable = "rg8x"
 length = "36m"
 """
 
+VERTICAL_LINE_TOML = """\
+# Ridgeback Hill, 2 m vertical feed (an invented station for the deembed demo).
+name = "2 m vertical feed"
+
+[[section]]
+label = "tower run"
+cable = "rg213"
+length = "45m"
+"""
+
+SITE_TOML = """\
+# Ridgeback Hill (an invented station for the deembed demo): every feed against its baseline.
+# Check it with:  deembed site sample_sweeps/ridgeback-hill.site.toml --out out/site
+name = "Ridgeback Hill"
+
+[limits]                      # for every feed (these are the defaults, written out)
+max_shift = "50kHz"
+max_swr_rise = 0.2
+max_gamma_change = 0.1
+max_bw_loss = 25
+
+[[feed]]
+name = "2 m vertical"
+line = "vertical-2m.line.toml"
+baseline = "vertical-2m.s1p"
+latest = ["vertical-2m-after.s1p"]
+
+[[feed]]
+name = "40 m dipole"
+line = "dipole-40m.line.toml"
+baseline = "dipole-40m.s1p"
+latest = ["dipole-40m-after.s1p"]
+limits = { max_shift = "20kHz" }
+"""
+
 
 def series_antenna_z(freq_hz, f0_hz: float, r0_ohm: float, q: float, r_loss_ohm: float = 0.0):
     """A resonant antenna's feedpoint impedance, modelled as a series RLC whose radiation resistance
@@ -66,7 +101,22 @@ def station():
         # After tower work: the vertical detuned by a new antenna mounted beside it.
         "vertical-2m-after": dict(line=vertical_line, f=np.linspace(140e6, 152e6, 601),
                                   z=lambda f: series_antenna_z(f, 144.7e6, 33.0, 7.5, 1.0)),
+        # Entries below were added for the site check; new entries go at the end so the random stream
+        # of the sweeps above is unchanged.
+        # The 40 m dipole swept again after the tower work: the antenna untouched (fresh trace noise only).
+        "dipole-40m-after": dict(line=dipole_line, f=np.linspace(6.6e6, 7.6e6, 501),
+                                 z=lambda f: series_antenna_z(f, 6.96e6, 58.0, 11.0, 2.0)),
+        # The 2 m vertical untouched, but its run took in water: half as much loss again (a line change).
+        "vertical-2m-wet": dict(line=Line((_wet(cat["rg213"].section(45.0), 1.5),)), f=np.linspace(140e6, 152e6, 601),
+                                z=lambda f: series_antenna_z(f, 145.6e6, 36.0, 7.0, 1.0)),
     }
+
+
+def _wet(section, factor: float):
+    """The same section with its matched loss multiplied by ``factor`` (an invented wet run)."""
+    from dataclasses import replace
+
+    return replace(section, loss=section.loss.scaled(factor), label=section.label + " (wet)")
 
 
 def shack_sweeps(rng=None) -> dict:
@@ -113,4 +163,8 @@ def write_samples(folder: str) -> list[str]:
     p = os.path.join(folder, "dipole-40m.line.toml")
     write_text_atomic(p, DIPOLE_LINE_TOML)
     written.append(p)
+    for name, text in (("vertical-2m.line.toml", VERTICAL_LINE_TOML), ("ridgeback-hill.site.toml", SITE_TOML)):
+        p = os.path.join(folder, name)
+        write_text_atomic(p, text)
+        written.append(p)
     return written

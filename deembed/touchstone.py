@@ -614,7 +614,8 @@ def _check_values(vals, freq_hz, rec_line, name):
                                    "line", line=int(rec_line[k]))
     if freq_hz[0] < 0 or (freq_hz < 0).any():
         k = int(np.argmax(freq_hz < 0))
-        raise InputFileError(name, f"negative frequency {vals[k, 0]!r}; frequencies must be zero or positive",
+        raise InputFileError(name, f"negative frequency {_num(vals[k, 0])}; frequencies must be zero or positive: "
+                                   f"remove the point or export the sweep again",
                              line=int(rec_line[k]))
     d = np.diff(freq_hz)
     if (d <= 0).any():

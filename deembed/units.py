@@ -102,10 +102,12 @@ def parse_loss_point(text, option: str = "--loss") -> tuple[float, float]:
 def parse_positive(text, option: str, what: str = "value", upper: float | None = None,
                    upper_inclusive: bool = True) -> float:
     """A plain positive number, optionally bounded above (e.g. velocity factor in (0, 1])."""
+    if isinstance(text, bool):  # true/false from a TOML file are not numbers
+        raise OptionError(option, f"{text!r} is not a number; give the {what} as a number")
     try:
         v = float(text)
     except (TypeError, ValueError):
-        raise OptionError(option, f"cannot read {text!r} as a number") from None
+        raise OptionError(option, f"cannot read {text!r} as a number; give the {what} as a number") from None
     if not math.isfinite(v) or v <= 0:
         raise OptionError(option, f"{text!r}: the {what} must be a positive number")
     if upper is not None and (v > upper or (v == upper and not upper_inclusive)):

@@ -85,6 +85,7 @@ def budget_columns(corr, power_w: float) -> dict:
 def analyse(sweep, line, opts: Options):
     """Correct a sweep and work out everything the outputs show. Returns (correction, summary, table)."""
     corr = correct(sweep, line)
+    check_finite(corr)
     summary = summarise(corr, thresholds=opts.thresholds, notes=list(opts.notes) + list(getattr(sweep, "notes", ())),
                         sweep_info={"comments": list(getattr(sweep, "comments", ()))})
     budget = budget_columns(corr, opts.power_w) if opts.power_w else None
@@ -113,6 +114,25 @@ def analyse(sweep, line, opts: Options):
             "shack": band_check(corr.freq_hz, corr.gamma_shack, bands, limit),
         }
     return corr, summary, table
+
+
+def check_finite(corr) -> None:
+    """Refuse a correction that is not a finite number somewhere, before anything is written.
+
+    A Touchstone file cannot hold NaN or infinity, and findings made around such points would be
+    meaningless. It happens where the line passes nothing (S21 S12 = 0, e.g. a measured 2-port of an
+    open run) or where the sweep's values are extreme.
+    """
+    from .analysis import _ranges
+    from .errors import InputFileError
+
+    bad = ~np.isfinite(corr.gamma_feed)
+    if bad.any():
+        raise InputFileError(corr.source, f"removing the line gives no finite feedpoint reflection at "
+                                          f"{int(bad.sum())} of {bad.size} points ({_ranges(corr.freq_hz, bad)}): "
+                                          "the line passes nothing there or the sweep's values are extreme; check "
+                                          "the line description (a measured 2-port's S21) and the sweep at those "
+                                          "frequencies")
 
 
 def budget_summary(corr, budget: dict, power_w: float) -> dict:
