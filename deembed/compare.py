@@ -50,7 +50,7 @@ import numpy as np
 
 from . import rf
 from .core import Correction, embed_gamma
-from .errors import DeembedError, OptionError
+from .errors import DeembedError, InputFileError, OptionError
 from .line import DB_PER_NP
 
 MIN_COMMON_POINTS = 3
@@ -227,9 +227,9 @@ def align(before: Correction, after: Correction) -> Aligned:
     if inside.sum() < MIN_COMMON_POINTS:
         from .units import fmt_freq
 
-        raise OptionError("AFTER", f"the after sweep ({fmt_freq(fa[0])} to {fmt_freq(fa[-1])}) hardly overlaps the "
-                                   f"baseline ({fmt_freq(fb[0])} to {fmt_freq(fb[-1])}); sweep the same range as "
-                                   "the baseline")
+        raise InputFileError(after.source, f"this after sweep ({fmt_freq(fa[0])} to {fmt_freq(fa[-1])}) hardly "
+                                           f"overlaps the baseline {before.source} ({fmt_freq(fb[0])} to "
+                                           f"{fmt_freq(fb[-1])}); sweep the same range as the baseline")
     from scipy.interpolate import CubicSpline
 
     grid = fa[inside]

@@ -195,7 +195,8 @@ class MeasuredTwoPort:
 
     def matched_loss_db(self, freq_hz):
         """Insertion loss -20 log10 |S21|, dB (the matched loss when the 2-port is near Z_REF)."""
-        return -20 * np.log10(np.abs(self.s_params(freq_hz)[:, 1, 0]))
+        with np.errstate(divide="ignore"):  # S21 = 0 (an open run) is an infinite loss
+            return -20 * np.log10(np.abs(self.s_params(freq_hz)[:, 1, 0]))
 
     def describe(self) -> str:
         return f"{self.label} ({self.source})" if self.source else self.label

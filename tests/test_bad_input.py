@@ -692,3 +692,96 @@ def test_markup_from_files_is_escaped_in_the_report(capsys, tmp_path, good_text)
     for raw in ("<script>alert", "<img src=x", "x<b>y"):
         assert raw not in html
     assert "&lt;script&gt;alert(2)" in html or "&lt;script&gt;alert('sweep')" in html  # shown, escaped
+
+
+# ----------------------------------------------------------------------------------------------
+# compare and site
+
+SAMPLES = PKG.parent / "sample_sweeps"
+
+
+@pytest.fixture
+def station(tmp_path):
+    """The invented station's 40 m files, copied so that nothing in the repository can be touched."""
+    import shutil
+
+    d = tmp_path / "station"
+    d.mkdir()
+    for name in ("dipole-40m.s1p", "dipole-40m-after.s1p", "dipole-40m.line.toml", "vertical-2m.s1p"):
+        shutil.copy(SAMPLES / name, d / name)
+    return d
+
+
+@pytest.mark.parametrize("case", ["empty baseline", "missing after", "2-port after", "no overlap", "limit no unit",
+                                  "negative limit", "bad vf", "bad after-line", "out is a file"])
+def test_compare_bad_input(capsys, tmp_path, station, case):
+    base, after, line = station / "dipole-40m.s1p", station / "dipole-40m-after.s1p", station / "dipole-40m.line.toml"
+    out = tmp_path / "out"
+    extra, needles = ["--line", line], []
+    if case == "empty baseline":
+        base = station / "empty.s1p"
+        base.write_bytes(b"")
+        needles = [base, "empty"]
+    elif case == "missing after":
+        after = station / "nowhere.s1p"
+        needles = [after, "no such file"]
+    elif case == "2-port after":
+        after = station / "run.s2p"
+        after.write_text(OPT + "7.1 0.1 0 0.9 0 0.9 0 0.1 0\n")
+        needles = [after, "--port 1"]
+    elif case == "no overlap":
+        after = station / "vertical-2m.s1p"
+        needles = [after, "overlaps the baseline", base]
+    elif case == "limit no unit":
+        extra += ["--max-shift", "50"]
+        needles = ["--max-shift", "no unit"]
+    elif case == "negative limit":
+        extra += ["--max-swr-rise", "-1"]
+        needles = ["--max-swr-rise"]
+    elif case == "bad vf":
+        extra = ["--length", "38m", "--vf", "2"]
+        needles = ["--vf", "at most 1"]
+    elif case == "bad after-line":
+        bad = station / "new.line.toml"
+        bad.write_text("[[section]\n")
+        extra += ["--after-line", bad]
+        needles = [bad, "not valid TOML"]
+    elif case == "out is a file":
+        out.write_text("keep")
+        needles = ["--out", "is a file"]
+    before = snapshot(*[p for p in station.iterdir()])
+    code, _, err = run(capsys, "compare", base, after, *extra, "--out", out)
+    assert_refused(code, err, needles, None if case == "out is a file" else out, before)
+
+
+@pytest.mark.parametrize("text, needles, line", [
+    ("[[feed]\n", ["not valid TOML"], 1),
+    ('colour = "red"\n[[feed]]\nname = "a"\n', ["unknown key(s) colour"], None),
+    ('name = "x"\n', ["no [[feed]]"], None),
+    ("feed = 5\n", ["no [[feed]]"], None),
+    ('[limits]\nmax_shift = "50"\n[[feed]]\nname = "a"\nline = "l.toml"\nbaseline = "a.s1p"\nlatest = "b.s1p"\n',
+     ["max_shift", "no unit"], None),
+], ids=["syntax", "unknown key", "no feeds", "feed not a table", "limit without unit"])
+def test_bad_site_file(capsys, tmp_path, text, needles, line):
+    site_file = tmp_path / "my.site.toml"
+    site_file.write_text(text)
+    out = tmp_path / "out"
+    code, _, err = run(capsys, "site", site_file, "--out", out, "--workers", "1")
+    assert_refused(code, err, [site_file, *needles], out, snapshot(site_file), line)
+
+
+def test_site_paths_resolve_relative_to_the_site_file(capsys, tmp_path, station, monkeypatch):
+    (station / "s.site.toml").write_text('name = "x"\n[[feed]]\nname = "<b>40 m</b>"\nline = "dipole-40m.line.toml"\n'
+                                         'baseline = "dipole-40m.s1p"\nlatest = "dipole-40m-after.s1p"\n')
+    elsewhere = tmp_path / "elsewhere"
+    elsewhere.mkdir()
+    monkeypatch.chdir(elsewhere)
+    before = snapshot(*station.iterdir())
+    code, _, err = run(capsys, "site", station / "s.site.toml", "--out", tmp_path / "out", "--workers", "1",
+                       "--json")
+    assert code in (0, 1), err  # 1 would be a verdict, not an error
+    summary = json.loads((tmp_path / "out" / "site.json").read_text())
+    assert [f["status"] for f in summary["feeds"]] != ["error"], summary["feeds"]
+    assert snapshot(*station.iterdir()) == before
+    index = (tmp_path / "out" / "index.html").read_text(encoding="utf-8")
+    assert "<b>40 m</b>" not in index and "&lt;b&gt;40 m&lt;/b&gt;" in index  # a name from a file is escaped
