@@ -13,20 +13,16 @@ default (``deembed/data/bands.toml``) is a sample of amateur bands; edges depend
 from __future__ import annotations
 
 import math
-import re
+import os
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 
 from .errors import InputFileError, OptionError
 from .rf import swr
+from .tomlfile import DATA_DIR, load_toml
 from .units import parse_frequency
 
-try:  # Python 3.11+
-    import tomllib
-except ModuleNotFoundError:  # pragma: no cover - Python 3.10 (pyproject lists tomli for it)
-    import tomli as tomllib
 
 _KEYS = ("name", "low", "high")
 
@@ -40,16 +36,9 @@ class Band:
     high_hz: float
 
 
-def default_bands_path():
-    """The packaged default band list (a path-like resource, read with ``read_text``)."""
-    from importlib import resources
-
-    try:
-        return resources.files("deembed").joinpath("data/bands.toml")
-    except (TypeError, NotADirectoryError):
-        # deembed imported as a namespace package (no __init__.py) under an editable install's
-        # path hook: importlib.resources cannot build its multiplexed path; the file sits beside us
-        return Path(__file__).with_name("data") / "bands.toml"
+def default_bands_path() -> str:
+    """The packaged default band list."""
+    return os.path.join(DATA_DIR, "bands.toml")
 
 
 def load_bands(path=None) -> list[Band]:
@@ -71,18 +60,8 @@ def load_bands(path=None) -> list[Band]:
     InputFileError
         The file cannot be read, is not TOML, or a band is malformed (named in the message).
     """
-    src = default_bands_path() if path is None else Path(path)
-    where = str(src)
-    try:
-        text = src.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as e:
-        raise InputFileError(where, f"cannot read the band list ({e}); give a readable UTF-8 TOML file") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as e:
-        m = re.search(r"line (\d+)", str(e))
-        raise InputFileError(where, f"not valid TOML ({e}); see the [[band]] example in the default list",
-                             line=int(m.group(1)) if m else None) from None
+    where = default_bands_path() if path is None else str(path)
+    data = load_toml(where, hint="see the [[band]] example in the default list")
 
     extra = sorted(set(data) - {"band"})
     if extra:

@@ -9,17 +9,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 import math
 import os
-import re
 
 from .errors import InputFileError, OptionError
 from .line import LossModel, Section
 
-DATA_DIR = os.path.join(os.path.dirname(os.path.abspath(__file__)), "data")
-
-try:  # Python 3.11+
-    import tomllib
-except ModuleNotFoundError:  # pragma: no cover
-    import tomli as tomllib
+from .tomlfile import DATA_DIR, load_toml, tomllib  # noqa: F401  (load_toml is used by linespec and site)
 
 
 @dataclass(frozen=True)
@@ -65,26 +59,6 @@ def _parse_catalog(data: dict, origin: str) -> dict[str, Cable]:
         out[cid.lower()] = Cable(cid.lower(), str(entry.get("name", cid)), z0, vf, k1, k2,
                                  str(entry.get("source", "user catalog, no source given")))
     return out
-
-
-def load_toml(path) -> dict:
-    """Read a TOML file, turning every failure into an InputFileError that names the file."""
-    p = str(path)
-    if not os.path.exists(p):
-        raise InputFileError(p, "no such file; check the path")
-    if os.path.isdir(p):
-        raise InputFileError(p, "is a folder; give a TOML file")
-    try:
-        with open(p, "rb") as fh:
-            return tomllib.load(fh)
-    except tomllib.TOMLDecodeError as exc:
-        m = re.search(r"line (\d+)", str(exc))
-        raise InputFileError(p, f"not valid TOML ({exc}); fix the file",
-                             line=int(m.group(1)) if m else None) from None
-    except UnicodeDecodeError:
-        raise InputFileError(p, "not a UTF-8 text file; save it as UTF-8 TOML") from None
-    except OSError as exc:
-        raise InputFileError(p, f"cannot read it ({exc.strerror})") from None
 
 
 def builtin_catalog() -> dict[str, Cable]:

@@ -504,7 +504,9 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         "limits": limits.as_dict(),
         "verdict": verdict,
         "diagnosis": diagnosis,
-        "notes": list(al.notes),
+        "notes": list(al.notes) + ([f"only {al.freq_hz.size} common frequencies: resonance, bandwidth and the "
+                                    "antenna-or-line diagnosis need a sweep, so this verdict says little"]
+                                   if al.freq_hz.size < 3 else []),
     }
 
 

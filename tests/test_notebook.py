@@ -1,7 +1,6 @@
 """The walkthrough notebook runs from top to bottom without an error, from the repository root or notebooks/."""
 from __future__ import annotations
 
-import os
 import sys
 from pathlib import Path
 
