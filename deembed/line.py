@@ -140,22 +140,27 @@ class Section:
         zs = r + 1j * w * l
         yp = g + 1j * w * c
         gl = np.sqrt(zs * yp)
-        # principal roots: Re(gamma) >= 0 and Re(Zc) > 0 for passive lines.
-        # at 0 Hz zs = yp = 0: Zc is 0/0 there, and its limit is the nominal Z0 (R ~ sqrt(f), G ~ f)
+        # principal roots: Re(gamma) >= 0 and Re(Zc) > 0 for passive lines; with zs and yp in the first
+        # quadrant, zs / sqrt(zs yp) is the principal sqrt(zs / yp) and costs one root less.
+        # At 0 Hz zs = yp = 0: Zc is 0/0 there, and its limit is the nominal Z0 (R ~ sqrt(f), G ~ f).
+        if self.delay_s <= 0:
+            return gl, np.full(np.shape(w), complex(self.z0_ohm))
         with np.errstate(divide="ignore", invalid="ignore"):
-            zc = np.sqrt(zs / yp) if self.delay_s > 0 else np.full(np.shape(w), complex(self.z0_ohm))
+            zc = zs / gl
         return gl, np.where(np.isfinite(zc), zc, self.z0_ohm)
 
-    def abcd(self, freq_hz):
-        """ABCD matrix of the section, shape (n, 2, 2). Lossy line: A = D = cosh(gl), B = Zc sinh(gl), C = sinh(gl)/Zc."""
+    def abcd_parts(self, freq_hz):
+        """(A, B, C, D), each shaped like ``freq_hz``: A = D = cosh(gl), B = Zc sinh(gl), C = sinh(gl)/Zc."""
         gl, zc = self.propagation(freq_hz)
-        ch, sh = np.cosh(gl), np.sinh(gl)
-        m = np.empty(gl.shape + (2, 2), dtype=complex)
-        m[..., 0, 0] = ch
-        m[..., 0, 1] = zc * sh
-        m[..., 1, 0] = sh / zc
-        m[..., 1, 1] = ch
-        return m
+        e = np.exp(gl)
+        ei = 1 / e
+        ch = (e + ei) * 0.5
+        sh = (e - ei) * 0.5
+        return ch, zc * sh, sh / zc, ch
+
+    def abcd(self, freq_hz):
+        """ABCD matrix of the section, shape (n, 2, 2)."""
+        return _abcd_matrix(*self.abcd_parts(freq_hz))
 
     def matched_loss_db(self, freq_hz):
         """One-way matched loss, dB: Re(gamma l) in dB from the full RLGC propagation constant."""
@@ -213,19 +218,32 @@ class Line:
         if not self.parts:
             raise OptionError("--line", "a line needs at least one section")
 
-    def abcd(self, freq_hz):
-        """Cascade ABCD, shape (n, 2, 2)."""
+    def abcd_parts(self, freq_hz):
+        """Cascade ABCD as four arrays (A, B, C, D), multiplied out element by element."""
         total = None
         for part in self.parts:
-            m = part.abcd(freq_hz)
-            total = m if total is None else total @ m
+            if hasattr(part, "abcd_parts"):
+                p = part.abcd_parts(freq_hz)
+            else:
+                m = part.abcd(freq_hz)
+                p = (m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1])
+            if total is None:
+                total = p
+            else:
+                a1, b1, c1, d1 = total
+                a2, b2, c2, d2 = p
+                total = (a1 * a2 + b1 * c2, a1 * b2 + b1 * d2, c1 * a2 + d1 * c2, c1 * b2 + d1 * d2)
         return total
+
+    def abcd(self, freq_hz):
+        """Cascade ABCD, shape (n, 2, 2)."""
+        return _abcd_matrix(*self.abcd_parts(freq_hz))
 
     def s_params(self, freq_hz, z_ref_ohm: float = Z_REF_OHM):
         """The whole line's S-parameters at ``z_ref_ohm``, shape (n, 2, 2)."""
         if len(self.parts) == 1 and hasattr(self.parts[0], "s_params"):  # a measured or characterized 2-port (50 ohm)
             return self.parts[0].s_params(freq_hz)
-        return abcd_to_s(self.abcd(freq_hz), z_ref_ohm)
+        return _abcd_parts_to_s(*self.abcd_parts(freq_hz), z_ref_ohm)
 
     def matched_loss_db(self, freq_hz):
         """One-way matched loss of the whole run, dB: the sum of the parts' matched losses."""
@@ -245,14 +263,24 @@ class Line:
 
 def abcd_to_s(m, z_ref_ohm: float = Z_REF_OHM):
     """ABCD (n, 2, 2) to S (n, 2, 2) at a real reference impedance (Pozar 4th ed. Table 4.2)."""
-    a, b, c, d = m[..., 0, 0], m[..., 0, 1] / z_ref_ohm, m[..., 1, 0] * z_ref_ohm, m[..., 1, 1]
-    den = a + b + c + d
-    s = np.empty(m.shape, dtype=complex)
-    s[..., 0, 0] = (a + b - c - d) / den
-    s[..., 0, 1] = 2 * (a * d - b * c) / den
-    s[..., 1, 0] = 2 / den
-    s[..., 1, 1] = (-a + b - c + d) / den
+    return _abcd_parts_to_s(m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1], z_ref_ohm)
+
+
+def _abcd_parts_to_s(a, b, c, d, z_ref_ohm: float = Z_REF_OHM):
+    b, c = b / z_ref_ohm, c * z_ref_ohm
+    inv = 1 / (a + b + c + d)
+    s = np.empty(np.shape(a) + (2, 2), dtype=complex)
+    s[..., 0, 0] = (a + b - c - d) * inv
+    s[..., 1, 0] = 2 * inv
+    s[..., 0, 1] = s[..., 1, 0] if a is d else 2 * (a * d - b * c) * inv  # A = D: one section, reciprocal
+    s[..., 1, 1] = (-a + b - c + d) * inv
     return s
+
+
+def _abcd_matrix(a, b, c, d):
+    m = np.empty(np.shape(a) + (2, 2), dtype=complex)
+    m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1] = a, b, c, d
+    return m
 
 
 def s_to_abcd(s, z_ref_ohm: float = Z_REF_OHM):
