@@ -8,6 +8,10 @@ Targets (from the project's issues):
   3. de-embedding 10^6 points: within 5x of a plain numpy copy of the same complex array
   4. peak memory of reading + correcting a sweep grows linearly with the points (10^6 vs 10^5: <= 12x)
 Prints one row per target and exits 1 if any target is missed. Times are medians of repeats.
+
+On a machine whose last-level cache holds the 16 MB sweep (a 32 MB L3, say), target 3 compares a step that
+must stream 80 MB (four 16 MB inputs, one output) from memory with a copy that stays in cache; the row also
+shows the step against copying its four inputs, which is the memory-traffic floor.
 """
 from __future__ import annotations
 
@@ -85,7 +89,9 @@ def bench_deembed_vs_copy(n: int, repeats: int):
     s11, s21s12, s22 = s[:, 0, 0].copy(), (s[:, 0, 1] * s[:, 1, 0]), s[:, 1, 1].copy()
     ours = median_time(lambda: feedpoint_gamma(meas, s11, s21s12, s22), repeats)
     copy = median_time(lambda: meas.copy(), repeats)
-    return ours, copy
+    # what the step must at least read and write: its four inputs copied once
+    copy_all = median_time(lambda: [a.copy() for a in (meas, s11, s21s12, s22)], repeats)
+    return ours, copy, copy_all
 
 
 def peak_read_correct(n: int) -> int:
@@ -126,10 +132,11 @@ def main(argv=None) -> int:
     ratio = theirs / ours
     row("build line 2-port 1e5 points vs scikit-rf DistributedCircuit", f"{ratio:.0f}x", ">= 20x", ratio >= 20,
         f"ours {ours * 1e3:.1f} ms, scikit-rf {theirs:.2f} s, max |diff| {err:.1e}")
-    ours, copy = bench_deembed_vs_copy(1_000_000, reps)
+    ours, copy, copy_all = bench_deembed_vs_copy(1_000_000, reps)
     ratio = ours / copy
     row("de-embed 1e6 points vs numpy copy of the sweep", f"{ratio:.1f}x", "<= 5x", ratio <= 5,
-        f"ours {ours * 1e3:.1f} ms, copy {copy * 1e3:.1f} ms")
+        f"ours {ours * 1e3:.1f} ms, copy {copy * 1e3:.1f} ms; copying its 4 inputs {copy_all * 1e3:.1f} ms "
+        f"({ours / copy_all:.1f}x)")
     p5, p6 = peak_read_correct(100_000), peak_read_correct(1_000_000)
     ratio = p6 / p5
     row("peak memory read+correct, 1e6 vs 1e5 points", f"{ratio:.1f}x", "<= 12x", ratio <= 12,
