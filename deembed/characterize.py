@@ -34,7 +34,8 @@ import numpy as np
 
 from .errors import DeembedError, InputFileError, OptionError
 from .line import (C0_M_PER_S, DB_PER_NP, M_PER_100FT, Line, LossModel, Section, abcd_to_s, s_to_abcd)
-from .rf import Z_REF_OHM
+from .core import embed_gamma, feedpoint_gamma
+from .rf import Z_REF_OHM, z_from_gamma
 
 MODEL_TAG = "deembed-line-model:"
 """Comment prefix under which a characterization file stores its fitted physical model (JSON)."""
@@ -151,9 +152,11 @@ def osl_error_terms(m_open, m_short, m_load, *, freq_hz=None, open_c_f=0.0, shor
 
 
 def apply_error_terms(gamma_m, e00, e11, e10e01):
-    """Remove the error terms from a measured reflection: Ga = (Gm - e00)/(e10e01 + e11 (Gm - e00)) (F16)."""
-    d = np.asarray(gamma_m, dtype=complex) - e00
-    return d / (e10e01 + e11 * d)
+    """Remove the error terms from a measured reflection: Ga = (Gm - e00)/(e10e01 + e11 (Gm - e00)) (F16).
+
+    The same closed form as de-embedding a 2-port (S11 = e00, S21 S12 = e10e01, S22 = e11).
+    """
+    return feedpoint_gamma(np.asarray(gamma_m, dtype=complex), e00, e10e01, e11)
 
 
 def continuous_sqrt(p, freq_hz):
@@ -410,7 +413,7 @@ def fit_line_model(freq_hz, *, s=None, gamma_in=None, gamma_load=None, z0_ohm=Z_
         sm = abcd_to_s(unpack(x).abcd(f))
         if s is not None:
             return np.concatenate([sm[:, 0, 0], sm[:, 1, 1], sm[:, 1, 0] * sm[:, 0, 1]])
-        return sm[:, 0, 0] + sm[:, 0, 1] * sm[:, 1, 0] * g_l / (1 - sm[:, 1, 1] * g_l)
+        return embed_gamma(g_l, sm)
 
     def resid(x):
         r = model(x) - meas
@@ -526,7 +529,7 @@ def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None,
         raise OptionError("freq_hz", "frequencies must be positive and strictly increasing")
     have = tuple(g is not None for g in (gamma_open, gamma_short, gamma_load))
     offsets = {"open_c_f": float(open_c_f), "short_l_h": float(short_l_h), "load_r_ohm": float(load_r_ohm)}
-    g_o, g_s, g_l = standard_gammas(f, open_c_f=open_c_f, short_l_h=short_l_h, load_r_ohm=load_r_ohm)
+    g_o, g_s, _ = standard_gammas(f, open_c_f=open_c_f, short_l_h=short_l_h, load_r_ohm=load_r_ohm)
     notes = []
     if have == (True, True, True):
         e00, e11, e10e01 = osl_error_terms(gamma_open, gamma_short, gamma_load, freq_hz=f, open_c_f=open_c_f,
@@ -538,9 +541,7 @@ def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None,
                          "points it is used exactly, elsewhere through the equivalent uniform line only approximately")
         return Characterization("open-short-load", f, s, fit, None, offsets, tuple(notes))
     if have == (True, True, False):
-        z = lambda g: Z_REF_OHM * (1 + np.asarray(g, dtype=complex)) / (1 - np.asarray(g, dtype=complex))  # noqa: E731
-        with np.errstate(divide="ignore", invalid="ignore"):
-            zoc, zsc = z(gamma_open), z(gamma_short)
+        zoc, zsc = z_from_gamma(gamma_open), z_from_gamma(gamma_short)
         if not (np.all(np.isfinite(zoc)) and np.all(np.isfinite(zsc))):
             raise CharacterizationError("a reflection of exactly 1 (or exactly -1 for the open) means no line is "
                                         "there; check the files")

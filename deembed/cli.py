@@ -150,14 +150,14 @@ def cables_command(cables: Optional[str] = CablesOpt,
                    at: str = typer.Option("10MHz,100MHz", "--at", help="Frequencies to show the loss at.")):
     """List the cable catalog with loss per 100 m and per 100 ft."""
     from .cables import catalog
-    from .units import parse_frequency
+    from .units import FEET_PER_M, parse_frequency
 
     freqs = [parse_frequency(t.strip(), "--at") for t in at.split(",") if t.strip()]
     cat = catalog(cables)
     head = f"{'id':15}{'Z0':>5}{'VF':>6}  " + "".join(f"{f'dB/100m @{f / 1e6:g}MHz':>20}" for f in freqs) + "  name"
     print(head)
     for c in cat.values():
-        losses = "".join(f"{float(c.loss_db_per_100ft(f)) * 3.28084:>20.2f}" for f in freqs)
+        losses = "".join(f"{float(c.loss_db_per_100ft(f)) * FEET_PER_M:>20.2f}" for f in freqs)
         print(f"{c.id:15}{c.z0_ohm:>5g}{c.vf:>6.2f}  {losses}  {c.name}")
     print("\nFigures are generic nominal values from memory unless your catalog says otherwise; "
           "measure your own run with `deembed characterize` when it matters.")
@@ -172,20 +172,13 @@ def demo_command(out: str = typer.Option("out/demo", "--out", help="Folder for t
 
 
 def _register_optional():
-    """Commands whose modules may be absent in a partial checkout register themselves here."""
-    try:
-        from .cli_characterize import characterize_command
-    except ImportError:
-        characterize_command = None
-    if characterize_command is not None:
-        app.command("characterize")(characterize_command)
-    try:
-        from .cli_compare import compare_command, site_command
-    except ImportError:
-        compare_command = site_command = None
-    if compare_command is not None:
-        app.command("compare")(compare_command)
-        app.command("site")(site_command)
+    """Commands that live in their own ``cli_<name>.py`` modules register here."""
+    from .cli_characterize import characterize_command
+    from .cli_compare import compare_command, site_command
+
+    app.command("characterize")(characterize_command)
+    app.command("compare")(compare_command)
+    app.command("site")(site_command)
 
 
 _register_optional()

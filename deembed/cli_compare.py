@@ -77,7 +77,7 @@ def compare_command(
     if out:
         from .compare_report import compare_paths, write_compare_outputs
 
-        workflow.prepare_out_dir(out, [baseline, after])
+        workflow.prepare_out_dir(out)
         written = write_compare_outputs(result, before, later, compare_paths(after, out),
                                         inputs=[baseline, after, line, cables, after_line])
         result["outputs"] = written

@@ -165,7 +165,7 @@ def parse_limits(values: dict, *, base: Limits | None = None, names: dict | None
         elif key == "max_loss_change":
             out["max_loss_change_db"] = _number(v, opt, "db")
         else:
-            out[{"max_swr_rise": "max_swr_rise", "max_gamma_change": "max_gamma_change"}[key]] = _number(v, opt, "")
+            out[key] = _number(v, opt, "")  # max_swr_rise, max_gamma_change: same name in Limits
     return Limits(**out)
 
 

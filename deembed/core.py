@@ -27,8 +27,9 @@ def feedpoint_gamma(gamma_in, s11, s21s12, s22, out=None):
 
     Notes
     -----
-    Gamma_in = S11 + S21 S12 Gamma_L / (1 - S22 Gamma_L)  (Pozar 4th ed. eq. 4.xx, the input
-    reflection of a terminated 2-port), solved for Gamma_L:
+    Gamma_in = S11 + S21 S12 Gamma_L / (1 - S22 Gamma_L), the input reflection of a terminated
+    2-port (Pozar, *Microwave Engineering* 4th ed., from memory; the same form as the one-port
+    error model, check-values F16), solved for Gamma_L:
     Gamma_L = (Gamma_in - S11) / (S22 (Gamma_in - S11) + S21 S12).
     Written with in-place operations so that a 10^6-point sweep needs two temporaries.
     """

@@ -22,6 +22,7 @@ def sample_folder(out_dir: str) -> str:
 
 def run_demo(out_dir: str, echo=print) -> dict:
     """Correct the station's sweeps into ``out_dir``; returns {name: summary}."""
+    workflow.prepare_out_dir(out_dir)
     samples = sample_folder(out_dir)
     s = lambda name: os.path.join(samples, name)  # noqa: E731
     results = {}

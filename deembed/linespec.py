@@ -174,14 +174,11 @@ def _txt(v):
 
 def _two_port_line(path: str, allow_extrapolation: bool = False) -> Line:
     """A measured (or characterized) 2-port file as a line. A characterization carries its model."""
-    try:
-        from .characterize import line_from_characterization  # optional: the far-end characterization
-    except ImportError:  # pragma: no cover - present once characterization lands
-        line_from_characterization = None
-    if line_from_characterization is not None:
-        found = line_from_characterization(path, allow_extrapolation=allow_extrapolation)
-        if found is not None:
-            return found
+    from .characterize import line_from_characterization
+
+    found = line_from_characterization(path, allow_extrapolation=allow_extrapolation)
+    if found is not None:
+        return found
     from .touchstone import read_sweep
 
     sw = read_sweep(path, expect_ports=2)

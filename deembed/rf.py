@@ -30,13 +30,6 @@ def z_from_gamma(gamma, z0_ohm=Z_REF_OHM):
         return z0_ohm * (1 + g) / (1 - g)
 
 
-def renormalise(gamma, z_from_ohm, z_to_ohm=Z_REF_OHM):
-    """Re-express a one-port reflection coefficient measured against ``z_from_ohm`` against ``z_to_ohm``."""
-    if np.all(np.asarray(z_from_ohm) == z_to_ohm):
-        return np.asarray(gamma, dtype=complex)
-    return gamma_from_z(z_from_gamma(gamma, z_from_ohm), z_to_ohm)
-
-
 def swr(gamma):
     """Standing-wave ratio, (1 + |Gamma|) / (1 - |Gamma|) (Pozar 4th ed. eq. 2.41).
 

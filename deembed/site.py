@@ -147,7 +147,7 @@ def _path(job: FeedJob, key: str):
 
 def _feed_line(job: FeedJob):
     from .cables import catalog
-    from .linespec import SectionSpec, build_section, read_line_file
+    from .linespec import SectionSpec, _txt, build_section, read_line_file
     from .line import Line
 
     where = f"feed {job.index} ({job.name})"
@@ -169,10 +169,6 @@ def _feed_line(job: FeedJob):
     except OptionError as exc:
         raise InputFileError(job.site_file, str(exc)) from None
     return Line((sec,), name=job.name), notes
-
-
-def _txt(v):
-    return None if v is None else str(v)
 
 
 def _run_feed(job: FeedJob) -> dict:

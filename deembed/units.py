@@ -126,11 +126,6 @@ def fmt_freq(hz: float, digits: int = 4) -> str:
     return f"{hz:.{digits}g} Hz"
 
 
-def fmt_length(m: float) -> str:
-    """Metres with feet beside: '30.48 m (100.0 ft)'."""
-    return f"{m:.2f} m ({m * FEET_PER_M:.1f} ft)"
-
-
 _CAPACITANCE = {"f": 1.0, "uf": 1e-6, "µf": 1e-6, "nf": 1e-9, "pf": 1e-12, "ff": 1e-15}
 _INDUCTANCE = {"h": 1.0, "mh": 1e-3, "uh": 1e-6, "µh": 1e-6, "nh": 1e-9, "ph": 1e-12}
 _RESISTANCE = {"ohm": 1.0, "ohms": 1.0, "ω": 1.0, "r": 1.0}

@@ -53,11 +53,18 @@ def output_paths(sweep_path: str, out_dir: str) -> dict:
     }
 
 
-def prepare_out_dir(out_dir: str, inputs) -> None:
-    """Create the output folder; refuse one that is a file or would overwrite an input."""
+def prepare_out_dir(out_dir: str) -> None:
+    """Create the output folder; refuse one that is a file or cannot be created.
+
+    (Outputs that would overwrite an input are refused by :func:`refuse_overwriting_inputs`.)
+    """
     if os.path.exists(out_dir) and not os.path.isdir(out_dir):
         raise OptionError("--out", f"{out_dir} is a file; give a folder for the results")
-    os.makedirs(out_dir, exist_ok=True)
+    try:
+        os.makedirs(out_dir, exist_ok=True)
+    except OSError as exc:
+        raise OptionError("--out", f"cannot create the folder {out_dir} ({exc.strerror}); check the path: its parent "
+                                   "folders must exist as folders and be writable") from None
 
 
 def refuse_overwriting_inputs(paths: dict, inputs) -> None:
@@ -164,14 +171,11 @@ def write_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options) 
         written.update(write_plots(corr, table, paths, opts))
     summary["outputs"] = {k: os.path.basename(v) for k, v in written.items()}
     if opts.html:
-        try:
-            from .report import write_report
-        except ImportError:
-            write_report = None
-        if write_report is not None:
-            write_report(paths["report_html"], corr, summary, table, written)
-            written["report_html"] = paths["report_html"]
-            summary["outputs"]["report_html"] = os.path.basename(paths["report_html"])
+        from .report import write_report
+
+        write_report(paths["report_html"], corr, summary, table, written)
+        written["report_html"] = paths["report_html"]
+        summary["outputs"]["report_html"] = os.path.basename(paths["report_html"])
     write_text_atomic(paths["summary_json"], json.dumps(to_jsonable(summary), indent=2, allow_nan=False) + "\n")
     written["summary_json"] = paths["summary_json"]
     return written
@@ -231,6 +235,6 @@ def correct_file(sweep_path: str, line, out_dir: str, opts: Options | None = Non
     paths = output_paths(sweep_path, out_dir)
     refuse_overwriting_inputs(paths, [sweep_path, opts.bands_file, *line_inputs])
     corr, summary, table = analyse(sweep, line, opts)
-    prepare_out_dir(out_dir, [sweep_path])
+    prepare_out_dir(out_dir)
     written = write_outputs(corr, summary, table, paths, opts)
     return corr, summary, written
