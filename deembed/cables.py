@@ -13,7 +13,7 @@ import os
 from .errors import InputFileError, OptionError
 from .line import LossModel, Section
 
-from .tomlfile import DATA_DIR, load_toml, tomllib  # noqa: F401  (load_toml is used by linespec and site)
+from .tomlfile import DATA_DIR, load_toml, tomllib
 
 
 @dataclass(frozen=True)

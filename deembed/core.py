@@ -101,6 +101,7 @@ def deembed_network(network, line):
 
     f = network.frequency.f
     s = line.s_params(f)
-    g_feed = feedpoint_gamma(network.s[:, 0, 0], s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1])
+    with np.errstate(divide="ignore", invalid="ignore"):  # a line that passes nothing gives inf/nan, not warnings
+        g_feed = feedpoint_gamma(network.s[:, 0, 0], s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1])
     return skrf.Network(frequency=network.frequency, s=g_feed.reshape(-1, 1, 1), z0=50.0,
                         name=(network.name or "sweep") + " at feedpoint")

@@ -272,7 +272,7 @@ def _abcd_parts_to_s(a, b, c, d, z_ref_ohm: float = Z_REF_OHM):
     s = np.empty(np.shape(a) + (2, 2), dtype=complex)
     s[..., 0, 0] = (a + b - c - d) * inv
     s[..., 1, 0] = 2 * inv
-    s[..., 0, 1] = s[..., 1, 0] if a is d else 2 * (a * d - b * c) * inv  # A = D: one section, reciprocal
+    s[..., 0, 1] = 2 * (a * d - b * c) * inv
     s[..., 1, 1] = (-a + b - c + d) * inv
     return s
 

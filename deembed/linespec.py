@@ -32,8 +32,9 @@ import os
 from dataclasses import dataclass, field
 
 from . import cables as _cables
-from .errors import DeembedError, InputFileError, OptionError
+from .errors import InputFileError, OptionError
 from .line import C0_M_PER_S, Line, LossModel, MeasuredTwoPort, Section
+from .tomlfile import load_toml
 from .units import parse_delay, parse_length, parse_loss_point, parse_positive
 
 
@@ -125,7 +126,7 @@ def read_line_file(path, cables_file=None, allow_extrapolation: bool = False) ->
     p = str(path)
     if not p.lower().endswith(".toml"):
         return _two_port_line(p, allow_extrapolation), []
-    data = _cables.load_toml(p)
+    data = load_toml(p)
     cat = _cables.catalog(cables_file)
     extra = data.get("cables", {})
     if not isinstance(extra, dict):
@@ -185,4 +186,4 @@ def _two_port_line(path: str, allow_extrapolation: bool = False) -> Line:
     return Line((MeasuredTwoPort(sw.freq_hz, sw.s, label="measured 2-port", source=path),))
 
 
-__all__ = ["SectionSpec", "build_section", "line_from_options", "read_line_file", "DeembedError"]
+__all__ = ["SectionSpec", "build_section", "line_from_options", "read_line_file"]

@@ -81,7 +81,7 @@ def slugify(name: str) -> str:
 
 def read_site(path, out_dir: str) -> Site:
     """Read a site file; problems with the file as a whole raise :class:`InputFileError`."""
-    from .cables import load_toml
+    from .tomlfile import load_toml
 
     p = str(path)
     data = load_toml(p)
@@ -191,7 +191,7 @@ def _run_feed(job: FeedJob) -> dict:
     except OptionError as exc:
         raise InputFileError(job.site_file, str(exc)) from None
     port = job.entry.get("port")
-    if port is not None and port not in (1, 2):
+    if port is not None and (isinstance(port, bool) or port not in (1, 2)):
         raise InputFileError(job.site_file, f"{where}: port = {port!r}; use 1 or 2 (or leave it out for a .s1p)")
     baseline = _path(job, "baseline")
     latest = job.entry.get("latest")
@@ -353,7 +353,7 @@ def index_html(summary: dict) -> str:
         f"{c['exceeded']} feed(s) outside limits, {c['error']} failed"
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{head}: feeds against their baselines</title>
-<style>body{{font-family:system-ui,sans-serif;max-width:80em;margin:1.5em auto;color:#222}}
+<style>body{{font-family:system-ui,sans-serif;max-width:80em;margin:1.5em auto;padding:0 1.5em;color:#222;background:#fbfaf8}}
 table{{border-collapse:collapse;width:100%}} td,th{{border-bottom:1px solid #d9d4cc;padding:.4em;vertical-align:top;text-align:left}}
 tr.passed .st{{color:#1d6b3a}} tr.exceeded .st,tr.error .st{{color:#a3261d;font-weight:bold}} small{{color:#555}}</style>
 </head><body>
