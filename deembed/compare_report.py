@@ -104,7 +104,7 @@ def compare_html(result: dict, png_path: str | None = None, title: str = "") -> 
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{head}</title>
 <style>body{{font-family:system-ui,sans-serif;max-width:70em;margin:1.5em auto;padding:0 1.5em;color:#222;background:#fbfaf8}}
-pre{{background:#f6f4ef;padding:1em;overflow-x:auto}} img{{max-width:100%}}
+pre{{background:#f6f4ef;padding:1em;white-space:pre-wrap}} img{{max-width:100%}}
 .ok{{color:#1d6b3a;font-weight:bold}} .bad{{color:#a3261d;font-weight:bold}}</style></head>
 <body><h1>{head}</h1>
 {badge}
