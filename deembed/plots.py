@@ -24,6 +24,15 @@ def _axes(ax, figsize=(8, 4.5)):
     return fig, fig.add_subplot()
 
 
+def _finish(ax, ylabel: str, title: str) -> None:
+    """The frequency axis, labels, grid and legend every frequency plot shares."""
+    ax.set_xlabel("Frequency (MHz)")
+    ax.set_ylabel(ylabel)
+    ax.set_title(title)
+    ax.grid(True, color=GRID_COLOUR, lw=0.6)
+    ax.legend(loc="best", fontsize=9)
+
+
 def _mhz(freq_hz):
     return np.asarray(freq_hz) / 1e6
 
@@ -55,11 +64,7 @@ def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends"):
         ax.axhline(lim, color="#8a8a8a", lw=0.8, ls=":")
         ax.text(f[0], lim, f" {lim:g}:1", va="bottom", ha="left", fontsize=8, color="#6a6a6a")
     ax.set_ylim(1.0, top * 1.05)
-    ax.set_xlabel("Frequency (MHz)")
-    ax.set_ylabel("SWR")
-    ax.set_title(title)
-    ax.grid(True, color=GRID_COLOUR, lw=0.6)
-    ax.legend(loc="best", fontsize=9)
+    _finish(ax, "SWR", title)
     return fig
 
 
@@ -72,11 +77,7 @@ def return_loss_plot(corr, ax=None):
     ax.plot(f, rf.return_loss_db(corr.gamma_feed), color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
     ax.invert_yaxis()
-    ax.set_xlabel("Frequency (MHz)")
-    ax.set_ylabel("Return loss (dB, larger is better)")
-    ax.set_title("Return loss at both ends")
-    ax.grid(True, color=GRID_COLOUR, lw=0.6)
-    ax.legend(loc="best", fontsize=9)
+    _finish(ax, "Return loss (dB, larger is better)", "Return loss at both ends")
     return fig
 
 
@@ -95,11 +96,7 @@ def impedance_plot(corr, ax=None):
     if finite.size:
         lim = min(float(np.percentile(finite, 98)) * 1.2 + 10, 2000.0)
         ax.set_ylim(-lim, lim)
-    ax.set_xlabel("Frequency (MHz)")
-    ax.set_ylabel("Ohms")
-    ax.set_title("Feedpoint impedance (corrected)")
-    ax.grid(True, color=GRID_COLOUR, lw=0.6)
-    ax.legend(loc="best", fontsize=9)
+    _finish(ax, "Ohms", "Feedpoint impedance (corrected)")
     return fig
 
 
@@ -147,11 +144,7 @@ def budget_plot(freq_hz, budget: dict, ax=None):
     ax.plot(f, budget["budget_reflected_at_tx_w"], color=SHACK_COLOUR, lw=1.6, ls="--",
             label="reflected back to the transmitter", **_marks(f))
     _xrange(ax, f)
-    ax.set_xlabel("Frequency (MHz)")
-    ax.set_ylabel("Watts")
-    ax.set_title("Where the transmitter's power goes")
-    ax.grid(True, color=GRID_COLOUR, lw=0.6)
-    ax.legend(loc="best", fontsize=9)
+    _finish(ax, "Watts", "Where the transmitter's power goes")
     return fig
 
 
