@@ -27,9 +27,9 @@ import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 
-from deembed.cables import catalog  # noqa: E402
-from deembed.core import correct, embed_gamma, feedpoint_gamma  # noqa: E402
-from deembed.line import Line  # noqa: E402
+from deembed.io.cables import catalog  # noqa: E402
+from deembed.physics.deembedding import correct, embed_gamma, feedpoint_gamma  # noqa: E402
+from deembed.physics.line import Line  # noqa: E402
 
 
 def median_time(fn, repeats: int) -> float:
@@ -96,7 +96,7 @@ def bench_deembed_vs_copy(n: int, repeats: int):
 
 def peak_read_correct(n: int) -> int:
     """Peak traced memory (bytes) of reading an n-point .s1p and correcting it."""
-    from deembed.touchstone import read_sweep, write_touchstone
+    from deembed.io.touchstone import read_sweep, write_touchstone
 
     f, g = sweep_arrays(n)
     with tempfile.TemporaryDirectory() as tmp:

@@ -1,35 +1,50 @@
-"""deembed: remove a feed line from an antenna sweep taken at the far end of it.
+"""deembed: remove a feed line from an antenna sweep taken at the analyzer end of it.
 
 The library in a few names::
 
     from deembed import read_sweep, Section, Line, LossModel, catalog, correct
 
-    sweep = read_sweep("shack.s1p")
+    sweep = read_sweep("sample_sweeps/dipole-40m.s1p")
     line = Line((catalog()["rg213"].section(30.0),))
     result = correct(sweep, line)          # result.gamma_feed: the feedpoint's reflection
     net = result.feedpoint_network()       # the same as a scikit-rf Network
 
-Importing the package loads numpy only; scikit-rf, matplotlib and pandas are imported when a
-function that needs them is called.
+The package is layered (see DEVELOPERS.md): ``base`` < ``physics`` < ``io`` < ``analysis`` < ``render``
+< ``jobs`` < ``cli``, each importing only the layers below it. The names above are loaded on first use,
+so ``import deembed`` costs almost nothing; scikit-rf, matplotlib and pandas are imported only by the
+functions that need them.
 """
-from .errors import DeembedError, InputFileError, OptionError
-from .line import Line, LossModel, MeasuredTwoPort, Section, abcd_to_s, s_to_abcd
-from .core import Correction, correct, deembed_network, embed_gamma, feedpoint_gamma
-from .sweep import Sweep, one_port
-from .cables import Cable, catalog
+from __future__ import annotations
+
+import importlib
 
 __version__ = "0.1.0"
 
+_PUBLIC = {
+    "DeembedError": "base.errors", "InputFileError": "base.errors", "OptionError": "base.errors",
+    "Line": "physics.line", "LossModel": "physics.line", "MeasuredTwoPort": "physics.line",
+    "Section": "physics.line", "abcd_to_s": "physics.line", "s_to_abcd": "physics.line",
+    "Correction": "physics.deembedding", "correct": "physics.deembedding",
+    "deembed_network": "physics.deembedding", "embed_gamma": "physics.deembedding",
+    "feedpoint_gamma": "physics.deembedding",
+    "Sweep": "io.sweep", "one_port": "io.sweep", "read_sweep": "io.touchstone",
+    "Cable": "io.cables", "catalog": "io.cables",
+}
 
-def read_sweep(path, **kwargs):
-    """Read a Touchstone sweep (see :func:`deembed.touchstone.read_sweep`)."""
-    from .touchstone import read_sweep as _read
 
-    return _read(path, **kwargs)
+def __getattr__(name: str):
+    """Load a public name from its layer on first use (PEP 562)."""
+    try:
+        module = _PUBLIC[name]
+    except KeyError:
+        raise AttributeError(f"module 'deembed' has no attribute {name!r}") from None
+    value = getattr(importlib.import_module(f".{module}", __name__), name)
+    globals()[name] = value
+    return value
 
 
-__all__ = [
-    "Cable", "Correction", "DeembedError", "InputFileError", "Line", "LossModel", "MeasuredTwoPort",
-    "OptionError", "Section", "Sweep", "abcd_to_s", "catalog", "correct", "deembed_network",
-    "embed_gamma", "feedpoint_gamma", "one_port", "read_sweep", "s_to_abcd",
-]
+def __dir__():
+    return sorted(list(globals()) + list(_PUBLIC))
+
+
+__all__ = sorted(_PUBLIC)

@@ -3,7 +3,7 @@ import sys
 
 
 def run() -> None:
-    from .cli import main
+    from .cli.app import main
 
     sys.exit(main())
 

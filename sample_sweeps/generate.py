@@ -1,4 +1,4 @@
-"""Regenerate the sample sweeps of the invented "Ridgeback Hill" station (see deembed/samples.py).
+"""Regenerate the sample sweeps of the invented "Ridgeback Hill" station (see deembed/jobs/samples.py).
 
     python sample_sweeps/generate.py         # writes into this folder
 """
@@ -7,7 +7,7 @@ import sys
 
 sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 
-from deembed.samples import write_samples  # noqa: E402
+from deembed.jobs.samples import write_samples  # noqa: E402
 
 if __name__ == "__main__":
     for path in write_samples(os.path.dirname(os.path.abspath(__file__))):

@@ -1,6 +1,6 @@
 """Bad input at the command level: one clear line, exit status 2, nothing written, inputs untouched.
 
-Every case goes end to end through ``deembed.cli.main(argv)``. For each refusal the test checks the exit
+Every case goes end to end through ``deembed.cli.app.main(argv)``. For each refusal the test checks the exit
 status, that standard error holds exactly one non-empty line naming the file (and its line number where
 there is one) or the option, that no traceback is shown, that the output folder holds no file afterwards,
 and that the input files' bytes are unchanged. The variants real files contain (Latin-1 comments, CRLF,
@@ -16,12 +16,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from deembed import rf
-from deembed.cli import main
-from deembed.core import embed_gamma
-from deembed.errors import DeembedError
-from deembed.line import Line, LossModel, Section
-from deembed.touchstone import read_sweep, write_touchstone
+from deembed.physics import rf
+from deembed.cli.app import main
+from deembed.physics.deembedding import embed_gamma
+from deembed.base.errors import DeembedError
+from deembed.physics.line import Line, LossModel, Section
+from deembed.io.touchstone import read_sweep, write_touchstone
 
 pytestmark = pytest.mark.filterwarnings("error")
 
@@ -679,7 +679,7 @@ def test_a_pickle_named_s1p_is_refused_not_loaded(capsys, tmp_path):
 
 
 def test_markup_from_files_is_escaped_in_the_report(capsys, tmp_path, good_text):
-    pytest.importorskip("deembed.report")
+    pytest.importorskip("deembed.render.report")
     src = tmp_path / "x<b>y.s1p"
     src.write_text("! <script>alert('sweep')</script>\n" + good_text)
     lf = tmp_path / "feed.line.toml"

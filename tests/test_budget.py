@@ -1,4 +1,4 @@
-"""Power budget along a lossy line (deembed.budget) against the field's worked examples.
+"""Power budget along a lossy line (deembed.physics.budget) against the field's worked examples.
 
 Sources are named beside each expected value, with the provenance tags of
 /work/shared/reference/check-values.md ([D] derived from the named formula, [M] from memory).
@@ -10,9 +10,9 @@ import math
 import numpy as np
 import pytest
 
-from deembed.budget import antenna_swr_from_measured, power_budget
-from deembed.errors import OptionError
-from deembed.rf import gamma_from_z, gamma_mag_from_swr, mismatch_loss_db, return_loss_db, swr
+from deembed.physics.budget import antenna_swr_from_measured, power_budget
+from deembed.base.errors import OptionError
+from deembed.physics.rf import gamma_from_z, gamma_mag_from_swr, mismatch_loss_db, return_loss_db, swr
 
 # --------------------------------------------------------------------------- SWR table (F2-F4)
 

@@ -2,10 +2,10 @@
 import numpy as np
 import pytest
 
-from deembed.cables import catalog
-from deembed.errors import InputFileError, OptionError
-from deembed.line import C0_M_PER_S, DB_PER_NP
-from deembed.linespec import line_from_options, read_line_file
+from deembed.io.cables import catalog
+from deembed.base.errors import InputFileError, OptionError
+from deembed.physics.line import C0_M_PER_S, DB_PER_NP
+from deembed.io.linefile import line_from_options, read_line_file
 
 # ARRL General Class License Manual, Table 6-1 (as corrected), dB/100 ft at 30 and 150 MHz, read via
 # check-values sec. 1.2 [R]: computed by the publisher from maker data, so a plausibility band only (+-25 %).

@@ -12,14 +12,13 @@ import json
 import numpy as np
 import pytest
 
-from deembed.characterize import (
-    CharacterizationError, apply_error_terms, characterization_report, characterize, fit_line_model,
-    line_from_characterization, matched_loss_from_return_loss, open_short_line, osl_error_terms,
-    with_extrapolation, write_characterization,
-)
-from deembed.core import correct, feedpoint_gamma
-from deembed.errors import DeembedError, OptionError
-from deembed.sweep import one_port
+from deembed.base.errors import CharacterizationError
+from deembed.physics.calibration import apply_error_terms, matched_loss_from_return_loss, open_short_line, osl_error_terms
+from deembed.analysis.characterize import characterization_report, characterize, fit_line_model
+from deembed.io.charfile import line_from_characterization, with_extrapolation, write_characterization
+from deembed.physics.deembedding import correct, feedpoint_gamma
+from deembed.base.errors import DeembedError, OptionError
+from deembed.io.sweep import one_port
 
 skrf = pytest.importorskip("skrf")
 
@@ -336,7 +335,7 @@ def test_file_round_trip_and_on_grid_use(tmp_path):
     write_characterization(path, ch)
     line = line_from_characterization(path)
     np.testing.assert_array_equal(line.s_params(F), ch.s)  # RI text reads back bit for bit
-    from deembed.touchstone import write_touchstone
+    from deembed.io.touchstone import write_touchstone
 
     plain = tmp_path / "plain.s2p"
     write_touchstone(plain, F, ch.s)
@@ -379,7 +378,7 @@ def test_extrapolation_refused_unless_asked(tmp_path):
 
 
 def test_linespec_reads_characterization(tmp_path):
-    from deembed.linespec import read_line_file
+    from deembed.io.linefile import read_line_file
 
     ch = _osl(skrf_line(F, 50, 0.66, 30.0, 0.1755, 0.00245), F)
     path = tmp_path / "line.s2p"
@@ -392,7 +391,7 @@ def test_linespec_reads_characterization(tmp_path):
 # Catalog comparison
 # ------------------------------------------------------------------------------------------------
 def test_catalog_comparison_flags_wet_cable():
-    from deembed.cables import catalog
+    from deembed.io.cables import catalog
 
     rg213 = catalog()["rg213"]
     m = port50(F)
@@ -416,7 +415,7 @@ def test_catalog_comparison_flags_wet_cable():
 # Command line
 # ------------------------------------------------------------------------------------------------
 def _write_standards(tmp_path, f, run, names=("open", "short", "load")):
-    from deembed.touchstone import write_touchstone
+    from deembed.io.touchstone import write_touchstone
 
     m = port50(f)
     terms = {"open": m.open(), "short": m.short(), "load": m.match()}
@@ -429,7 +428,7 @@ def _write_standards(tmp_path, f, run, names=("open", "short", "load")):
 
 
 def test_cli_characterize_json_and_file(tmp_path, capsys):
-    from deembed.cli import main
+    from deembed.cli.app import main
 
     run = skrf_line(F, 50, 0.66, 30.0, 0.1755, 0.00245)
     p = _write_standards(tmp_path, F, run)
@@ -450,8 +449,8 @@ def test_cli_characterize_json_and_file(tmp_path, capsys):
 
 
 def test_cli_refuses_bad_input(tmp_path, capsys):
-    from deembed.cli import main
-    from deembed.touchstone import write_touchstone
+    from deembed.cli.app import main
+    from deembed.io.touchstone import write_touchstone
 
     run = skrf_line(F, 50, 0.66, 30.0, 0.1755, 0.00245)
     p = _write_standards(tmp_path, F, run, ("open", "short"))

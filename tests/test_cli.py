@@ -8,11 +8,11 @@ import sys
 import numpy as np
 import pytest
 
-from deembed import rf
-from deembed.cli import main
-from deembed.core import embed_gamma
-from deembed.line import Line, LossModel, Section
-from deembed.touchstone import read_sweep, write_touchstone
+from deembed.physics import rf
+from deembed.cli.app import main
+from deembed.physics.deembedding import embed_gamma
+from deembed.physics.line import Line, LossModel, Section
+from deembed.io.touchstone import read_sweep, write_touchstone
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 
@@ -138,8 +138,8 @@ def test_inputs_are_never_modified(capsys, tmp_path):
 
 
 def test_out_naming_an_input_is_refused(tmp_path):
-    from deembed.errors import OptionError
-    from deembed.outputs import check_not_input
+    from deembed.base.errors import OptionError
+    from deembed.io.atomic import check_not_input
 
     src = tmp_path / "a.s1p"
     src.write_text("# MHz S RI R 50\n1 0 0\n")
@@ -148,7 +148,7 @@ def test_out_naming_an_input_is_refused(tmp_path):
 
 
 def test_every_command_is_documented_in_the_readme():
-    from deembed.cli import app
+    from deembed.cli.app import app
 
     readme = open(os.path.join(ROOT, "README.md"), encoding="utf-8").read()
     names = [c.name or c.callback.__name__ for c in app.registered_commands]
@@ -158,12 +158,12 @@ def test_every_command_is_documented_in_the_readme():
 
 
 def test_import_and_help_stay_light():
-    code = ("import sys, deembed, deembed.cli\n"
+    code = ("import sys, deembed, deembed.cli.app\n"
             "heavy = [m for m in ('skrf', 'matplotlib', 'pandas') if m in sys.modules]\n"
             "print(heavy)")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"
-    code = ("import sys\nfrom deembed.cli import main\n"
+    code = ("import sys\nfrom deembed.cli.app import main\n"
             "try:\n    main(['--help'])\nexcept SystemExit:\n    pass\n"
             "print([m for m in ('skrf', 'matplotlib', 'pandas') if m in sys.modules], file=sys.stderr)")
     err = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True).stderr

@@ -3,7 +3,7 @@
 The independent reference: every analyzer-end sweep here is made by scikit-rf 2.2 (a DistributedCircuit
 line with the RLGC of our Section, z0_port=50, cascaded with the antenna as a one-port Network, written
 by scikit-rf's own Touchstone writer); deembed then reads, de-embeds and compares the files.
-The antenna is a series RLC (deembed.samples.series_antenna_z), whose reactance is zero exactly at f0:
+The antenna is a series RLC (deembed.jobs.samples.series_antenna_z), whose reactance is zero exactly at f0:
 X = Q R0 (f/f0 - f0/f) (series resonance at 1/(2 pi sqrt(LC)), Pozar 4th ed. sec. 6.1, from memory).
 """
 import json
@@ -13,13 +13,14 @@ import numpy as np
 import pytest
 import skrf
 
-from deembed import cli
-from deembed.cables import catalog
-from deembed.compare import Limits, compare_corrections, fitted_resonance
-from deembed.core import correct
-from deembed.line import DB_PER_NP, Line, LossModel, Section
-from deembed.samples import series_antenna_z
-from deembed.touchstone import read_sweep
+from deembed.cli import app as cli
+from deembed.io.cables import catalog
+from deembed.analysis.limits import Limits
+from deembed.analysis.compare import compare_corrections, fitted_resonance
+from deembed.physics.deembedding import correct
+from deembed.physics.line import DB_PER_NP, Line, LossModel, Section
+from deembed.jobs.samples import series_antenna_z
+from deembed.io.touchstone import read_sweep
 
 F_HZ = np.linspace(140e6, 152e6, 601)  # 20 kHz steps
 RG213_45M = catalog()["rg213"].section(45.0)  # catalog RG-213, 45 m (about 3.6 dB at 146 MHz)

@@ -1,4 +1,4 @@
-"""Findings (deembed.findings) and band checks (deembed.bands) against circuit models with known answers.
+"""Findings (deembed.analysis.findings) and band checks (deembed.io.bands) against circuit models with known answers.
 
 Sources are named beside each expected value, with the provenance tags of
 /work/shared/reference/check-values.md ([D] derived from the named formula, [M] from memory,
@@ -12,10 +12,10 @@ import math
 import numpy as np
 import pytest
 
-from deembed import findings as fd
-from deembed.bands import Band, band_check, load_bands
-from deembed.errors import InputFileError, OptionError
-from deembed.rf import gamma_from_z, swr
+from deembed.analysis import findings as fd
+from deembed.io.bands import Band, band_check, load_bands
+from deembed.base.errors import InputFileError, OptionError
+from deembed.physics.rf import gamma_from_z, swr
 
 # ----------------------------------------------------------------------------- circuit models
 
@@ -126,7 +126,7 @@ def test_crossing_through_the_open_circuit_is_not_a_resonance():
     assert [r.kind for r in found] == ["parallel"] and found[0].r_ohm == pytest.approx(1e6, rel=1e-9)
     rng = np.random.default_rng(3)
     g_noisy = 0.999 * np.exp(1j * rng.normal(0, 1e-3, f.size))
-    from deembed.rf import z_from_gamma
+    from deembed.physics.rf import z_from_gamma
     assert fd.resonances(f, z_from_gamma(g_noisy)) == []
     assert len(fd.resonances(f, z_from_gamma(g_noisy), gamma_limit=1.0, merge_steps=0)) > 10  # the sign flips are there
 

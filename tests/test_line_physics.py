@@ -7,10 +7,10 @@ import numpy as np
 import pytest
 import skrf
 
-from deembed import rf
-from deembed.core import embed_gamma, feedpoint_gamma
-from deembed.line import DB_PER_NP, Line, LossModel, Section, abcd_to_s, s_to_abcd
-from deembed.cables import catalog
+from deembed.physics import rf
+from deembed.physics.deembedding import embed_gamma, feedpoint_gamma
+from deembed.physics.line import DB_PER_NP, Line, LossModel, Section, abcd_to_s, s_to_abcd
+from deembed.io.cables import catalog
 
 
 def zin_lossy(zl, z0, gl):

@@ -14,10 +14,11 @@ import re
 import numpy as np
 import pytest
 
-from deembed import rf, workflow
-from deembed.core import embed_gamma
-from deembed.linespec import line_from_options
-from deembed.touchstone import write_touchstone
+from deembed.physics import rf
+from deembed.jobs import correct as workflow
+from deembed.physics.deembedding import embed_gamma
+from deembed.io.linefile import line_from_options
+from deembed.io.touchstone import write_touchstone
 
 HOSTILE_NAME = "<img src=x onerror=alert(1)>"          # a file name cannot hold "/", so no </script> here
 HOSTILE_COMMENT = "<script>alert('comment')</script>"
@@ -110,7 +111,7 @@ def test_report_has_every_section(plain):
     assert f"{summary['feedpoint']['min_swr']['swr']:.2f}" in text
     assert f"{summary['line']['matched_loss_db']['at_stop']:.2f} dB" in text
     # the colours of plots.py: slate for the analyzer end, copper for the feedpoint
-    from deembed.plots import FEED_COLOUR, SHACK_COLOUR
+    from deembed.render.plots import FEED_COLOUR, SHACK_COLOUR
     assert SHACK_COLOUR in text and FEED_COLOUR in text
 
 

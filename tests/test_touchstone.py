@@ -14,9 +14,9 @@ import os
 import numpy as np
 import pytest
 
-from deembed.errors import InputFileError, OptionError
-from deembed.outputs import atomic_path, check_not_input, write_bytes_atomic, write_text_atomic
-from deembed.touchstone import read_sweep, write_touchstone
+from deembed.base.errors import InputFileError, OptionError
+from deembed.io.atomic import atomic_path, check_not_input, write_bytes_atomic, write_text_atomic
+from deembed.io.touchstone import read_sweep, write_touchstone
 
 TOL = 1e-12  # absolute tolerance on complex S where arithmetic (not text) is involved
 

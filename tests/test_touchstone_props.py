@@ -15,10 +15,10 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from deembed import units
-from deembed.errors import InputFileError, OptionError
-from deembed.sweep import Sweep
-from deembed.touchstone import read_sweep, write_touchstone
+from deembed.base import units
+from deembed.base.errors import InputFileError, OptionError
+from deembed.io.sweep import Sweep
+from deembed.io.touchstone import read_sweep, write_touchstone
 
 SETTINGS = settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 

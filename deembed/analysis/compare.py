@@ -1,0 +1,483 @@
+"""Compare a sweep taken after work on a tower with a baseline: did the feedpoint change, and was it the
+antenna or the line?
+
+Both sweeps are de-embedded (normally through the same line description) and compared at both ends:
+the feedpoint resonance shift, the change in lowest SWR and in the 2:1 bandwidth, the largest change in
+|Gamma| across the band. :func:`compare_corrections` returns a JSON-ready dict with a verdict against
+:class:`Limits` and a plain-language diagnosis. Pure functions of arrays and small objects; nothing here
+reads or writes files (see :mod:`deembed.compare_report` and :mod:`deembed.site`).
+
+Frequency grids
+---------------
+When the two sweeps have the same frequencies every quantity is compared point by point. Otherwise the
+frequencies common to both (within 1e-9 relative) are used when there are at least
+:data:`MIN_COMMON_POINTS` of them; failing that, the baseline's *feedpoint* reflection (already
+de-embedded, so smooth) is interpolated with a cubic spline onto the after sweep's frequencies inside
+the baseline's range, and the baseline's analyzer-end reflection there is rebuilt by embedding that
+interpolated feedpoint through the baseline's line model. The raw analyzer-end values are never
+interpolated: behind a long line they turn through many phase turns between points. A line known only
+at its measured points (a plain measured .s2p) cannot be evaluated off them, so the analyzer-end
+comparison is then left out, with a note.
+
+Antenna or line? (:func:`diagnose`)
+-----------------------------------
+*One line description for both sweeps.* Both are de-embedded through the same line, so a change in the
+line shows up at the feedpoint too. It shows up in a particular form: an extra length of matched line,
+or extra loss in it (water in the cable, a crushed run), multiplies the feedpoint reflection by
+``exp(-2 (dA(f) + j 2 pi f dtau))`` (Pozar 4th ed. sec. 2.7, Gamma(z) = Gamma_L exp(-2 gamma z)): |Gamma|
+scaled smoothly, the phase turned in proportion to frequency. A detuned or damaged antenna changes the
+feedpoint reflection near its resonance and not in that form. So the after feedpoint is fitted as
+``Gamma_after = Gamma_before * exp(-2 c sqrt(f) - j 4 pi f dtau)`` (:func:`fit_line_change`: a
+conductor-like loss change c and a one-way delay change dtau). If that fit leaves no more
+than the trace noise (estimated from the sweeps themselves, :func:`trace_noise`) the change is called
+the line's; otherwise the antenna's (or its connection at the feedpoint). When the trace noise at the
+feedpoint is itself above the |Gamma| limit the sweeps cannot tell, and the diagnosis says so.
+
+*A fresh line description for the after sweep* (``after_line``, e.g. a new far-end characterization).
+Each sweep is de-embedded through its own line, so the feedpoint comparison is the antenna's alone and
+the lines' matched losses are compared directly. Feedpoint beyond the limits and line loss changed by
+more than ``max_loss_change_db``: both; only the feedpoint: the antenna; only the line (or only the
+analyzer-end sweep while the feedpoint held still): the line.
+
+Codes: ``unchanged``, ``antenna``, ``line``, ``both``, ``unclear``.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..physics import rf
+from ..physics.deembedding import Correction, embed_gamma
+from ..base.errors import DeembedError, InputFileError
+from ..physics.line import DB_PER_NP
+from ..base.units import fmt_freq
+from .findings import resonances
+from .findings import end_findings
+from .limits import Limits
+
+MIN_COMMON_POINTS = 3
+"""Fewest exactly common frequencies for a point-by-point comparison; fewer means interpolation."""
+
+FREQ_MATCH_RTOL = 1e-9
+"""Relative tolerance under which two sweeps' frequencies count as the same point."""
+
+RESONANCE_FIT_FRACTION = 0.01
+"""Half-width of the window, as a fraction of the frequency, over which X(f) is fitted by a quadratic to
+place a resonance (:func:`fitted_resonance`). Our choice: wide enough to average trace noise over tens of
+points on usual sweeps, narrow enough that X(f) of a resonant antenna is near-quadratic across it."""
+
+MIN_FIT_GAMMA = 0.05
+"""Points where |Gamma| is below this at either sweep are left out of the loss-change estimate (the
+ratio of two small, noisy magnitudes says nothing about the line)."""
+
+MODEL_FLOOR_GAMMA = 0.005
+"""Added to the noise allowance when deciding that the line-change fit explains the change: what a
+uniform-line model misses in a real run (its Zc is not exactly the old one's). Our choice."""
+
+NOISE_FACTOR = 1.3
+"""The fit's RMS residual may be this many times sqrt(noise^2 + MODEL_FLOOR_GAMMA^2), the combined RMS
+trace noise of both sweeps and the model allowance. For pure noise the residual is about 1.0 times the
+noise (the RMS of n Gaussian points scatters by about 1/sqrt(2n) relative: 3 % at 600 points); 1.3 leaves
+room for the noise estimate's own error. Our choice."""
+
+@dataclass(frozen=True)
+class Aligned:
+    """Both corrections on one frequency grid (see the module notes for how it is chosen).
+
+    ``gamma_shack_before`` is None when the baseline's analyzer-end values could not be placed on the grid.
+    """
+
+    freq_hz: np.ndarray
+    gamma_feed_before: np.ndarray
+    gamma_feed_after: np.ndarray
+    gamma_shack_before: np.ndarray | None
+    gamma_shack_after: np.ndarray
+    loss_before_db: np.ndarray
+    loss_after_db: np.ndarray
+    method: str
+    notes: tuple = ()
+
+
+def align(before: Correction, after: Correction) -> Aligned:
+    """Put two corrections on one frequency grid without interpolating analyzer-end values."""
+    fb, fa = np.asarray(before.freq_hz, float), np.asarray(after.freq_hz, float)
+    if fb.shape == fa.shape and np.array_equal(fb, fa):
+        return Aligned(fa, before.gamma_feed, after.gamma_feed, before.gamma_shack, after.gamma_shack,
+                       np.asarray(before.matched_loss_db, float), np.asarray(after.matched_loss_db, float),
+                       "same frequencies")
+    ib = np.clip(np.searchsorted(fb, fa), 0, fb.size - 1)
+    ib_lo = np.clip(ib - 1, 0, fb.size - 1)
+    ib = np.where(np.abs(fb[ib_lo] - fa) < np.abs(fb[ib] - fa), ib_lo, ib)
+    hit = np.abs(fb[ib] - fa) <= FREQ_MATCH_RTOL * np.abs(fa)
+    if hit.sum() >= MIN_COMMON_POINTS:
+        ia, ib = np.flatnonzero(hit), ib[hit]
+        note = (f"the sweeps share {ia.size} frequencies (baseline {fb.size} points, after {fa.size}); "
+                "compared on those only")
+        return Aligned(fa[ia], before.gamma_feed[ib], after.gamma_feed[ia], before.gamma_shack[ib],
+                       after.gamma_shack[ia], np.asarray(before.matched_loss_db, float)[ib],
+                       np.asarray(after.matched_loss_db, float)[ia], "common frequencies", (note,))
+    inside = (fa >= fb[0]) & (fa <= fb[-1])
+    if inside.sum() < MIN_COMMON_POINTS:
+
+        raise InputFileError(after.source, f"this after sweep ({fmt_freq(fa[0])} to {fmt_freq(fa[-1])}) hardly "
+                                           f"overlaps the baseline {before.source} ({fmt_freq(fb[0])} to "
+                                           f"{fmt_freq(fb[-1])}); sweep the same range as the baseline")
+    from scipy.interpolate import CubicSpline
+
+    grid = fa[inside]
+    g_feed_b = CubicSpline(fb, before.gamma_feed)(grid)
+    loss_b = np.interp(grid, fb, np.asarray(before.matched_loss_db, float))
+    notes = [f"the sweeps share no frequencies: the baseline's feedpoint reflection was interpolated (cubic "
+             f"spline, after de-embedding) onto {grid.size} of the after sweep's frequencies"]
+    try:
+        g_shack_b = embed_gamma(g_feed_b, before.line.s_params(grid))
+        notes.append("the baseline's analyzer-end values there were rebuilt through its line model")
+    except DeembedError:
+        g_shack_b = None
+        notes.append("the baseline's line is known only at its measured points, so the analyzer ends are not "
+                     "compared; sweep the same frequencies as the baseline to compare them")
+    return Aligned(grid, g_feed_b, after.gamma_feed[inside], g_shack_b, after.gamma_shack[inside], loss_b,
+                   np.asarray(after.matched_loss_db, float)[inside], "interpolated", tuple(notes))
+
+
+# ------------------------------------------------------------------------------------ measurements
+
+def fitted_resonance(freq_hz, gamma, near_hz, *, fraction: float = RESONANCE_FIT_FRACTION):
+    """The reactance zero nearest ``near_hz``, placed by a quadratic fit of X(f) around it, Hz (or None).
+
+    Parameters
+    ----------
+    freq_hz : ndarray (n,)
+        Frequencies, Hz.
+    gamma : ndarray (n,)
+        Reflection at 50 ohm.
+    near_hz : float
+        The crossing of X = 0 (from :func:`deembed.findings.resonances`) nearest this is taken.
+    fraction : float
+        Half-width of the fit window as a fraction of the crossing's frequency.
+
+    Notes
+    -----
+    The crossing between two samples (linear interpolation) moves with the trace noise of those two
+    points; behind a few dB of line that is tens of kHz on a low-Q VHF antenna. A least-squares quadratic
+    X(f) = p0 + p1 u + p2 u^2 over the window (u the scaled offset) averages the noise of every point in
+    it; the root nearest the crossing is the resonance. With fewer than 5 points in the window, or no
+    real root inside it, the crossing itself is returned.
+    """
+
+    f = np.asarray(freq_hz, float)
+    z = rf.z_from_gamma(gamma)
+    found = resonances(f, z)
+    if not found or near_hz is None:
+        return None
+    f0 = min(found, key=lambda r: abs(r.freq_hz - near_hz)).freq_hz
+    step = float(np.median(np.diff(f))) if f.size > 1 else 0.0
+    half = max(fraction * f0, 3 * step)
+    sel = (np.abs(f - f0) <= half) & np.isfinite(z.imag)
+    if sel.sum() < 5:
+        return float(f0)
+    u = (f[sel] - f0) / half
+    p = np.polyfit(u, z.imag[sel], 2)
+    roots = np.roots(p)
+    roots = roots[np.isreal(roots)].real
+    roots = roots[np.abs(roots) <= 1.0]
+    if roots.size == 0:
+        return float(f0)
+    return float(f0 + roots[np.argmin(np.abs(roots))] * half)
+
+
+def trace_noise(gamma) -> float:
+    """RMS trace noise of a smooth reflection sweep (complex, total of both parts), from its second differences.
+
+    Notes
+    -----
+    For independent noise n_k of variance s^2 (complex), d_k = n_(k-1) - 2 n_k + n_(k+1) has variance 6 s^2,
+    and |d_k|^2 of complex Gaussian noise is exponential, median 6 s^2 ln 2. The median keeps the few
+    points where the reflection itself curves sharply (a resonance on a coarse grid) from counting as noise.
+    """
+    g = np.asarray(gamma, complex)
+    g = g[np.isfinite(g)]
+    if g.size < 5:
+        return 0.0
+    d = g[:-2] - 2 * g[1:-1] + g[2:]
+    return float(np.sqrt(np.median(np.abs(d) ** 2) / (6 * np.log(2))))
+
+
+def _end_numbers(freq_hz, g_before, g_after) -> dict:
+
+    fb = end_findings(freq_hz, g_before, thresholds=(2.0,))
+    fa = end_findings(freq_hz, g_after, thresholds=(2.0,))
+    bw_b = _span_total(fb["bandwidth_hz"]["2"])
+    bw_a = _span_total(fa["bandwidth_hz"]["2"])
+    dmag = np.abs(np.abs(g_after) - np.abs(g_before))
+    dc = np.abs(g_after - g_before)
+    ok = np.isfinite(dmag)
+    i = int(np.argmax(np.where(ok, dmag, -1))) if ok.any() else None
+    s_b, s_a = fb["min_swr"]["swr"], fa["min_swr"]["swr"]
+    fm_b, fm_a = fb["min_swr"]["freq_hz"], fa["min_swr"]["freq_hz"]
+    return {
+        "min_swr_before": s_b, "min_swr_after": s_a,
+        "min_swr_change": _diff(s_a, s_b),
+        "min_swr_freq_before_hz": fm_b, "min_swr_freq_after_hz": fm_a,
+        "min_swr_freq_shift_hz": _diff(fm_a, fm_b),
+        "bandwidth_2_before_hz": bw_b, "bandwidth_2_after_hz": bw_a,
+        "bandwidth_2_change_hz": bw_a - bw_b,
+        "bandwidth_2_change_percent": (100.0 * (bw_a - bw_b) / bw_b) if bw_b > 0 else None,
+        "max_gamma_mag_change": float(dmag[i]) if i is not None else None,
+        "max_gamma_mag_change_at_hz": float(freq_hz[i]) if i is not None else None,
+        "max_gamma_change": float(np.max(dc[np.isfinite(dc)])) if np.isfinite(dc).any() else None,
+        "rms_gamma_change": float(np.sqrt(np.mean(dc[np.isfinite(dc)] ** 2))) if np.isfinite(dc).any() else None,
+        "trace_noise_before": trace_noise(g_before), "trace_noise_after": trace_noise(g_after),
+        "_findings_before": fb,
+    }
+
+
+def _span_total(spans) -> float:
+    return float(sum(hi - lo for lo, hi in spans if lo is not None and hi is not None))
+
+
+def _diff(a, b):
+    return None if a is None or b is None else float(a - b)
+
+
+def fit_line_change(freq_hz, gamma_before, gamma_after) -> dict:
+    """Fit the after feedpoint as the baseline seen through an extra (or missing) piece of matched line.
+
+    Model: Gamma_after(f) = Gamma_before(f) exp(-2 c sqrt(f)) exp(-j 4 pi f dtau).
+
+    Returns
+    -------
+    dict
+        ``c_np_per_sqrt_hz``; ``loss_change_db`` at the grid's centre and top (one-way, dB: positive means
+        the line now loses more than its description); ``delay_change_ps`` (one-way dtau, ps: positive
+        means electrically longer); ``rms_residual`` and ``rms_change`` (complex Gamma units).
+
+    Notes
+    -----
+    Gamma(z) = Gamma_L exp(-2 gamma z) on a matched line (Pozar 4th ed. sec. 2.7): an extra length adds
+    a round-trip phase of -4 pi f dtau, proportional to frequency with no constant term, and its loss a
+    factor exp(-2 dA); a conductor-like loss change scales as sqrt(f) (check-values sec. 1.3). c starts
+    from the closed-form weighted least squares of ln|Ga/Gb| = -2 c sqrt(f) (weights |Gb|^2); dtau from
+    the peak of |sum Ga conj(Gb) exp(j 4 pi f dtau)| over one-way changes up to +/-10 ns (about 2 m of
+    coax); both are then refined by nonlinear least squares on the complex residual.
+    """
+    from scipy.optimize import least_squares
+
+    f = np.asarray(freq_hz, float)
+    gb, ga = np.asarray(gamma_before, complex), np.asarray(gamma_after, complex)
+    ok = np.isfinite(gb) & np.isfinite(ga)
+    f, gb, ga = f[ok], gb[ok], ga[ok]
+    sf = np.sqrt(f)
+    mb, ma = np.abs(gb), np.abs(ga)
+    use = (mb > MIN_FIT_GAMMA) & (ma > MIN_FIT_GAMMA)
+    if use.sum() >= 2:
+        w = mb[use] ** 2
+        c0 = -float(np.sum(w * sf[use] * np.log(ma[use] / mb[use])) / (2 * np.sum(w * f[use])))
+    else:
+        c0 = 0.0
+    tau_max = 10e-9
+    # grid fine enough that the round-trip phase at the top frequency moves 0.5 rad per step
+    n_t = int(min(max(np.ceil(2 * tau_max * 4 * np.pi * f[-1] / 0.5) + 1, 3), 20001))
+    t_grid = np.linspace(-tau_max, tau_max, n_t)
+    cross = ga * np.conj(gb)
+    best_t, best = 0.0, -1.0
+    for start in range(0, n_t, 512):  # chunks of the delay grid, each vectorised over frequency
+        tt = t_grid[start:start + 512]
+        mag = np.abs(np.exp(4j * np.pi * np.outer(tt, f)) @ cross)
+        k = int(np.argmax(mag))
+        if mag[k] > best:
+            best, best_t = float(mag[k]), float(tt[k])
+
+    t_scale = 1.0 / (4 * np.pi * f[-1])
+
+    def resid(x):
+        c, t = x[0], x[1] * t_scale
+        r = ga - gb * np.exp(-2 * c * sf - 4j * np.pi * f * t)
+        return np.concatenate([r.real, r.imag])
+
+    sol = least_squares(resid, [c0, best_t / t_scale], x_scale=[abs(c0) + 1e-6, 1.0])
+    c, t = sol.x[0], sol.x[1] * t_scale
+    r = resid(sol.x)
+    n = max(f.size, 1)
+    fc = float(np.mean(f))
+    return {
+        "c_np_per_sqrt_hz": float(c),
+        "loss_change_db": {"at_centre": float(DB_PER_NP * c * np.sqrt(fc)), "at_stop": float(DB_PER_NP * c * sf[-1])},
+        "delay_change_ps": float(t * 1e12),
+        "rms_residual": float(np.sqrt(np.sum(r ** 2) / n)),
+        "rms_change": float(np.sqrt(np.mean(np.abs(ga - gb) ** 2))) if f.size else 0.0,
+    }
+
+
+def _same_line(a, b) -> bool:
+    if a is b:
+        return True
+    try:
+        return bool(a == b)
+    except (ValueError, TypeError):  # measured 2-ports hold arrays
+        return False
+
+
+# -------------------------------------------------------------------------------------- comparison
+
+def compare_corrections(before: Correction, after: Correction, limits: Limits | None = None) -> dict:
+    """Compare an after-work correction with its baseline (JSON-ready dict).
+
+    Parameters
+    ----------
+    before, after : Correction
+        The baseline and the after-work sweeps, de-embedded. Pass the same line to both (the usual case)
+        or, with a fresh characterization, each sweep through its own line.
+    limits : Limits, optional
+        What counts as acceptable (default :class:`Limits`).
+
+    Returns
+    -------
+    dict
+        ``resonance_shift_hz`` (after minus before: the feedpoint resonance nearest the baseline's SWR
+        minimum in each, placed by :func:`fitted_resonance`; None when either has none),
+        ``resonance_before_hz``, ``resonance_after_hz``, ``min_swr_change``, ``bandwidth_2_change_hz``,
+        ``max_gamma_change_feedpoint``, ``max_gamma_change_shack`` (largest change in |Gamma|);
+        ``feedpoint`` and ``shack`` blocks with the details of each end; ``line`` (same line or not, the
+        matched-loss change, the fitted line change); ``grid``; ``limits``; ``verdict``
+        ``{"within_limits", "exceeded": [limit names], "reasons": [...]}``; ``diagnosis``
+        ``{"code", "text"}``; ``notes``.
+    """
+    limits = limits or Limits()
+    al = align(before, after)
+    f = al.freq_hz
+    fp = _end_numbers(f, al.gamma_feed_before, al.gamma_feed_after)
+    base_f = fp.pop("_findings_before")
+    near = base_f["min_swr"]["freq_hz"]
+    res_b = fitted_resonance(f, al.gamma_feed_before, near)
+    res_a = fitted_resonance(f, al.gamma_feed_after, near)
+    fp.update({"resonance_before_hz": res_b, "resonance_after_hz": res_a, "resonance_shift_hz": _diff(res_a, res_b)})
+    if al.gamma_shack_before is not None:
+        sh = _end_numbers(f, al.gamma_shack_before, al.gamma_shack_after)
+        sh.pop("_findings_before")
+    else:
+        sh = None
+
+    same = _same_line(before.line, after.line)
+    dloss = al.loss_after_db - al.loss_before_db
+    line = {
+        "same_line": same,
+        "before": before.line.describe(),
+        "after": after.line.describe(),
+        "loss_change_db": None if same else {"max_abs": float(np.max(np.abs(dloss))),
+                                             "at_centre": float(np.interp(np.mean(f), f, dloss))},
+        "delay_change_ps": None,
+        "fitted_change": None,
+    }
+    db, da = getattr(before.line, "delay_s", None), getattr(after.line, "delay_s", None)
+    if not same and db is not None and da is not None:
+        line["delay_change_ps"] = float((da - db) * 1e12)
+    if same:
+        line["fitted_change"] = fit_line_change(f, al.gamma_feed_before, al.gamma_feed_after)
+
+    verdict = _verdict(fp, line, limits, res_b, res_a)
+    diagnosis = diagnose(fp, sh, line, limits, verdict)
+    return {
+        "baseline": {"file": before.source, "points": int(before.freq_hz.size)},
+        "after": {"file": after.source, "points": int(after.freq_hz.size)},
+        "grid": {"method": al.method, "points": int(f.size), "f_start_hz": float(f[0]), "f_stop_hz": float(f[-1])},
+        "resonance_shift_hz": fp["resonance_shift_hz"],
+        "resonance_before_hz": res_b,
+        "resonance_after_hz": res_a,
+        "min_swr_change": fp["min_swr_change"],
+        "bandwidth_2_change_hz": fp["bandwidth_2_change_hz"],
+        "max_gamma_change_feedpoint": fp["max_gamma_mag_change"],
+        "max_gamma_change_shack": sh["max_gamma_mag_change"] if sh else None,
+        "feedpoint": fp,
+        "shack": sh,
+        "line": line,
+        "limits": limits.as_dict(),
+        "verdict": verdict,
+        "diagnosis": diagnosis,
+        "notes": list(al.notes) + ([f"only {al.freq_hz.size} common frequencies: resonance, bandwidth and the "
+                                    "antenna-or-line diagnosis need a sweep, so this verdict says little"]
+                                   if al.freq_hz.size < 3 else []),
+    }
+
+
+def _verdict(fp: dict, line: dict, limits: Limits, res_b, res_a) -> dict:
+
+    exceeded, reasons = [], []
+    shift = fp["resonance_shift_hz"]
+    if shift is not None and abs(shift) > limits.max_shift_hz:
+        exceeded.append("max_shift")
+        reasons.append(f"the feedpoint resonance moved {shift / 1e3:+.1f} kHz (limit {fmt_freq(limits.max_shift_hz)})")
+    elif res_b is not None and res_a is None:
+        exceeded.append("max_shift")
+        reasons.append(f"the feedpoint resonance at {fmt_freq(res_b, 6)} is no longer inside the sweep")
+    rise = fp["min_swr_change"]
+    if rise is not None and rise > limits.max_swr_rise:
+        exceeded.append("max_swr_rise")
+        reasons.append(f"the lowest feedpoint SWR rose by {rise:.2f} (limit {limits.max_swr_rise:g})")
+    dg = fp["max_gamma_mag_change"]
+    if dg is not None and dg > limits.max_gamma_change:
+        exceeded.append("max_gamma_change")
+        reasons.append(f"the feedpoint |Gamma| changed by up to {dg:.3f} at {fmt_freq(fp['max_gamma_mag_change_at_hz'], 6)} "
+                       f"(limit {limits.max_gamma_change:g})")
+    pct = fp["bandwidth_2_change_percent"]
+    if pct is not None and -pct > limits.max_bw_loss_percent:
+        exceeded.append("max_bw_loss")
+        reasons.append(f"the feedpoint 2:1 bandwidth shrank by {-pct:.1f} % (limit {limits.max_bw_loss_percent:g} %)")
+    lc = line["loss_change_db"]
+    if lc is not None and lc["max_abs"] > limits.max_loss_change_db:
+        exceeded.append("max_loss_change")
+        reasons.append(f"the line's matched loss changed by up to {lc['max_abs']:.2f} dB "
+                       f"(limit {limits.max_loss_change_db:g} dB)")
+    return {"within_limits": not exceeded, "exceeded": exceeded, "reasons": reasons}
+
+
+FEEDPOINT_LIMITS = ("max_shift", "max_swr_rise", "max_gamma_change", "max_bw_loss")
+
+
+def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dict) -> dict:
+    """Antenna or line: the rule in the module notes, as ``{"code", "text"}``."""
+    fp_out = any(k in verdict["exceeded"] for k in FEEDPOINT_LIMITS)
+    if not line["same_line"]:
+        line_out = "max_loss_change" in verdict["exceeded"]
+        shack_moved = sh is not None and (sh["max_gamma_change"] or 0.0) > limits.max_gamma_change
+        lc = line["loss_change_db"]["at_centre"]
+        if fp_out and line_out:
+            return {"code": "both", "text": f"both changed: the feedpoint (each sweep through its own line) is beyond "
+                                            f"the limits, and the line's matched loss changed by {lc:+.2f} dB"}
+        if fp_out:
+            return {"code": "antenna", "text": "the antenna changed: with each sweep corrected through its own line "
+                                               "the feedpoint is beyond the limits while the line's loss held"}
+        if line_out or shack_moved:
+            what = f"its matched loss changed by {lc:+.2f} dB" if line_out else \
+                "the analyzer-end sweep changed while the corrected feedpoint did not"
+            return {"code": "line", "text": f"the line changed, not the antenna: {what}"}
+        return {"code": "unchanged", "text": "no change beyond the limits at the feedpoint or in the line"}
+
+    if not fp_out:
+        return {"code": "unchanged", "text": "no change beyond the limits: the feedpoint looks as it did at the baseline"}
+    noise = math.hypot(fp["trace_noise_before"], fp["trace_noise_after"])
+    if noise > limits.max_gamma_change:
+        return {"code": "unclear", "text": f"the feedpoint traces are too noisy to tell (about {noise:.3f} rms in Gamma "
+                                           "after correction): sweep with more averaging, or characterize the line"}
+    fit = line["fitted_change"]
+    allowed = NOISE_FACTOR * math.hypot(noise, MODEL_FLOOR_GAMMA)
+    if fit["rms_residual"] <= allowed:
+        parts = []
+        dl = fit["loss_change_db"]["at_centre"]
+        if abs(dl) >= 0.05:
+            parts.append(f"about {abs(dl):.2f} dB {'more' if dl > 0 else 'less'} one-way loss than its description")
+        dt = fit["delay_change_ps"]
+        if abs(dt) >= 1.0:
+            parts.append(f"an electrical length {'longer' if dt > 0 else 'shorter'} by {abs(dt):.0f} ps one way")
+        what = " and ".join(parts) or "a small change of loss or length"
+        return {"code": "line", "text": f"looks like the line, not the antenna: the whole change is what {what} "
+                                        "would do (the |Gamma| curve kept its shape). Check the run for water, "
+                                        "damage or a changed jumper, and characterize it again"}
+    return {"code": "antenna", "text": "looks like the antenna (or its connection at the feedpoint): the change is "
+                                       "not what any change of the line's loss or length would do"}
+
+
+__all__ = ["Aligned", "align", "compare_corrections", "diagnose",
+           "fit_line_change", "fitted_resonance", "trace_noise"]

@@ -1,0 +1,46 @@
+"""``deembed budget``: the power budget along a line."""
+from __future__ import annotations
+
+import json
+from typing import Optional
+
+import typer
+
+from ..base.errors import OptionError
+
+
+def budget_command(
+    power: str = typer.Option(..., "--power", help="Forward power at the transmitter, e.g. 100W."),
+    loss: float = typer.Option(..., "--loss", help="One-way matched loss of the line, dB."),
+    antenna_swr: Optional[float] = typer.Option(None, "--antenna-swr", help="SWR at the antenna."),
+    measured_swr: Optional[float] = typer.Option(None, "--measured-swr", help="SWR read at the transmitter end: "
+                                                                              "the antenna's is inferred."),
+    as_json: bool = typer.Option(False, "--json", help="Print a JSON object on standard output."),
+):
+    """Power budget along a line: what reaches the antenna, what comes back, what the line burns."""
+    from ..physics import rf
+    from ..physics.budget import antenna_swr_from_measured, power_budget
+    from ..base.units import parse_power
+
+    p = parse_power(power)
+    if not (loss >= 0 and loss < 1000):
+        raise OptionError("--loss", f"{loss:g}: the matched loss must be a number of dB, 0 or more")
+    if (antenna_swr is None) == (measured_swr is None):
+        raise OptionError("--antenna-swr", "give exactly one of --antenna-swr and --measured-swr")
+    given = antenna_swr if antenna_swr is not None else measured_swr
+    name = "--antenna-swr" if antenna_swr is not None else "--measured-swr"
+    if not given >= 1:
+        raise OptionError(name, f"{given:g}: an SWR is 1 or more")
+    swr_ant = antenna_swr if antenna_swr is not None else antenna_swr_from_measured(measured_swr, loss)
+    g_ant = float(rf.gamma_mag_from_swr(swr_ant)) if swr_ant != float("inf") else 1.0
+    b = power_budget(p, loss, g_ant)
+    if measured_swr is not None:
+        b["inferred_from_measured_swr"] = measured_swr
+    from ..io.jsonfile import to_jsonable
+
+    if as_json:
+        print(json.dumps(to_jsonable(b), indent=2))
+        return
+    from ..render.text import budget_text
+
+    print(budget_text(b, p, loss))

@@ -1,0 +1,95 @@
+"""``deembed characterize``: measure a feed line from its analyzer end with standards at its far end.
+
+A plain function with typer-annotated options; ``deembed.cli`` registers it as a command. It parses the
+options, calls :func:`deembed.characterize.characterize`, writes the run's 2-port and prints a report.
+"""
+from __future__ import annotations
+
+import json
+from typing import List, Optional
+
+import typer
+
+from ..base.errors import InputFileError, OptionError
+
+
+def characterize_command(
+    open_file: Optional[str] = typer.Option(None, "--open", help="Sweep (.s1p) with an open at the far end."),
+    short_file: Optional[str] = typer.Option(None, "--short", help="Sweep (.s1p) with a short at the far end."),
+    load_file: Optional[str] = typer.Option(None, "--load", help="Sweep (.s1p) with a 50 ohm load at the far end."),
+    out: str = typer.Option(..., "--out", help="Where to write the run's 2-port (.s2p); use it with "
+                                               "`deembed correct --line`."),
+    length: Optional[str] = typer.Option(None, "--length", help="Physical length of the run, e.g. 30m or 98ft: "
+                                                                "gives the velocity factor and loss per 100 m/ft."),
+    cable: Optional[str] = typer.Option(None, "--cable", help="Catalog cable id to compare the measured loss with."),
+    cables: Optional[str] = typer.Option(None, "--cables", help="Your own cable catalog (TOML)."),
+    z0: float = typer.Option(50.0, "--z0", help="Nominal Z0 (ohm) for a one-standard fit."),
+    open_c: Optional[str] = typer.Option(None, "--open-c", help="The open's fringing capacitance, e.g. 12fF "
+                                                                "(default: ideal open)."),
+    short_l: Optional[str] = typer.Option(None, "--short-l", help="The short's inductance, e.g. 5pH "
+                                                                  "(default: ideal short)."),
+    load_r: Optional[str] = typer.Option(None, "--load-r", help="The load's resistance, e.g. 50.3ohm "
+                                                                "(default: 50 ohm)."),
+    at: Optional[List[str]] = typer.Option(None, "--at", help="Frequency to report the loss at, e.g. 14MHz; "
+                                                              "repeat or separate with commas."),
+    as_json: bool = typer.Option(False, "--json", help="Print the report as JSON on standard output."),
+):
+    """Characterize a feed line from open/short/load sweeps taken through it, for `correct --line`."""
+    import numpy as np
+
+    from ..render.text import report_text
+    from ..io import cables as _cables
+    from ..analysis.characterize import characterization_report, characterize
+    from ..io.charfile import write_characterization
+    from ..io.atomic import check_not_input
+    from ..io.touchstone import read_sweep
+    from ..base.units import parse_capacitance, parse_frequency, parse_inductance, parse_length, parse_resistance
+
+    given = {name: path for name, path in (("open", open_file), ("short", short_file), ("load", load_file)) if path}
+    if not given:
+        raise OptionError("--open", "give the far-end sweeps: --open and --short (and --load), or one of them alone")
+    if not str(out).lower().endswith(".s2p"):
+        raise OptionError("--out", f"{out!r}: the run's 2-port is a Touchstone .s2p file; name it like LINE.s2p")
+    check_not_input(out, list(given.values()) + [cables], "--out")
+    if not (z0 > 0 and np.isfinite(z0)):
+        raise OptionError("--z0", f"{z0:g}: the characteristic impedance must be a positive number of ohms")
+    if load_r is not None and "load" not in given:
+        raise OptionError("--load-r", "describes the load standard; give --load too, or drop --load-r")
+    if open_c is not None and "open" not in given:
+        raise OptionError("--open-c", "describes the open standard; give --open too, or drop --open-c")
+    if short_l is not None and "short" not in given:
+        raise OptionError("--short-l", "describes the short standard; give --short too, or drop --short-l")
+    c_f = parse_capacitance(open_c, "--open-c") if open_c is not None else 0.0
+    l_h = parse_inductance(short_l, "--short-l") if short_l is not None else 0.0
+    r_ohm = parse_resistance(load_r, "--load-r") if load_r is not None else 50.0
+    length_m = parse_length(length, "--length", allow_zero=False) if length is not None else None
+    cab = _cables.lookup(cable, _cables.catalog(cables), "--cable") if cable else None
+    at_hz = None
+    if at:
+        at_hz = sorted({parse_frequency(t.strip(), "--at") for item in at for t in item.split(",") if t.strip()})
+
+    sweeps = {name: read_sweep(path, expect_ports=1) for name, path in given.items()}
+    names = list(sweeps)
+    ref = sweeps[names[0]]
+    for name in names[1:]:
+        sw = sweeps[name]
+        if sw.freq_hz.shape != ref.freq_hz.shape or not np.array_equal(sw.freq_hz, ref.freq_hz):
+            raise InputFileError(given[name], f"its frequencies differ from those of {given[names[0]]}; sweep every "
+                                              "standard over the same points")
+    if ref.freq_hz.size and ref.freq_hz[0] <= 0:
+        raise InputFileError(given[names[0]], "starts at 0 Hz; a line cannot be characterized at DC (its model "
+                                              "has no Z0 there); drop the 0 Hz point")
+    gam = {name: sw.gamma for name, sw in sweeps.items()}
+    ch = characterize(ref.freq_hz, gamma_open=gam.get("open"), gamma_short=gam.get("short"),
+                      gamma_load=gam.get("load"), z0_ohm=z0, open_c_f=c_f, short_l_h=l_h, load_r_ohm=r_ohm)
+    report = characterization_report(ch, at_hz=at_hz, length_m=length_m, cable=cab,
+                                     gamma_open=gam.get("open"), gamma_short=gam.get("short"))
+    report["inputs"] = dict(given)
+    report["out"] = str(out)
+    write_characterization(out, ch, comments=tuple(f"{k}: {v}" for k, v in given.items()))
+    if as_json:
+        print(json.dumps(report, indent=2))
+    else:
+        print(report_text(report))
+
+

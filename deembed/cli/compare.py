@@ -1,0 +1,95 @@
+"""``deembed compare`` and ``deembed site``: check feeds against their baselines after work.
+
+Plain functions with typer-annotated options; :mod:`deembed.cli` registers them. Exit status: 0 when
+everything is within its limits, 1 when a limit is exceeded (or, for a site, a feed failed), 2 for bad
+input (``deembed.cli.main`` turns a :class:`~deembed.errors.DeembedError` into one line).
+"""
+from __future__ import annotations
+
+import json
+from typing import List, Optional
+
+import typer
+
+from .options import CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, VfOpt, Z0Opt, build_line
+from ..base.errors import OptionError
+
+MaxShiftOpt = typer.Option(None, "--max-shift", help="Largest acceptable move of the feedpoint resonance, "
+                                                     "e.g. 50kHz (default 50kHz).")
+MaxSwrRiseOpt = typer.Option(None, "--max-swr-rise", help="Largest acceptable rise of the lowest feedpoint SWR "
+                                                          "(default 0.2).")
+MaxGammaOpt = typer.Option(None, "--max-gamma-change", help="Largest acceptable change of the feedpoint |Gamma| "
+                                                            "at any frequency (default 0.1).")
+MaxBwLossOpt = typer.Option(None, "--max-bw-loss", help="Largest acceptable loss of the 2:1 bandwidth, per cent "
+                                                        "of the baseline's (default 25).")
+MaxLossChangeOpt = typer.Option(None, "--max-loss-change", help="Largest acceptable change of the line's matched "
+                                                                "loss with --after-line, dB (default 0.5).")
+
+
+def compare_command(
+    baseline: str = typer.Argument(..., help="Sweep taken when the feed was known good (.s1p)."),
+    after: str = typer.Argument(..., help="Sweep taken after the work (.s1p)."),
+    cable: Optional[str] = CableOpt,
+    length: Optional[str] = LengthOpt,
+    vf: Optional[str] = VfOpt,
+    delay: Optional[str] = DelayOpt,
+    z0: Optional[str] = Z0Opt,
+    loss: Optional[List[str]] = LossOpt,
+    line: Optional[str] = LineOpt,
+    cables: Optional[str] = CablesOpt,
+    extrapolate: bool = ExtrapolateOpt,
+    after_line: Optional[str] = typer.Option(None, "--after-line", help="A fresh line description or "
+                                             "characterization (.toml/.s2p) for the AFTER sweep; the baseline "
+                                             "keeps the line options."),
+    port: Optional[int] = typer.Option(None, "--port", help="For 2-port files: which port's reflection to use."),
+    max_shift: Optional[str] = MaxShiftOpt,
+    max_swr_rise: Optional[str] = MaxSwrRiseOpt,
+    max_gamma_change: Optional[str] = MaxGammaOpt,
+    max_bw_loss: Optional[str] = MaxBwLossOpt,
+    max_loss_change: Optional[str] = MaxLossChangeOpt,
+    out: Optional[str] = typer.Option(None, "--out", help="Folder for the overlay plot, the JSON and a small "
+                                                          "HTML page."),
+    as_json: bool = typer.Option(False, "--json", help="Print the comparison as JSON on standard output."),
+):
+    """Compare an after-work sweep with a baseline through the same line: did the antenna or the line change?
+
+    Exit status 0 when within every limit, 1 when any is exceeded, 2 for bad input.
+    """
+    from ..analysis import compare
+    from ..analysis.limits import parse_limits
+    from ..io.jsonfile import to_jsonable
+    from ..render.text import compare_text
+    from ..jobs import correct as workflow
+    from ..physics.deembedding import correct
+    from ..io.linefile import read_line_file
+    from ..io.touchstone import read_sweep
+
+    if port is not None and port not in (1, 2):
+        raise OptionError("--port", f"{port} is not a port of a 2-port file; use 1 or 2")
+    limits = parse_limits({"max_shift": max_shift, "max_swr_rise": max_swr_rise,
+                                   "max_gamma_change": max_gamma_change, "max_bw_loss": max_bw_loss,
+                                   "max_loss_change": max_loss_change})
+    the_line, _ = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate)
+    other = the_line
+    if after_line:
+        other, _ = read_line_file(after_line, cables, extrapolate)
+    before = correct(read_sweep(baseline, port=port, expect_ports=1), the_line)
+    later = correct(read_sweep(after, port=port, expect_ports=1), other)
+    result = compare.compare_corrections(before, later, limits)
+    if out:
+        from ..jobs.compare import compare_paths, write_compare_outputs
+
+        workflow.prepare_out_dir(out)
+        written = write_compare_outputs(result, before, later, compare_paths(after, out),
+                                        inputs=[baseline, after, line, cables, after_line])
+        result["outputs"] = written
+    if as_json:
+        print(json.dumps(to_jsonable(result), indent=2, allow_nan=False))
+    else:
+        print(compare_text(result))
+        if out:
+            print(f"\nresults in {out}/ (open the .compare.html)")
+    if not result["verdict"]["within_limits"]:
+        raise typer.Exit(code=1)
+
+

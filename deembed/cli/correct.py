@@ -1,0 +1,54 @@
+"""``deembed correct``: a sweep through a known line to the feedpoint."""
+from __future__ import annotations
+
+import json
+from typing import List, Optional
+
+import typer
+
+from ..base.errors import OptionError
+from .options import CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, VfOpt, Z0Opt, build_line, parse_thresholds
+
+
+def correct_command(
+    sweep: str = typer.Argument(..., help="Touchstone sweep taken at the analyzer end (.s1p, or .s2p with --port)."),
+    cable: Optional[str] = CableOpt,
+    length: Optional[str] = LengthOpt,
+    vf: Optional[str] = VfOpt,
+    delay: Optional[str] = DelayOpt,
+    z0: Optional[str] = Z0Opt,
+    loss: Optional[List[str]] = LossOpt,
+    line: Optional[str] = LineOpt,
+    cables: Optional[str] = CablesOpt,
+    extrapolate: bool = ExtrapolateOpt,
+    port: Optional[int] = typer.Option(None, "--port", help="For a 2-port file: which port's reflection to use (1 or 2)."),
+    out: str = typer.Option("deembed-out", "--out", help="Folder for the results (created if needed)."),
+    swr_limits: str = typer.Option("1.5,2,3", "--swr-limits", help="SWR thresholds for bandwidth spans."),
+    target: Optional[str] = typer.Option(None, "--target", help="Wanted resonant frequency, e.g. 14.15MHz: trimming advice."),
+    power: Optional[str] = typer.Option(None, "--power", help="Transmitter power for a power budget, e.g. 100W."),
+    bands: bool = typer.Option(False, "--bands", help="Check the built-in sample band list."),
+    bands_file: Optional[str] = typer.Option(None, "--bands-file", help="Check the bands in this TOML file."),
+    no_plots: bool = typer.Option(False, "--no-plots", help="Skip the PNG plots and the HTML report."),
+    as_json: bool = typer.Option(False, "--json", help="Print the summary as JSON on standard output."),
+):
+    """Correct a sweep through a known line: feedpoint Touchstone, table, summary, plots and report."""
+    from ..io.jsonfile import to_jsonable
+    from ..jobs import correct as workflow
+    from ..base.units import parse_frequency, parse_power
+
+    if port is not None and port not in (1, 2):
+        raise OptionError("--port", f"{port} is not a port of a 2-port file; use 1 or 2")
+    the_line, notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate)
+    opts = workflow.Options(
+        port=port, thresholds=parse_thresholds(swr_limits),
+        target_hz=parse_frequency(target, "--target") if target else None,
+        power_w=parse_power(power) if power else None,
+        bands=bands, bands_file=bands_file, plots=not no_plots, html=not no_plots, notes=notes,
+    )
+    _, summary, _ = workflow.correct_file(sweep, the_line, out, opts, line_inputs=[line, cables])
+    if as_json:
+        print(json.dumps(to_jsonable(summary), indent=2))
+    else:
+        from ..render.text import correction_text
+
+        print(correction_text(summary, out))

@@ -1,0 +1,56 @@
+"""Options shared by several commands (the line options) and their small parsers."""
+from __future__ import annotations
+
+import typer
+
+from ..base.errors import OptionError
+
+
+CableOpt = typer.Option(None, "--cable", help="Catalog cable id (see `deembed cables`), e.g. rg213.")
+
+
+LengthOpt = typer.Option(None, "--length", help="Physical length with unit: 30m, 98ft.")
+
+
+VfOpt = typer.Option(None, "--vf", help="Velocity factor, in (0, 1].")
+
+
+DelayOpt = typer.Option(None, "--delay", help="One-way delay, e.g. 152ns (a bare number is ns).")
+
+
+Z0Opt = typer.Option(None, "--z0", help="Nominal characteristic impedance, ohm (default: the cable's, or 50).")
+
+
+LossOpt = typer.Option(None, "--loss", help="The run's one-way matched loss at a frequency, e.g. 1.25dB@14MHz; "
+                                            "repeat for a second frequency.")
+
+
+LineOpt = typer.Option(None, "--line", help="Line description: a .toml file (several sections) or a measured "
+                                            "or characterized .s2p.")
+
+
+CablesOpt = typer.Option(None, "--cables", help="Your own cable catalog (TOML), added to the built-in one.")
+
+
+ExtrapolateOpt = typer.Option(False, "--extrapolate", help="Allow a characterized line to be used beyond the "
+                                                           "frequencies it was measured over.")
+
+
+def build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate=False):
+    """The line from the shared options, plus notes for the summary."""
+    from ..io.linefile import line_from_options
+
+    return line_from_options(cable=cable, length=length, vf=vf, delay=delay, z0=z0, loss=loss or (),
+                             cables_file=cables, line_file=line, allow_extrapolation=extrapolate)
+
+
+def parse_thresholds(text: str) -> tuple:
+    from ..base.units import parse_positive
+
+    vals = []
+    for part in text.split(","):
+        v = parse_positive(part.strip(), "--swr-limits", "SWR threshold")
+        if v <= 1:
+            raise OptionError("--swr-limits", f"{part.strip()!r}: an SWR threshold must be above 1")
+        vals.append(v)
+    return tuple(sorted(set(vals)))

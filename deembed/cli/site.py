@@ -1,0 +1,31 @@
+"""``deembed site``: every antenna of a site corrected and checked against its baseline."""
+from __future__ import annotations
+
+
+import typer
+import json
+from ..base.errors import OptionError
+
+
+def site_command(
+    site_file: str = typer.Argument(..., help="Site file (TOML): the feeds, their lines, baselines and latest sweeps."),
+    out: str = typer.Option("deembed-site", "--out", help="Folder for the results: index.html, site.json and "
+                                                          "a folder per feed."),
+    workers: int = typer.Option(2, "--workers", help="Processes to run feeds on (default 2: both cores)."),
+    as_json: bool = typer.Option(False, "--json", help="Print the site summary as JSON on standard output."),
+):
+    """Check every feed of a site against its baseline; one index page. Exit 0 when all pass, 1 otherwise."""
+    from ..io.jsonfile import to_jsonable
+    from ..jobs import site
+    from ..render.text import site_text, stderr_progress
+
+    if workers < 1:
+        raise OptionError("--workers", f"{workers}: give 1 or more processes")
+    total = len(site.read_site(site_file, out).jobs)
+    summary = site.run_site(site_file, out, workers=workers, progress=stderr_progress(total))
+    if as_json:
+        print(json.dumps(to_jsonable(summary), indent=2, allow_nan=False))
+    else:
+        print(site_text(summary, out))
+    if not summary["all_passed"]:
+        raise typer.Exit(code=1)

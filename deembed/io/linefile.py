@@ -1,0 +1,189 @@
+"""Build a :class:`~deembed.line.Line` from what the user says: command-line options or a line file.
+
+A line file is TOML of our own design (documented in the README)::
+
+    name = "Tower run, 20 m beam"
+
+    [[section]]                 # from the analyzer toward the antenna
+    label = "shack jumper"
+    cable = "rg58"
+    length = "1.5m"
+
+    [[section]]
+    label = "main run"
+    z0 = 50
+    vf = 0.85
+    length = "98ft"
+    loss = ["0.9dB@14MHz", "2.3dB@100MHz"]   # this section's one-way matched loss
+
+    [[section]]
+    measured = "lightning-arrestor.s2p"      # a measured 2-port, path relative to this file
+
+    [cables.my-rg213]           # optional: cables of your own, same fields as the catalog
+    name = "..."  z0 = 50  vf = 0.66  k1 = 0.18  k2 = 0.0025  source = "..."
+
+Each section takes ``cable`` and/or ``z0`` (ohm), its electrical length as ``length`` (with a unit) and
+a velocity factor (``vf`` or the cable's) or as ``delay`` (one-way), and its matched loss from the
+cable or from ``loss`` points. The same rules serve the single-section command-line options.
+"""
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field
+
+from . import cables as _cables
+from ..base.errors import InputFileError, OptionError
+from ..physics.line import C0_M_PER_S, Line, LossModel, MeasuredTwoPort, Section
+from .tomlfile import load_toml
+from ..base.units import parse_delay, parse_length, parse_loss_point, parse_positive
+from .charfile import line_from_characterization
+from .touchstone import read_sweep
+
+
+@dataclass
+class SectionSpec:
+    """What is known of one section, as text or numbers, before it is checked."""
+
+    cable: str | None = None
+    length: str | None = None
+    vf: object = None
+    delay: str | None = None
+    z0: object = None
+    loss: list = field(default_factory=list)
+    label: str | None = None
+
+
+_OPT = {"cable": "--cable", "length": "--length", "vf": "--vf", "delay": "--delay", "z0": "--z0", "loss": "--loss"}
+
+
+def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Section, list[str]]:
+    """Check a section's description and build it; returns (section, notes)."""
+    notes: list[str] = []
+    cable = _cables.lookup(spec.cable, cat, names["cable"]) if spec.cable else None
+    z0 = parse_positive(spec.z0, names["z0"], "characteristic impedance") if spec.z0 is not None else None
+    if z0 is None:
+        z0 = cable.z0_ohm if cable else 50.0
+    vf = parse_positive(spec.vf, names["vf"], "velocity factor", upper=1.0) if spec.vf is not None else None
+    length_m = parse_length(spec.length, names["length"]) if spec.length is not None else None
+    delay_s = parse_delay(spec.delay, names["delay"]) if spec.delay is not None else None
+
+    if delay_s is not None:
+        if length_m is not None:
+            implied = length_m / (C0_M_PER_S * delay_s) if delay_s > 0 else float("inf")
+            if vf is not None and abs(implied - vf) > 1e-6 * vf:
+                raise OptionError(names["delay"], "length, velocity factor and delay disagree; give two of the three")
+            if not 0 < implied <= 1:
+                raise OptionError(names["delay"], f"a delay of {delay_s * 1e9:g} ns over {length_m:g} m means a "
+                                                  f"velocity factor of {implied:.3g}, outside (0, 1]; check both")
+            vf = implied
+    elif length_m is not None:
+        if vf is None:
+            if cable is None:
+                raise OptionError(names["vf"], "the velocity factor is needed with a length "
+                                               f"(give {names['vf']}, {names['cable']} or {names['delay']})")
+            vf = cable.vf
+        delay_s = length_m / (vf * C0_M_PER_S)
+    else:
+        raise OptionError(names["length"], f"the line's length is needed (e.g. {names['length']} 30m), "
+                                           f"or its one-way delay ({names['delay']} 152ns)")
+
+    if spec.loss:
+        points = [parse_loss_point(p, names["loss"]) for p in spec.loss]
+        loss = LossModel.fit(points, names["loss"])
+        if cable:
+            notes.append(f"matched loss taken from {names['loss']}, not from the {cable.id} catalog figures")
+    elif cable:
+        if length_m is None:
+            raise OptionError(names["length"], f"a cable's loss needs its length; give {names['length']}")
+        loss = LossModel.from_k(cable.k1, cable.k2, length_m)
+    else:
+        loss = LossModel()
+        notes.append("no loss given for the line: it is taken as lossless (give --loss or --cable)")
+
+    if delay_s == 0 and (loss.c_np or loss.d_np):
+        raise OptionError(names["length"], "a section with loss must have a length or delay above zero")
+    label = spec.label or (cable.name if cable else f"{z0:g} ohm line")
+    return Section(z0, delay_s, loss, length_m, vf, label), notes
+
+
+def line_from_options(*, cable=None, length=None, vf=None, delay=None, z0=None, loss=(), cables_file=None,
+                      line_file=None, allow_extrapolation: bool = False) -> tuple[Line, list[str]]:
+    """The line described by the command-line options (or by ``--line FILE``)."""
+    given = [n for n, v in (("--cable", cable), ("--length", length), ("--vf", vf), ("--delay", delay),
+                            ("--z0", z0), ("--loss", loss)) if v]
+    if line_file:
+        if given:
+            raise OptionError("--line", f"give either --line or {', '.join(given)}, not both")
+        return read_line_file(line_file, cables_file, allow_extrapolation)
+    if not given:
+        raise OptionError("--line", "say which line to remove: --cable ID --length L, or --length/--vf/--loss, "
+                                    "or --line FILE (see deembed correct --help)")
+    cat = _cables.catalog(cables_file)
+    sec, notes = build_section(SectionSpec(cable, length, vf, delay, z0, list(loss or [])), cat)
+    return Line((sec,)), notes
+
+
+def read_line_file(path, cables_file=None, allow_extrapolation: bool = False) -> tuple[Line, list[str]]:
+    """A line from a TOML line description or a measured/characterized 2-port Touchstone file."""
+    p = str(path)
+    if not p.lower().endswith(".toml"):
+        return _two_port_line(p, allow_extrapolation), []
+    data = load_toml(p)
+    cat = _cables.catalog(cables_file)
+    extra = data.get("cables", {})
+    if not isinstance(extra, dict):
+        raise InputFileError(p, "'cables' must hold tables, one per cable: [cables.ID] with z0, vf, k1, k2")
+    if extra:
+        cat.update(_cables.parse_catalog(extra, p))
+    sections = data.get("section")
+    if not isinstance(sections, list) or not sections or not all(isinstance(e, dict) for e in sections):
+        raise InputFileError(p, "no [[section]] tables; describe the line as one or more [[section]] tables")
+    known = {"cable", "length", "vf", "delay", "z0", "loss", "label", "measured"}
+    parts, notes = [], []
+    base = os.path.dirname(os.path.abspath(p))
+    for i, entry in enumerate(sections, 1):
+        where = f"section {i}"
+        unknown = sorted(set(entry) - known)
+        if unknown:
+            raise InputFileError(p, f"{where}: unknown key(s) {', '.join(unknown)}; use {', '.join(sorted(known))}")
+        texts = {"cable": entry.get("cable"), "measured": entry.get("measured"), "label": entry.get("label")}
+        texts.update({"loss": entry.get("loss")} if not isinstance(entry.get("loss"), list)
+                     else {f"loss[{j}]": v for j, v in enumerate(entry["loss"], 1)})
+        wrong = [k for k, v in texts.items() if v is not None and not isinstance(v, str)]
+        if wrong:
+            raise InputFileError(p, f"{where}: '{wrong[0]}' must be a quoted string, e.g. cable = \"rg213\", "
+                                    f"loss = [\"1.25dB@14MHz\"], measured = \"arrestor.s2p\"")
+        if "measured" in entry:
+            parts.append(_two_port_line(os.path.join(base, str(entry["measured"])), allow_extrapolation).parts[0])
+            continue
+        loss = entry.get("loss", [])
+        if isinstance(loss, str):
+            loss = [loss]
+        spec = SectionSpec(entry.get("cable"), as_text(entry.get("length")), entry.get("vf"), as_text(entry.get("delay")),
+                           entry.get("z0"), list(loss), entry.get("label"))
+        names = {k: f"{where} '{k}'" for k in _OPT}
+        try:
+            sec, sec_notes = build_section(spec, cat, names)
+        except OptionError as exc:
+            raise InputFileError(p, str(exc)) from None
+        parts.append(sec)
+        notes += [f"{where}: {n}" for n in sec_notes]
+    return Line(tuple(parts), name=str(data.get("name", ""))), notes
+
+
+def as_text(v):
+    return None if v is None else str(v)
+
+
+def _two_port_line(path: str, allow_extrapolation: bool = False) -> Line:
+    """A measured (or characterized) 2-port file as a line. A characterization carries its model."""
+
+    found = line_from_characterization(path, allow_extrapolation=allow_extrapolation)
+    if found is not None:
+        return found
+
+    sw = read_sweep(path, expect_ports=2)
+    return Line((MeasuredTwoPort(sw.freq_hz, sw.s, label="measured 2-port", source=path),))
+
+
+__all__ = ["SectionSpec", "build_section", "line_from_options", "read_line_file"]

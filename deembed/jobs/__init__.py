@@ -1,0 +1,1 @@
+"""Jobs: one function per command: read the inputs, compute, render, write every output."""

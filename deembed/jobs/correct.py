@@ -1,0 +1,223 @@
+"""The main job end to end, from file names to written results.
+
+``correct_file`` reads a sweep, removes a line, works out the findings and writes the outputs into a
+folder. The command line, the demo and the site runner call it; it is a plain library function too.
+"""
+from __future__ import annotations
+
+import json
+import os
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..analysis.summary import summarise, table_columns
+from ..physics.deembedding import correct
+from ..base.errors import OptionError
+from ..io.atomic import check_not_input
+from ..physics.budget import power_budget
+from ..analysis.findings import trim_advice
+from ..io.bands import band_check, load_bands
+from ..analysis.summary import ranges_text
+from ..base.errors import InputFileError
+from ..physics import rf
+from ..io.atomic import write_text_atomic
+from ..io.touchstone import write_touchstone
+from ..render.report import write_report
+from ..io.atomic import atomic_path
+from ..render import plots
+from ..io.touchstone import read_sweep
+from ..io.jsonfile import to_jsonable
+
+
+@dataclass
+class Options:
+    """What the user asked for beyond the line itself."""
+
+    port: int | None = None
+    thresholds: tuple = (1.5, 2.0, 3.0)
+    target_hz: float | None = None
+    power_w: float | None = None
+    bands_file: str | None = None
+    bands: bool = False
+    plots: bool = True
+    html: bool = True
+    notes: list = field(default_factory=list)
+
+
+def stem_of(path: str) -> str:
+    base = os.path.basename(path)
+    stem, ext = os.path.splitext(base)
+    return stem if ext else base
+
+
+def output_paths(sweep_path: str, out_dir: str) -> dict:
+    stem = stem_of(sweep_path)
+    j = lambda suffix: os.path.join(out_dir, stem + suffix)  # noqa: E731
+    return {
+        "feedpoint_s1p": j(".feedpoint.s1p"),
+        "table_csv": j(".table.csv"),
+        "summary_json": j(".summary.json"),
+        "swr_png": j(".swr.png"),
+        "smith_png": j(".smith.png"),
+        "impedance_png": j(".impedance.png"),
+        "return_loss_png": j(".return-loss.png"),
+        "budget_png": j(".budget.png"),
+        "report_html": j(".report.html"),
+    }
+
+
+def prepare_out_dir(out_dir: str) -> None:
+    """Create the output folder; refuse one that is a file or cannot be created.
+
+    (Outputs that would overwrite an input are refused by :func:`refuse_overwriting_inputs`.)
+    """
+    if os.path.exists(out_dir) and not os.path.isdir(out_dir):
+        raise OptionError("--out", f"{out_dir} is a file; give a folder for the results")
+    try:
+        os.makedirs(out_dir, exist_ok=True)
+    except OSError as exc:
+        raise OptionError("--out", f"cannot create the folder {out_dir} ({exc.strerror}); check the path: its parent "
+                                   "folders must exist as folders and be writable") from None
+
+
+def refuse_overwriting_inputs(paths: dict, inputs) -> None:
+
+    for p in paths.values():
+        check_not_input(p, [i for i in inputs if i], "--out")
+
+
+def budget_columns(corr, power_w: float) -> dict:
+    """Per-frequency power budget columns for a transmitter power (the budget applied to the sweep)."""
+
+    b = power_budget(power_w, corr.matched_loss_db, corr.gamma_feed)
+    return {
+        "budget_forward_at_antenna_w": b["at_antenna"]["forward_w"],
+        "budget_reflected_at_antenna_w": b["at_antenna"]["reflected_w"],
+        "budget_delivered_w": b["at_antenna"]["delivered_w"],
+        "budget_reflected_at_tx_w": b["at_transmitter"]["reflected_w"],
+        "budget_line_dissipated_w": b["line"]["dissipated_w"],
+        "budget_retuned_delivered_w": b["matched_at_transmitter"]["delivered_w"],
+    }
+
+
+def analyse(sweep, line, opts: Options):
+    """Correct a sweep and work out everything the outputs show. Returns (correction, summary, table)."""
+    corr = correct(sweep, line)
+    check_finite(corr)
+    summary = summarise(corr, thresholds=opts.thresholds, notes=list(opts.notes) + list(getattr(sweep, "notes", ())),
+                        sweep_info={"comments": list(getattr(sweep, "comments", ()))})
+    budget = budget_columns(corr, opts.power_w) if opts.power_w else None
+    table = table_columns(corr, budget)
+    if opts.target_hz is not None:
+
+        res = summary["feedpoint"].get("resonances_hz") or []
+        if res:
+            near = min(res, key=lambda r: abs(r - opts.target_hz))
+            summary["feedpoint"]["trim"] = trim_advice(near, opts.target_hz)
+        else:
+            summary["feedpoint"]["trim"] = None
+            summary["warnings"].append("no feedpoint resonance inside the sweep: no trimming advice; "
+                                       "sweep a wider range around the target")
+    if opts.power_w:
+        summary["power"] = budget_summary(corr, budget, opts.power_w)
+    if opts.bands or opts.bands_file:
+
+        bands = load_bands(opts.bands_file)
+        limit = 2.0 if 2.0 in opts.thresholds else opts.thresholds[0]
+        summary["bands"] = {
+            "swr_limit": limit,
+            "feedpoint": band_check(corr.freq_hz, corr.gamma_feed, bands, limit),
+            "shack": band_check(corr.freq_hz, corr.gamma_shack, bands, limit),
+        }
+    return corr, summary, table
+
+
+def check_finite(corr) -> None:
+    """Refuse a correction that is not a finite number somewhere, before anything is written.
+
+    A Touchstone file cannot hold NaN or infinity, and findings made around such points would be
+    meaningless. It happens where the line passes nothing (S21 S12 = 0, e.g. a measured 2-port of an
+    open run) or where the sweep's values are extreme.
+    """
+
+    bad = ~np.isfinite(corr.gamma_feed)
+    if bad.any():
+        raise InputFileError(corr.source, f"removing the line gives no finite feedpoint reflection at "
+                                          f"{int(bad.sum())} of {bad.size} points ({ranges_text(corr.freq_hz, bad)}): "
+                                          "the line passes nothing there or the sweep's values are extreme; check "
+                                          "the line description (a measured 2-port's S21) and the sweep at those "
+                                          "frequencies")
+
+
+def budget_summary(corr, budget: dict, power_w: float) -> dict:
+    """The budget at the feedpoint's best-matched frequency, for the summary."""
+
+    i = int(np.nanargmin(rf.swr(corr.gamma_feed)))
+    return {
+        "transmitter_w": power_w,
+        "at_freq_hz": float(corr.freq_hz[i]),
+        **{k.removeprefix("budget_"): float(v[i]) for k, v in budget.items()},
+    }
+
+
+def write_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options) -> dict:
+    """Write every output atomically; returns the paths written."""
+
+    written = {}
+    comments = [f"deembed: feedpoint reflection of {os.path.basename(corr.source)}",
+                f"line removed: {summary['line']['description']}",
+                "reference 50 ohm"]
+    write_touchstone(paths["feedpoint_s1p"], corr.freq_hz, corr.gamma_feed, comments=comments)
+    written["feedpoint_s1p"] = paths["feedpoint_s1p"]
+    write_table_csv(table, paths["table_csv"])
+    written["table_csv"] = paths["table_csv"]
+    if opts.plots:
+        written.update(write_plots(corr, table, paths, opts))
+    summary["outputs"] = {k: os.path.basename(v) for k, v in written.items()}
+    if opts.html:
+
+        write_report(paths["report_html"], corr, summary, table, written)
+        written["report_html"] = paths["report_html"]
+        summary["outputs"]["report_html"] = os.path.basename(paths["report_html"])
+    write_text_atomic(paths["summary_json"], json.dumps(to_jsonable(summary), indent=2, allow_nan=False) + "\n")
+    written["summary_json"] = paths["summary_json"]
+    return written
+
+
+def write_table_csv(table: dict, path: str) -> None:
+    import pandas as pd
+
+
+    frame = pd.DataFrame(table)
+    with atomic_path(path) as tmp:
+        frame.to_csv(tmp, index=False, float_format="%.9g")
+
+
+def write_plots(corr, table: dict, paths: dict, opts: Options) -> dict:
+
+    limits = tuple(t for t in opts.thresholds if t <= 3)
+    figs = {
+        "swr_png": plots.swr_plot(corr, limits=limits),
+        "smith_png": plots.smith_plot(corr),
+        "impedance_png": plots.impedance_plot(corr),
+        "return_loss_png": plots.return_loss_plot(corr),
+    }
+    if opts.power_w:
+        figs["budget_png"] = plots.budget_plot(corr.freq_hz, table)
+    for key, fig in figs.items():
+        plots.save(fig, paths[key])
+    return {k: paths[k] for k in figs}
+
+
+def correct_file(sweep_path: str, line, out_dir: str, opts: Options | None = None, line_inputs=()):
+    """Read, correct, analyse and write. Returns (correction, summary, written paths)."""
+
+    opts = opts or Options()
+    sweep = read_sweep(sweep_path, port=opts.port, expect_ports=1)
+    paths = output_paths(sweep_path, out_dir)
+    refuse_overwriting_inputs(paths, [sweep_path, opts.bands_file, *line_inputs])
+    corr, summary, table = analyse(sweep, line, opts)
+    prepare_out_dir(out_dir)
+    written = write_outputs(corr, summary, table, paths, opts)
+    return corr, summary, written

@@ -1,0 +1,77 @@
+"""`deembed demo`: the main job on the bundled sample sweeps of the invented Ridgeback Hill station."""
+from __future__ import annotations
+
+import os
+
+from . import correct as workflow
+from ..io.linefile import line_from_options
+from ..render.text import correction_text
+from .samples import write_samples
+from ..analysis.compare import compare_corrections
+from ..render.text import compare_text
+from .compare import compare_paths, write_compare_outputs
+from ..physics.deembedding import correct
+from ..io.touchstone import read_sweep
+from ..render.text import site_text
+from .site import run_site
+
+
+def sample_folder(out_dir: str) -> str:
+    """The repository's sample_sweeps/ when running from a checkout; otherwise freshly generated ones."""
+    here = os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "sample_sweeps")
+    if os.path.isfile(os.path.join(here, "dipole-40m.s1p")):
+        return here
+
+    folder = os.path.join(out_dir, "sample_sweeps")
+    write_samples(folder)
+    return folder
+
+
+def run_demo(out_dir: str, echo=print) -> dict:
+    """Correct the station's sweeps into ``out_dir``; returns {name: summary}."""
+    workflow.prepare_out_dir(out_dir)
+    samples = sample_folder(out_dir)
+    s = lambda name: os.path.join(samples, name)  # noqa: E731
+    results = {}
+
+    echo("== 40 m dipole, swept from the shack through a jumper and 36 m of foam coax (line file) ==")
+    line, notes = line_from_options(line_file=s("dipole-40m.line.toml"))
+    opts = workflow.Options(target_hz=7.1e6, power_w=100.0, bands=True, notes=notes)
+    folder = os.path.join(out_dir, "dipole-40m")
+    _, summary, _ = workflow.correct_file(s("dipole-40m.s1p"), line, folder, opts)
+    echo(correction_text(summary, folder))
+    results["dipole-40m"] = summary
+
+    echo("\n== 2 m vertical on the tower, 45 m of RG-213 (catalog cable) ==")
+    line, notes = line_from_options(cable="rg213", length="45m")
+    opts = workflow.Options(power_w=50.0, bands=True, notes=notes)
+    folder = os.path.join(out_dir, "vertical-2m")
+    _, summary, _ = workflow.correct_file(s("vertical-2m.s1p"), line, folder, opts)
+    echo(correction_text(summary, folder))
+    results["vertical-2m"] = summary
+
+    echo("\n== After the tower work: the 2 m vertical against its baseline, and against a wet-run sweep ==")
+
+    line, _ = line_from_options(line_file=s("vertical-2m.line.toml"))
+    base = correct(read_sweep(s("vertical-2m.s1p")), line)
+    folder = os.path.join(out_dir, "compare")
+    os.makedirs(folder, exist_ok=True)
+    results["compare"] = {}
+    for name in ("vertical-2m-after", "vertical-2m-wet"):
+        later = correct(read_sweep(s(f"{name}.s1p")), line)
+        res = compare_corrections(base, later)
+        write_compare_outputs(res, base, later, compare_paths(s(f"{name}.s1p"), folder),
+                              title=f"2 m vertical: {name} against its baseline")
+        echo(compare_text(res) + "\n")
+        results["compare"][name] = res
+
+    echo("== The whole site, every feed against its baseline (site file) ==")
+
+    folder = os.path.join(out_dir, "site")
+    summary = run_site(s("ridgeback-hill.site.toml"), folder)
+    echo(site_text(summary, folder))
+    results["site"] = summary
+
+    echo(f"\nDemo results are in {os.path.abspath(out_dir)}/ : one folder per antenna, each with a "
+         "<name>.report.html to open in a browser.")
+    return results

@@ -1,0 +1,142 @@
+"""Power budget along a feed line: what the transmitter sends, what the antenna gets, what the line eats.
+
+Pure numpy functions; arrays broadcast against each other, scalars in give Python floats out.
+Powers in W, losses in dB (positive), the line is described by its one-way matched loss ML in dB.
+Both ends are referred to the line's characteristic impedance, taken as real (50 ohm).
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..base.errors import OptionError
+from .rf import gamma_mag_from_swr, return_loss_db, swr
+
+
+def _out(x, scalar: bool):
+    return float(x) if scalar else x
+
+
+def _loss_factor(matched_loss_db, option="--loss"):
+    ml = np.asarray(matched_loss_db, dtype=float)
+    if np.any(~np.isfinite(ml)) or np.any(ml < 0):
+        raise OptionError(option, "the matched line loss must be a finite number of dB, zero or more (e.g. 1.25dB)")
+    return ml, 10.0 ** (ml / 10.0)
+
+
+def power_budget(power_w, matched_loss_db, gamma_antenna) -> dict:
+    """Where the power goes on a line of matched loss ML feeding an antenna of reflection Gamma_L.
+
+    Parameters
+    ----------
+    power_w : float or array_like
+        Transmitter power, W (positive). In the ``at_*`` and ``line`` entries it is the forward power
+        leaving the transmitter, with the reflected wave absorbed at the transmitter end; in
+        ``matched_at_transmitter`` it is the net power a matching unit at the transmitter end puts
+        into the line (it re-reflects the returning wave, so none comes back to the transmitter).
+    matched_loss_db : float or array_like
+        One-way matched loss of the line, dB (zero or more).
+    gamma_antenna : complex or array_like
+        Reflection coefficient of the antenna (only its magnitude is used). Entries with
+        |Gamma_L| > 1 (not passive: an over-corrected measurement) give NaN in every quantity
+        that depends on Gamma_L.
+
+    Returns
+    -------
+    dict
+        ``at_antenna``: ``forward_w``, ``reflected_w``, ``delivered_w``, ``swr``, ``gamma_mag``;
+        ``at_transmitter``: ``forward_w``, ``reflected_w``, ``swr``, ``return_loss_db``, ``net_w``,
+        ``gamma_mag``;
+        ``line``: ``matched_loss_db``, ``dissipated_w`` (net into the line minus delivered);
+        ``matched_at_transmitter``: ``total_loss_db``, ``additional_loss_db`` (total minus matched),
+        ``delivered_w``, ``dissipated_w``.
+        Values are arrays of the broadcast shape, or Python floats when every input is a scalar.
+
+    Notes
+    -----
+    With a = 10^(ML/10) and Pf the forward power at the transmitter (check-values F8, F10):
+    forward at the antenna Pf/a; reflected there Pf |Gamma_L|^2 / a; delivered Pf (1 - |Gamma_L|^2)/a;
+    |Gamma_in| = |Gamma_L| / a, so the reflected power back at the transmitter is Pf |Gamma_in|^2 and
+    the net power into the line Pf (1 - |Gamma_in|^2).
+
+    With a matching unit at the transmitter end the total loss of the mismatched line is
+    TL = 10 log10[(a^2 - |Gamma_L|^2) / (a (1 - |Gamma_L|^2))] dB and the antenna gets P 10^(-TL/10)
+    (ARRL *Antenna Book*, Transmission Lines chapter, from memory; the same result as Pozar,
+    *Microwave Engineering* 4th ed. Sec. 2.7, "the terminated lossy line", from memory). It is
+    exact for a real characteristic impedance.
+    """
+    scalar = all(np.ndim(v) == 0 for v in (power_w, matched_loss_db, gamma_antenna))
+    p = np.asarray(power_w, dtype=float)
+    if np.any(~np.isfinite(p)) or np.any(p <= 0):
+        raise OptionError("--power", "the power must be a positive number of watts (e.g. 100W)")
+    ml, a = _loss_factor(matched_loss_db)
+    gl = np.abs(np.asarray(gamma_antenna, dtype=complex))
+    gl = np.where(gl <= 1.0, gl, np.nan)
+    p, ml, a, gl = np.broadcast_arrays(p, ml, a, gl)
+    gl2 = gl ** 2
+    g_in = gl / a
+
+    fwd_ant = p / a
+    refl_ant = fwd_ant * gl2
+    delivered = fwd_ant * (1.0 - gl2)
+    refl_tx = p * g_in ** 2
+    net = p - refl_tx
+
+    with np.errstate(divide="ignore", invalid="ignore"):
+        tl = 10.0 * np.log10((a ** 2 - gl2) / (a * (1.0 - gl2)))
+    delivered_m = p * 10.0 ** (-tl / 10.0)
+
+    with np.errstate(divide="ignore"):
+        rl_tx = return_loss_db(g_in)
+    out = {
+        "at_antenna": {"forward_w": fwd_ant, "reflected_w": refl_ant, "delivered_w": delivered,
+                       "swr": swr(gl), "gamma_mag": gl},
+        "at_transmitter": {"forward_w": p, "reflected_w": refl_tx, "swr": swr(g_in),
+                           "return_loss_db": rl_tx, "net_w": net, "gamma_mag": g_in},
+        "line": {"matched_loss_db": ml, "dissipated_w": net - delivered},
+        "matched_at_transmitter": {"total_loss_db": tl, "additional_loss_db": tl - ml,
+                                   "delivered_w": delivered_m, "dissipated_w": p - delivered_m},
+    }
+    return {part: {k: _out(v, scalar) for k, v in d.items()} for part, d in out.items()}
+
+
+def antenna_swr_from_measured(measured_swr, matched_loss_db):
+    """The antenna's SWR from an SWR read at the transmitter end of a line of matched loss ML.
+
+    Parameters
+    ----------
+    measured_swr : float or array_like
+        SWR read at the transmitter end (finite, 1 or more).
+    matched_loss_db : float or array_like
+        One-way matched loss of the line, dB.
+
+    Returns
+    -------
+    float or ndarray
+        SWR at the antenna.
+
+    Raises
+    ------
+    OptionError
+        ``--measured-swr`` when the reading is not an SWR, or when the line loss would need the
+        antenna to reflect all the power or more (|Gamma_L| >= 1): the loss figure or the reading is
+        wrong.
+
+    Notes
+    -----
+    |Gamma_L| = |Gamma_in| 10^(+ML/10), the inverse of check-values F8 (Gamma(z) = Gamma_L e^(-2 gamma l)).
+    """
+    scalar = np.ndim(measured_swr) == 0 and np.ndim(matched_loss_db) == 0
+    s = np.asarray(measured_swr, dtype=float)
+    if np.any(~np.isfinite(s)) or np.any(s < 1):
+        raise OptionError("--measured-swr", "an SWR reading must be a finite number of 1 or more (e.g. 1.5)")
+    ml, a = _loss_factor(matched_loss_db)
+    s, ml, a = np.broadcast_arrays(s, ml, a)
+    g_l = gamma_mag_from_swr(s) * a
+    if np.any(g_l >= 1):
+        k = np.unravel_index(np.argmax(g_l), g_l.shape)
+        raise OptionError(
+            "--measured-swr",
+            f"an SWR of {s[k]:g} read behind {ml[k]:g} dB of matched line loss would need the antenna to "
+            f"reflect all the power or more (|Gamma| = {g_l[k]:.3g}); the line loss is larger than the "
+            "reading allows, so the loss figure or the reading is wrong")
+    return _out(swr(g_l), scalar)

@@ -1,0 +1,295 @@
+"""Feed lines as physics: RLGC sections, their cascade, and the line's 2-port at any frequencies.
+
+A :class:`Section` is a uniform coaxial run described the way a technician knows it (nominal Z0,
+velocity factor or one-way delay, length, matched loss) and modelled as a distributed RLGC line:
+
+* L and C from the nominal Z0 and the delay: ``L*l = Z0*tau``, ``C*l = tau/Z0``;
+* R grows as sqrt(f) (skin effect): the conductor part of the matched loss, ``alpha_c = R/(2 Z0)``;
+* G grows as f (dielectric loss): the dielectric part, ``alpha_d = G Z0/2``.
+
+The characteristic impedance ``Zc = sqrt((R + jwL)/(G + jwC))`` is then complex, most of all at low
+frequency, as it is in real coax.
+
+A :class:`Line` is a cascade of sections (and of measured 2-ports), port 1 at the analyzer,
+port 2 at the antenna. Everything is vectorised over frequency: frequency is the first axis.
+
+References
+----------
+Pozar, *Microwave Engineering*, 4th ed. (Wiley 2012), sec. 2.1 (RLGC, gamma and Z0), sec. 2.7
+(low-loss line: alpha = R/2Z0 + G Z0/2), Table 4.2 (ABCD to S).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..base.errors import OptionError
+from .rf import Z_REF_OHM
+
+C0_M_PER_S = 299_792_458.0
+DB_PER_NP = 20 / np.log(10)  # 8.685889638...
+M_PER_100FT = 30.48
+
+
+@dataclass(frozen=True)
+class LossModel:
+    """Matched loss of a whole section, A(f) = c_np * sqrt(f_hz) + d_np * f_hz, in nepers.
+
+    ``c_np`` is the conductor (skin-effect) coefficient, Np/sqrt(Hz); ``d_np`` the dielectric one, Np/Hz.
+    """
+
+    c_np: float = 0.0
+    d_np: float = 0.0
+
+    def np_at(self, freq_hz):
+        f = np.asarray(freq_hz, dtype=float)
+        return self.c_np * np.sqrt(f) + self.d_np * f
+
+    def db_at(self, freq_hz):
+        return DB_PER_NP * self.np_at(freq_hz)
+
+    def scaled(self, factor: float) -> "LossModel":
+        return LossModel(self.c_np * factor, self.d_np * factor)
+
+    @classmethod
+    def from_k(cls, k1_db_per_100ft, k2_db_per_100ft, length_m) -> "LossModel":
+        """From the trade's cable coefficients: dB/100 ft = k1*sqrt(f_MHz) + k2*f_MHz, for a length in m."""
+        per_m = length_m / M_PER_100FT / DB_PER_NP
+        return cls(k1_db_per_100ft * per_m / 1e3, k2_db_per_100ft * per_m / 1e6)
+
+    @classmethod
+    def fit(cls, points, option: str = "--loss") -> "LossModel":
+        """Fit to measured or quoted points [(dB, Hz), ...].
+
+        One point: all conductor loss (sqrt(f) scaling). Two or more: non-negative least squares
+        on [sqrt(f), f], weighted so every point counts in relative terms.
+        """
+        pts = [(float(db), float(hz)) for db, hz in points]
+        if not pts:
+            return cls()
+        for db, hz in pts:
+            if db < 0 or hz <= 0:
+                raise OptionError(option, "each loss point needs a loss of 0 dB or more at a positive frequency")
+        if len(pts) == 1:
+            db, hz = pts[0]
+            return cls(db / DB_PER_NP / np.sqrt(hz), 0.0)
+        from scipy.optimize import nnls
+
+        db = np.array([p[0] for p in pts])
+        hz = np.array([p[1] for p in pts])
+        if len(np.unique(hz)) < 2:
+            raise OptionError(option, "two loss points at the same frequency; give them at different frequencies")
+        w = 1.0 / np.maximum(db, 1e-3)
+        a = np.column_stack([np.sqrt(hz), hz]) * w[:, None]
+        coef, _ = nnls(a, db / DB_PER_NP * w)
+        return cls(float(coef[0]), float(coef[1]))
+
+
+@dataclass(frozen=True)
+class Section:
+    """A uniform run of line.
+
+    Parameters
+    ----------
+    z0_ohm : float
+        Nominal (high-frequency, lossless) characteristic impedance, ohm.
+    delay_s : float
+        One-way propagation delay, s (= length / (VF c)).
+    loss : LossModel
+        Matched loss of the whole section.
+    length_m, vf : float or None
+        Physical length and velocity factor, when known (for reports; the physics needs only the delay).
+    label : str
+        What the section is ("RG-213, 30.0 m").
+    """
+
+    z0_ohm: float
+    delay_s: float
+    loss: LossModel = field(default_factory=LossModel)
+    length_m: float | None = None
+    vf: float | None = None
+    label: str = "line"
+
+    @classmethod
+    def from_length(cls, z0_ohm, vf, length_m, loss=None, label="line") -> "Section":
+        return cls(z0_ohm, length_m / (vf * C0_M_PER_S), loss or LossModel(), length_m, vf, label)
+
+    def rlgc_total(self, freq_hz):
+        """R, L, G, C of the whole section (ohm, H, S, F), each shaped like ``freq_hz``.
+
+        Notes
+        -----
+        alpha_c = R/(2 Z0) and alpha_d = G Z0/2 (Pozar 4th ed. sec. 2.7) give R = 2 Z0 A_c(f) and
+        G = 2 A_d(f)/Z0 for the section's conductor and dielectric matched losses A_c, A_d (Np).
+        """
+        f = np.asarray(freq_hz, dtype=float)
+        r = 2 * self.z0_ohm * self.loss.c_np * np.sqrt(f)
+        g = 2 * self.loss.d_np * f / self.z0_ohm
+        return r, self.z0_ohm * self.delay_s, g, self.delay_s / self.z0_ohm
+
+    def propagation(self, freq_hz):
+        """(gamma*l, Zc): the section's complex electrical length (Np + j rad) and characteristic impedance.
+
+        Notes
+        -----
+        gamma = sqrt((R + jwL)(G + jwC)), Zc = sqrt((R + jwL)/(G + jwC)) (Pozar 4th ed. sec. 2.1).
+        """
+        r, l, g, c = self.rlgc_total(freq_hz)
+        w = 2 * np.pi * np.asarray(freq_hz, dtype=float)
+        zs = r + 1j * w * l
+        yp = g + 1j * w * c
+        gl = np.sqrt(zs * yp)
+        # principal roots: Re(gamma) >= 0 and Re(Zc) > 0 for passive lines; with zs and yp in the first
+        # quadrant, zs / sqrt(zs yp) is the principal sqrt(zs / yp) and costs one root less.
+        # At 0 Hz zs = yp = 0: Zc is 0/0 there, and its limit is the nominal Z0 (R ~ sqrt(f), G ~ f).
+        if self.delay_s <= 0:
+            return gl, np.full(np.shape(w), complex(self.z0_ohm))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            zc = zs / gl
+        return gl, np.where(np.isfinite(zc), zc, self.z0_ohm)
+
+    def abcd_parts(self, freq_hz):
+        """(A, B, C, D), each shaped like ``freq_hz``: A = D = cosh(gl), B = Zc sinh(gl), C = sinh(gl)/Zc."""
+        gl, zc = self.propagation(freq_hz)
+        e = np.exp(gl)
+        ei = 1 / e
+        ch = (e + ei) * 0.5
+        sh = (e - ei) * 0.5
+        return ch, zc * sh, sh / zc, ch
+
+    def abcd(self, freq_hz):
+        """ABCD matrix of the section, shape (n, 2, 2)."""
+        return _abcd_matrix(*self.abcd_parts(freq_hz))
+
+    def matched_loss_db(self, freq_hz):
+        """One-way matched loss, dB: Re(gamma l) in dB from the full RLGC propagation constant."""
+        return DB_PER_NP * self.propagation(freq_hz)[0].real
+
+    def describe(self) -> str:
+        bits = [self.label, f"Z0 {self.z0_ohm:g} ohm"]
+        if self.length_m is not None:
+            bits.append(f"{self.length_m:.3f} m")
+        if self.vf is not None:
+            bits.append(f"VF {self.vf:g}")
+        bits.append(f"delay {self.delay_s * 1e9:.3f} ns")
+        return ", ".join(bits)
+
+
+@dataclass(frozen=True)
+class MeasuredTwoPort:
+    """A 2-port known only at its measured frequencies (S at 50 ohm, port 1 toward the analyzer)."""
+
+    freq_hz: np.ndarray
+    s: np.ndarray
+    label: str = "measured 2-port"
+    source: str = ""
+
+    def s_params(self, freq_hz):
+        f = np.asarray(freq_hz, dtype=float)
+        if f.shape == self.freq_hz.shape and np.array_equal(f, self.freq_hz):
+            return self.s
+        raise OptionError(
+            "--line",
+            f"{self.source or self.label} was measured at other frequencies than the sweep; "
+            "measure the line over the sweep's own points, or characterize it so it can be evaluated through its model",
+        )
+
+    def abcd(self, freq_hz):
+        return s_to_abcd(self.s_params(freq_hz))
+
+    def matched_loss_db(self, freq_hz):
+        """Insertion loss -20 log10 |S21|, dB (the matched loss when the 2-port is near Z_REF)."""
+        with np.errstate(divide="ignore"):  # S21 = 0 (an open run) is an infinite loss
+            return -20 * np.log10(np.abs(self.s_params(freq_hz)[:, 1, 0]))
+
+    def describe(self) -> str:
+        return f"{self.label} ({self.source})" if self.source else self.label
+
+
+@dataclass(frozen=True)
+class Line:
+    """A feed line: sections (and measured 2-ports) in order from the analyzer to the antenna."""
+
+    parts: tuple
+    name: str = ""
+
+    def __post_init__(self):
+        if not self.parts:
+            raise OptionError("--line", "a line needs at least one section")
+
+    def abcd_parts(self, freq_hz):
+        """Cascade ABCD as four arrays (A, B, C, D), multiplied out element by element."""
+        total = None
+        for part in self.parts:
+            if hasattr(part, "abcd_parts"):
+                p = part.abcd_parts(freq_hz)
+            else:
+                m = part.abcd(freq_hz)
+                p = (m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1])
+            if total is None:
+                total = p
+            else:
+                a1, b1, c1, d1 = total
+                a2, b2, c2, d2 = p
+                total = (a1 * a2 + b1 * c2, a1 * b2 + b1 * d2, c1 * a2 + d1 * c2, c1 * b2 + d1 * d2)
+        return total
+
+    def abcd(self, freq_hz):
+        """Cascade ABCD, shape (n, 2, 2)."""
+        return _abcd_matrix(*self.abcd_parts(freq_hz))
+
+    def s_params(self, freq_hz, z_ref_ohm: float = Z_REF_OHM):
+        """The whole line's S-parameters at ``z_ref_ohm``, shape (n, 2, 2)."""
+        if len(self.parts) == 1 and hasattr(self.parts[0], "s_params"):  # a measured or characterized 2-port (50 ohm)
+            return self.parts[0].s_params(freq_hz)
+        return _abcd_parts_to_s(*self.abcd_parts(freq_hz), z_ref_ohm)
+
+    def matched_loss_db(self, freq_hz):
+        """One-way matched loss of the whole run, dB: the sum of the parts' matched losses."""
+        return sum(p.matched_loss_db(freq_hz) for p in self.parts)
+
+    @property
+    def delay_s(self) -> float | None:
+        """Total one-way delay of the modelled sections (None if any part is a measured 2-port)."""
+        if any(not isinstance(p, Section) for p in self.parts):
+            return None
+        return float(sum(p.delay_s for p in self.parts))
+
+    def describe(self) -> str:
+        head = f"{self.name}: " if self.name else ""
+        return head + " + ".join(p.describe() for p in self.parts)
+
+
+def abcd_to_s(m, z_ref_ohm: float = Z_REF_OHM):
+    """ABCD (n, 2, 2) to S (n, 2, 2) at a real reference impedance (Pozar 4th ed. Table 4.2)."""
+    return _abcd_parts_to_s(m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1], z_ref_ohm)
+
+
+def _abcd_parts_to_s(a, b, c, d, z_ref_ohm: float = Z_REF_OHM):
+    b, c = b / z_ref_ohm, c * z_ref_ohm
+    inv = 1 / (a + b + c + d)
+    s = np.empty(np.shape(a) + (2, 2), dtype=complex)
+    s[..., 0, 0] = (a + b - c - d) * inv
+    s[..., 1, 0] = 2 * inv
+    s[..., 0, 1] = 2 * (a * d - b * c) * inv
+    s[..., 1, 1] = (-a + b - c + d) * inv
+    return s
+
+
+def _abcd_matrix(a, b, c, d):
+    m = np.empty(np.shape(a) + (2, 2), dtype=complex)
+    m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1] = a, b, c, d
+    return m
+
+
+def s_to_abcd(s, z_ref_ohm: float = Z_REF_OHM):
+    """S (n, 2, 2) at a real reference impedance to ABCD (Pozar 4th ed. Table 4.2)."""
+    s11, s12, s21, s22 = s[..., 0, 0], s[..., 0, 1], s[..., 1, 0], s[..., 1, 1]
+    m = np.empty(s.shape, dtype=complex)
+    den = 2 * s21
+    m[..., 0, 0] = ((1 + s11) * (1 - s22) + s12 * s21) / den
+    m[..., 0, 1] = z_ref_ohm * ((1 + s11) * (1 + s22) - s12 * s21) / den
+    m[..., 1, 0] = ((1 - s11) * (1 - s22) - s12 * s21) / den / z_ref_ohm
+    m[..., 1, 1] = ((1 - s11) * (1 + s22) + s12 * s21) / den
+    return m

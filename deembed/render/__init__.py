@@ -1,0 +1,1 @@
+"""Rendering: terminal text, plots (matplotlib Figures without pyplot) and HTML pages."""

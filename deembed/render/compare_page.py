@@ -1,0 +1,89 @@
+"""Outputs of a comparison: the overlay plot, the JSON and a small self-contained HTML page.
+
+Colours (our own, distinct from :mod:`deembed.plots`): the baseline in indigo, the after-work sweep in
+mustard; solid lines at the feedpoint, dashed at the analyzer end.
+"""
+from __future__ import annotations
+
+import html
+import os
+
+import numpy as np
+
+from ..physics import rf
+from .plots import GRID_COLOUR, smith_grid
+from .text import compare_text
+
+BEFORE_COLOUR = "#3f51a3"
+AFTER_COLOUR = "#d19a1c"
+BEFORE_LABEL, AFTER_LABEL = "baseline", "after work"
+
+
+def compare_plot(before, after, title: str = ""):
+    """2 x 2 overlay of before and after: SWR and Smith chart, at the feedpoint (top) and the analyzer (bottom).
+
+    Each trace is drawn on its own sweep's frequencies. Returns the matplotlib Figure (no pyplot).
+    """
+    from matplotlib.figure import Figure
+
+
+    fig = Figure(figsize=(12, 10), layout="constrained")
+    axes = fig.subplots(2, 2, width_ratios=(1.5, 1))
+    for row, (end, attr, ls) in enumerate((("feedpoint (corrected)", "gamma_feed", "-"),
+                                           ("analyzer end (measured)", "gamma_shack", "--"))):
+        ax_swr, ax_sm = axes[row]
+        tops = []
+        for corr, colour, label in ((before, BEFORE_COLOUR, BEFORE_LABEL), (after, AFTER_COLOUR, AFTER_LABEL)):
+            g = getattr(corr, attr)
+            s = rf.swr(g)
+            ax_swr.plot(corr.freq_hz / 1e6, s, color=colour, lw=1.8, ls=ls, label=label)
+            tops.append(s[np.isfinite(s)])
+            ax_sm.plot(g.real, g.imag, color=colour, lw=1.6, ls=ls, label=label)
+            ax_sm.plot(g.real[:1], g.imag[:1], "o", color=colour, ms=4)
+        finite = np.concatenate(tops)
+        top = min(max(float(finite.max()) if finite.size else 3.0, 3.0), 10.0)
+        ax_swr.axhline(2.0, color="#8a8a8a", lw=0.8, ls=":")
+        ax_swr.set_ylim(1.0, top * 1.05)
+        ax_swr.set_xlabel("Frequency (MHz)")
+        ax_swr.set_ylabel("SWR")
+        ax_swr.set_title(f"SWR at the {end}")
+        ax_swr.grid(True, color=GRID_COLOUR, lw=0.6)
+        ax_swr.legend(loc="best", fontsize=9)
+        smith_grid(ax_sm)
+        ax_sm.set_xlim(-1.08, 1.08)
+        ax_sm.set_ylim(-1.08, 1.08)
+        ax_sm.set_aspect("equal")
+        ax_sm.axis("off")
+        ax_sm.set_title(f"Smith chart (50 ohm), {end}\ndot = lowest frequency", fontsize=10)
+    if title:
+        fig.suptitle(title)
+    return fig
+
+
+def compare_html(result: dict, png_path: str | None = None, title: str = "") -> str:
+    """A small self-contained page (the plot embedded as data) with the numbers, verdict and diagnosis."""
+    import base64
+
+
+    e = html.escape
+    img = ""
+    if png_path and os.path.isfile(png_path):
+        with open(png_path, "rb") as fh:
+            data = base64.b64encode(fh.read()).decode("ascii")
+        img = f'<img alt="overlay of baseline and after-work sweeps" src="data:image/png;base64,{data}">'
+    ok = result["verdict"]["within_limits"]
+    badge = ('<p class="ok">WITHIN LIMITS</p>' if ok else
+             '<p class="bad">OUTSIDE LIMITS: ' + e(", ".join(result["verdict"]["exceeded"])) + "</p>")
+    head = e(title or f"{os.path.basename(str(result['after']['file']))} against its baseline")
+    return f"""<!DOCTYPE html>
+<html lang="en"><head><meta charset="utf-8"><title>{head}</title>
+<style>body{{font-family:system-ui,sans-serif;max-width:70em;margin:1.5em auto;padding:0 1.5em;color:#222;background:#fbfaf8}}
+pre{{background:#f6f4ef;padding:1em;white-space:pre-wrap}} img{{max-width:100%}}
+.ok{{color:#1d6b3a;font-weight:bold}} .bad{{color:#a3261d;font-weight:bold}}</style></head>
+<body><h1>{head}</h1>
+{badge}
+<p><b>Cause:</b> {e(result['diagnosis']['code'])} &mdash; {e(result['diagnosis']['text'])}</p>
+<pre>{e(compare_text(result))}</pre>
+{img}
+</body></html>
+"""

@@ -1,0 +1,156 @@
+"""Plots of a correction. Each function takes ``ax=None`` and returns the matplotlib Figure.
+
+Figures are built without pyplot (no global state, no GUI backend); nothing calls ``show()``.
+Colours: the analyzer-end trace in slate, the feedpoint trace in copper.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..physics import rf
+from ..io.atomic import atomic_path
+
+SHACK_COLOUR = "#5b6b7a"
+FEED_COLOUR = "#c0582b"
+GRID_COLOUR = "#d9d4cc"
+LABELS = {"shack": "at the analyzer (measured)", "feedpoint": "at the feedpoint (corrected)"}
+
+
+def _axes(ax, figsize=(8, 4.5)):
+    if ax is not None:
+        return ax.figure, ax
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=figsize, layout="constrained")
+    return fig, fig.add_subplot()
+
+
+def _finish(ax, ylabel: str, title: str) -> None:
+    """The frequency axis, labels, grid and legend every frequency plot shares."""
+    ax.set_xlabel("Frequency (MHz)")
+    ax.set_ylabel(ylabel)
+    ax.set_title(title)
+    ax.grid(True, color=GRID_COLOUR, lw=0.6)
+    ax.legend(loc="best", fontsize=9)
+
+
+def _mhz(freq_hz):
+    return np.asarray(freq_hz) / 1e6
+
+
+def _marks(f_mhz) -> dict:
+    """Line style extras: a sweep of one or two points is drawn with markers, or it would not show."""
+    return {"marker": "o", "ms": 5} if np.size(f_mhz) < 3 else {}
+
+
+def _xrange(ax, f_mhz) -> None:
+    """X axis over the sweep, set explicitly (traces that are all off-scale or one point wide would
+    otherwise leave matplotlib's autoscale with nothing to go on)."""
+    lo, hi = float(f_mhz[0]), float(f_mhz[-1])
+    pad = 0.02 * (hi - lo) if hi > lo else max(0.01 * abs(lo), 1e-3)
+    ax.set_xlim(lo - pad, hi + pad)
+
+
+def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends"):
+    """SWR against frequency at the analyzer and at the feedpoint, on one chart."""
+    fig, ax = _axes(ax)
+    f = _mhz(corr.freq_hz)
+    s_sh, s_fp = rf.swr(corr.gamma_shack), rf.swr(corr.gamma_feed)
+    ax.plot(f, s_sh, color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"], **_marks(f))
+    ax.plot(f, s_fp, color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    _xrange(ax, f)
+    finite = np.concatenate([s_sh[np.isfinite(s_sh)], s_fp[np.isfinite(s_fp)]])
+    top = min(max(float(finite.max()) if finite.size else 3.0, 3.0), 10.0)
+    for lim in limits:
+        ax.axhline(lim, color="#8a8a8a", lw=0.8, ls=":")
+        ax.text(f[0], lim, f" {lim:g}:1", va="bottom", ha="left", fontsize=8, color="#6a6a6a")
+    ax.set_ylim(1.0, top * 1.05)
+    _finish(ax, "SWR", title)
+    return fig
+
+
+def return_loss_plot(corr, ax=None):
+    """Return loss (positive dB) at both ends."""
+    fig, ax = _axes(ax)
+    f = _mhz(corr.freq_hz)
+    ax.plot(f, rf.return_loss_db(corr.gamma_shack), color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"],
+            **_marks(f))
+    ax.plot(f, rf.return_loss_db(corr.gamma_feed), color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    _xrange(ax, f)
+    ax.invert_yaxis()
+    _finish(ax, "Return loss (dB, larger is better)", "Return loss at both ends")
+    return fig
+
+
+def impedance_plot(corr, ax=None):
+    """The feedpoint's resistance and reactance (50 ohm system)."""
+    fig, ax = _axes(ax)
+    f = _mhz(corr.freq_hz)
+    z = rf.z_from_gamma(corr.gamma_feed)
+    ax.plot(f, z.real, color=FEED_COLOUR, lw=2.0, label="R (resistance)", **_marks(f))
+    ax.plot(f, z.imag, color="#2f7d6d", lw=2.0, ls="-.", label="X (reactance)", **_marks(f))
+    _xrange(ax, f)
+    ax.axhline(0, color="#444444", lw=0.8)
+    ax.axhline(50, color="#8a8a8a", lw=0.8, ls=":")
+    finite = np.abs(np.concatenate([z.real, z.imag]))
+    finite = finite[np.isfinite(finite)]
+    if finite.size:
+        lim = min(float(np.percentile(finite, 98)) * 1.2 + 10, 2000.0)
+        ax.set_ylim(-lim, lim)
+    _finish(ax, "Ohms", "Feedpoint impedance (corrected)")
+    return fig
+
+
+def smith_grid(ax):
+    t = np.linspace(0, 2 * np.pi, 400)
+    ax.plot(np.cos(t), np.sin(t), color="#7d7d7d", lw=1.0)
+    for r in (0.2, 0.5, 1.0, 2.0, 5.0):  # constant-resistance circles: centre r/(1+r), radius 1/(1+r)
+        c, rad = r / (1 + r), 1 / (1 + r)
+        ax.plot(c + rad * np.cos(t), rad * np.sin(t), color=GRID_COLOUR, lw=0.7)
+    xs = np.linspace(0, 200, 4000)
+    for x in (0.2, 0.5, 1.0, 2.0, 5.0):  # constant-reactance arcs, drawn as images of the line z = r + jx
+        for sign in (1, -1):
+            g = rf.gamma_from_z(xs + 1j * sign * x, 1.0)
+            ax.plot(g.real, g.imag, color=GRID_COLOUR, lw=0.7)
+    ax.plot([-1, 1], [0, 0], color=GRID_COLOUR, lw=0.7)
+    for r in (0.2, 0.5, 1.0, 2.0, 5.0):
+        ax.text((r - 1) / (r + 1), 0.01, f"{50 * r:g}", fontsize=7, color="#7d7d7d", ha="center", va="bottom")
+
+
+def smith_plot(corr, ax=None):
+    """Smith chart (50 ohm) with the measured and corrected traces; circles mark the sweep's start."""
+    fig, ax = _axes(ax, figsize=(6.2, 6.2))
+    smith_grid(ax)
+    for g, colour, ls, key in ((corr.gamma_shack, SHACK_COLOUR, "--", "shack"),
+                               (corr.gamma_feed, FEED_COLOUR, "-", "feedpoint")):
+        ax.plot(g.real, g.imag, color=colour, lw=1.8, ls=ls, label=LABELS[key])
+        ax.plot(g.real[:1], g.imag[:1], "o", color=colour, ms=5)
+    ax.set_xlim(-1.08, 1.08)
+    ax.set_ylim(-1.08, 1.08)
+    ax.set_aspect("equal")
+    ax.axis("off")
+    ax.set_title("Smith chart (50 ohm); dot = lowest frequency")
+    ax.legend(loc="lower left", fontsize=8, frameon=False)
+    return fig
+
+
+def budget_plot(freq_hz, budget: dict, ax=None):
+    """Power budget against frequency: delivered into the antenna, lost in the line, returned."""
+    fig, ax = _axes(ax)
+    f = _mhz(freq_hz)
+    ax.plot(f, budget["budget_delivered_w"], color=FEED_COLOUR, lw=2.0, label="radiated or lost in the antenna",
+            **_marks(f))
+    ax.plot(f, budget["budget_line_dissipated_w"], color="#8b6c3e", lw=1.6, ls="-.", label="lost in the line",
+            **_marks(f))
+    ax.plot(f, budget["budget_reflected_at_tx_w"], color=SHACK_COLOUR, lw=1.6, ls="--",
+            label="reflected back to the transmitter", **_marks(f))
+    _xrange(ax, f)
+    _finish(ax, "Watts", "Where the transmitter's power goes")
+    return fig
+
+
+def save(fig, path, dpi: int = 110) -> None:
+    """Save a figure atomically (temporary file in the same folder, then rename)."""
+
+    with atomic_path(path) as tmp:
+        fig.savefig(tmp, dpi=dpi, format="png")

@@ -1,0 +1,277 @@
+"""Plain-text renderings of results for the terminal."""
+from __future__ import annotations
+
+from ..base.units import fmt_freq
+from .site_index import STATUS_TEXT
+import os
+import sys
+from ..analysis.limits import LIMIT_NAMES
+
+
+def _spans(spans, most: int = 2) -> str:
+    """The widest ``most`` spans, in frequency order, and how many more there are."""
+    if not spans:
+        return "none in sweep"
+    widest = sorted(sorted(spans, key=lambda sp: sp[1] - sp[0], reverse=True)[:most])
+    text = ", ".join(f"{fmt_freq(lo)} to {fmt_freq(hi)}" for lo, hi in widest)
+    return text + (f" (+{len(spans) - most} narrow)" if len(spans) > most else "")
+
+
+def _row(label: str, left: str, right: str) -> str:
+    """A label and two columns; a long left cell pushes the right one onto its own line."""
+    if len(left) > 32:
+        return f"{label:24}{left}\n{'':58}{right}"
+    return f"{label:24}{left:34}{right}"
+
+
+def _min(end: dict) -> str:
+    m = end.get("min_swr") or {}
+    if m.get("swr") is None:
+        return "n/a"
+    return f"{m['swr']:.2f} at {fmt_freq(m['freq_hz'], 6)}"
+
+
+def _res(end: dict) -> str:
+    items = end.get("resonances") or []
+    if not items:
+        return "none in sweep"
+    if len(items) > 3:  # the line's rotation makes many crossings at the analyzer end
+        return f"{len(items)} crossings, {fmt_freq(items[0]['freq_hz'], 6)} to {fmt_freq(items[-1]['freq_hz'], 6)}"
+    return ", ".join(f"{fmt_freq(r['freq_hz'], 6)} ({r['kind']})" for r in items)
+
+
+def _q(end: dict) -> str:
+    q, qb = end.get("q"), end.get("q_bandwidth")
+    if q is None and qb is None:
+        return "n/a"
+    a = f"{q:.1f}" if q is not None else "n/a"
+    b = f"{qb:.1f}" if qb is not None else "n/a"
+    return f"{a} (from 2:1 span: {b})"
+
+
+def correction_text(summary: dict, out_dir: str | None = None) -> str:
+    """A short readable summary of one correction, both ends side by side."""
+    sw, ln = summary["sweep"], summary["line"]
+    fp, sh = summary["feedpoint"], summary["shack"]
+    lines = [
+        f"sweep   {sw['file']}: {sw['points']} points, {fmt_freq(sw['f_start_hz'])} to {fmt_freq(sw['f_stop_hz'])}",
+        f"line    {ln['description']}",
+        f"        matched loss {ln['matched_loss_db']['at_start']:.2f} dB at {fmt_freq(ln['f_start_hz'])}, "
+        f"{ln['matched_loss_db']['at_stop']:.2f} dB at {fmt_freq(ln['f_stop_hz'])}",
+        "",
+        f"{'':24}{'at the analyzer':34}{'at the feedpoint'}",
+        _row("lowest SWR", _min(sh), _min(fp)),
+        _row("resonance (X = 0)", _res(sh), _res(fp)),
+    ]
+    for key in (fp.get("bandwidth_hz") or {}):
+        lines.append(_row(f"SWR <= {key} span", _spans(sh["bandwidth_hz"].get(key)), _spans(fp["bandwidth_hz"][key])))
+    lines.append(_row("Q near best match", _q(sh), _q(fp)))
+    trim = fp.get("trim")
+    if trim:
+        verb = "lengthen" if trim["length_change_percent"] > 0 else "shorten"
+        lines.append(f"\ntrim    resonance {fmt_freq(trim['resonance_hz'], 6)}, target {fmt_freq(trim['target_hz'], 6)}: "
+                     f"{verb} the element by about {abs(trim['length_change_percent']):.1f} % (first estimate; cut in small steps)")
+    bands = summary.get("bands")
+    if bands:
+        lines.append(f"\nbands   worst SWR in each band (limit {bands['swr_limit']:g}:1)      analyzer  feedpoint")
+        for b_sh, b_fp in zip(bands["shack"], bands["feedpoint"]):
+            mark = "ok" if b_fp.get("ok") else "OVER"
+            lines.append(f"        {b_fp['name']:36}{_num(b_sh.get('worst_swr')):>10}{_num(b_fp.get('worst_swr')):>11}  {mark}")
+    power = summary.get("power")
+    if power:
+        lines.append(f"\npower   {power['transmitter_w']:g} W at {fmt_freq(power['at_freq_hz'], 6)}: "
+                     f"{power['delivered_w']:.1f} W into the antenna, {power['line_dissipated_w']:.1f} W lost in the line, "
+                     f"{power['reflected_at_tx_w']:.2f} W back at the transmitter")
+    if summary.get("warnings"):
+        lines.append("")
+        lines += [f"warning: {w}" for w in summary["warnings"]]
+    if out_dir:
+        lines.append(f"\nresults in {out_dir}/ (open the .report.html, or .summary.json / .table.csv / .feedpoint.s1p)")
+    return "\n".join(lines)
+
+
+def _num(v) -> str:
+    return "n/a" if v is None else f"{v:.2f}"
+
+
+def budget_text(b: dict, power_w: float, loss_db: float) -> str:
+    """The power budget as a few readable lines."""
+    a, t, ln, m = b["at_antenna"], b["at_transmitter"], b["line"], b["matched_at_transmitter"]
+    lines = [
+        f"transmitter {power_w:g} W forward into a line of {loss_db:g} dB matched loss",
+    ]
+    if "inferred_from_measured_swr" in b:
+        lines.append(f"antenna SWR inferred from {b['inferred_from_measured_swr']:g}:1 read at the transmitter: "
+                     f"{a['swr']:.2f}:1")
+    lines += [
+        "",
+        "reflected power absorbed at the transmitter end (no matching unit):",
+        f"  at the antenna      forward {a['forward_w']:.2f} W, reflected {a['reflected_w']:.2f} W, "
+        f"delivered {a['delivered_w']:.2f} W, SWR {a['swr']:.2f}:1",
+        f"  at the transmitter  reflected back {t['reflected_w']:.2f} W, SWR {t['swr']:.2f}:1, "
+        f"return loss {t['return_loss_db']:.2f} dB",
+        f"  lost in the line    {ln['dissipated_w']:.2f} W",
+        "",
+        "matching unit at the transmitter end re-reflecting the returned power (handbook total-loss formula):",
+        f"  total line loss {m['total_loss_db']:.3f} dB ({m['additional_loss_db']:.3f} dB more than matched), "
+        f"delivered {m['delivered_w']:.2f} W, lost in the line {m['dissipated_w']:.2f} W",
+    ]
+    return "\n".join(lines)
+
+
+def stderr_progress(total: int):
+    """A progress callback writing ``site: 2/5 feeds done (name: status)`` to standard error, or None when
+    the run is short and standard error is not a terminal."""
+    tty = sys.stderr.isatty()
+    if not tty and total <= 3:
+        return None
+
+    def show(done, n, result):
+        msg = f"site: {done}/{n} feeds done ({result['name']}: {STATUS_TEXT[result['status']]})"
+        if tty:
+            sys.stderr.write("\r" + msg.ljust(78) + ("\n" if done == n else ""))
+        else:
+            sys.stderr.write(msg + "\n")
+        sys.stderr.flush()
+
+    return show
+
+
+def compare_text(result: dict) -> str:
+    """A few readable lines: the numbers at both ends, the verdict naming the limits exceeded, the diagnosis."""
+
+    fp, sh = result["feedpoint"], result["shack"]
+
+    def num(v, spec=".3f"):
+        return "n/a" if v is None else format(v, spec)
+
+    def freq(v):
+        return "n/a" if v is None else fmt_freq(v, 7)
+
+    shift = result["resonance_shift_hz"]
+    lines = [
+        f"baseline {result['baseline']['file']}",
+        f"after    {result['after']['file']}",
+        f"compared on {result['grid']['points']} points, {fmt_freq(result['grid']['f_start_hz'])} to "
+        f"{fmt_freq(result['grid']['f_stop_hz'])} ({result['grid']['method']})",
+        "",
+        f"{'':28}{'at the analyzer':28}{'at the feedpoint'}",
+        f"{'resonance':28}{'(not meaningful)':28}{freq(result['resonance_before_hz'])} -> {freq(result['resonance_after_hz'])}"
+        + ("" if shift is None else f" ({shift / 1e3:+.1f} kHz)"),
+    ]
+    for label, key, spec in (("lowest SWR change", "min_swr_change", "+.3f"),
+                             ("2:1 bandwidth change (kHz)", "bandwidth_2_change_hz", None),
+                             ("largest |Gamma| change", "max_gamma_mag_change", ".3f")):
+        if spec is None:
+            a = "n/a" if sh is None else f"{sh[key] / 1e3:+.1f}"
+            b = f"{fp[key] / 1e3:+.1f}"
+        else:
+            a = "n/a" if sh is None else num(sh[key], spec)
+            b = num(fp[key], spec)
+        lines.append(f"{label:28}{a:28}{b}")
+    ln = result["line"]
+    if ln["loss_change_db"] is not None:
+        lines.append(f"\nline     {ln['before']}\n  now    {ln['after']}\n         matched loss change "
+                     f"{ln['loss_change_db']['at_centre']:+.2f} dB at mid-band")
+    v = result["verdict"]
+    lines.append("")
+    if v["within_limits"]:
+        lines.append("verdict  WITHIN LIMITS")
+    else:
+        names = ", ".join(LIMIT_NAMES[k] for k in v["exceeded"])
+        lines.append(f"verdict  OUTSIDE LIMITS ({names})")
+        lines += [f"         - {r}" for r in v["reasons"]]
+    lines.append(f"cause    {result['diagnosis']['code']}: {result['diagnosis']['text']}")
+    lines += [f"note: {n}" for n in result["notes"]]
+    return "\n".join(lines)
+
+
+_METHOD_TEXT = {
+    "open-short-load": "open, short and load: three-term error model, the run's 2-port as measured",
+    "open-short": "open and short: uniform line, Zc = sqrt(Zoc Zsc)",
+    "open": "open alone: physical line model fitted",
+    "short": "short alone: physical line model fitted",
+}
+
+
+def report_text(r: dict) -> str:
+    """The characterization report as plain text."""
+
+    m = r["model"]
+    out = [f"Feed-line characterization  ->  {r.get('out', '')}",
+           f"  method     {_METHOD_TEXT.get(r['method'], r['method'])}",
+           f"  sweep      {fmt_freq(r['f_min_hz'])} to {fmt_freq(r['f_max_hz'])}, {r['points']} points"]
+    std = r.get("standards", {})
+    if std and (std.get("open_c_f") or std.get("short_l_h") or std.get("load_r_ohm", 50.0) != 50.0):
+        out.append(f"  standards  open {std['open_c_f'] * 1e15:g} fF, short {std['short_l_h'] * 1e12:g} pH, "
+                   f"load {std['load_r_ohm']:g} ohm")
+    out.append("")
+    out.append("Line model")
+    out.append(f"  Z0               {m['z0_ohm']:.2f} ohm{'' if m['z0_fitted'] else ' (nominal, not measured)'}")
+    out.append(f"  one-way delay    {m['delay_s'] * 1e9:.3f} ns  (electrical length {m['electrical_length_m']:.3f} m)")
+    if "vf" in r:
+        out.append(f"  velocity factor  {r['vf']:.4f}  over {r['length_m']:.3f} m")
+    if "k1_db_per_100ft" in r:
+        out.append(f"  loss law         {r['k1_db_per_100ft']:.4g} sqrt(f) + {r['k2_db_per_100ft']:.4g} f  "
+                   "dB/100 ft, f in MHz")
+    else:
+        out.append(f"  loss law         {r['k1_db_run']:.4g} sqrt(f) + {r['k2_db_run']:.4g} f  dB for the run, "
+                   "f in MHz")
+    out.append(f"  model misfit     {m['residual_rms']:.2e} RMS, {m['residual_max']:.2e} worst")
+    if r.get("zc_measured_ohm"):
+        zs = ", ".join(f"{z['re']:.1f}{z['im']:+.1f}j @ {fmt_freq(z['freq_hz'])}" for z in r["zc_measured_ohm"])
+        out.append(f"  measured Zc      {zs}")
+    out.append("")
+    head = f"  {'frequency':>12}  {'matched loss':>12}"
+    rows = r["loss"]
+    per = any("loss_db_per_100m" in x for x in rows)
+    cat = any("catalog_db_per_100ft" in x for x in rows)
+    rl = any("loss_db_from_return_loss" in x for x in rows)
+    if per:
+        head += f"  {'dB/100 m':>9}  {'dB/100 ft':>9}"
+    if cat:
+        head += f"  {'catalog/100 ft':>14}  {'ratio':>6}"
+    if rl:
+        head += f"  {'RL/2 check':>10}"
+    out.append("One-way matched loss")
+    out.append(head)
+    for x in rows:
+        line = f"  {fmt_freq(x['freq_hz']):>12}  {x['loss_db']:>9.3f} dB"
+        if per:
+            line += f"  {x['loss_db_per_100m']:>9.3f}  {x['loss_db_per_100ft']:>9.3f}"
+        if cat:
+            line += f"  {x['catalog_db_per_100ft']:>14.3f}  {x['ratio_to_catalog']:>6.2f}"
+        if rl:
+            line += f"  {x['loss_db_from_return_loss']:>7.3f} dB"
+        if x.get("flag"):
+            line += "  << " + x["flag"]
+        if x.get("outside_range"):
+            line += "  (outside the sweep)"
+        out.append(line)
+    if "catalog" in r:
+        c = r["catalog"]
+        verdict = (f"LOSS WELL ABOVE THE CATALOG (>{c['flag_ratio']:g}x)" if c["flagged"]
+                   else f"within {c['flag_ratio']:g}x of the catalog")
+        out.append(f"  compared with {c['name']} ({c['source']}): {verdict}")
+    if r.get("notes"):
+        out.append("")
+        out.append("Notes")
+        out += [f"  - {n}" for n in r["notes"]]
+    return "\n".join(out)
+
+
+def site_text(summary: dict, out: str) -> str:
+    """One line per comparison (or failed feed), then where the index is."""
+
+    lines = [f"site {summary['site']}: {len(summary['feeds'])} feed(s)"]
+    for feed in summary["feeds"]:
+        if feed["status"] == "error":
+            lines.append(f"  {feed['name']}: {STATUS_TEXT['error']}: {feed['error']}")
+            continue
+        for cmp in feed["comparisons"]:
+            st = STATUS_TEXT["passed" if cmp["within_limits"] else "exceeded"]
+            extra = f" ({', '.join(cmp['exceeded'])})" if cmp["exceeded"] else ""
+            lines.append(f"  {feed['name']}: {os.path.basename(cmp['file'])}: {st}{extra}; "
+                         f"cause {cmp['diagnosis']['code']}")
+    lines.append(f"index: {out}/index.html")
+    return "\n".join(lines)
