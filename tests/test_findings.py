@@ -13,7 +13,8 @@ import numpy as np
 import pytest
 
 from deembed.analysis import findings as fd
-from deembed.io.bands import Band, band_check, load_bands
+from deembed.analysis.bandcheck import band_check
+from deembed.io.bands import Band, load_bands
 from deembed.base.errors import InputFileError, OptionError
 from deembed.physics.rf import gamma_from_z, swr
 

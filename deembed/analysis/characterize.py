@@ -32,7 +32,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..base.errors import CharacterizationError, OptionError
-from ..io.charfile import FREQ_MATCH_RTOL
+from ..physics.grid import inside
 from ..physics.calibration import (error_terms_to_two_port, matched_loss_from_return_loss,
                                    open_short_line, osl_error_terms, standard_gammas, uniform_two_port)
 from ..physics.deembedding import embed_gamma
@@ -393,7 +393,7 @@ def characterization_report(ch: Characterization, *, at_hz=None, length_m=None, 
     flagged = False
     for fa, ldb in zip(at_arr, loss_db):
         row = {"freq_hz": float(fa), "loss_db": float(ldb)}
-        if not (ch.f_min_hz * (1 - FREQ_MATCH_RTOL) <= fa <= ch.f_max_hz * (1 + FREQ_MATCH_RTOL)):
+        if not inside(fa, fa, ch.f_min_hz, ch.f_max_hz):
             row["outside_range"] = True
         if length_used:
             row["loss_db_per_100m"] = float(ldb) * 100.0 / length_used

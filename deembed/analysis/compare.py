@@ -51,6 +51,7 @@ import numpy as np
 from ..physics import rf
 from ..physics.deembedding import Correction, embed_gamma
 from ..base.errors import DeembedError, InputFileError
+from ..physics.grid import nearest_points
 from ..physics.line import DB_PER_NP
 from ..base.units import fmt_freq
 from .findings import resonances
@@ -59,9 +60,6 @@ from .limits import Limits
 
 MIN_COMMON_POINTS = 3
 """Fewest exactly common frequencies for a point-by-point comparison; fewer means interpolation."""
-
-FREQ_MATCH_RTOL = 1e-9
-"""Relative tolerance under which two sweeps' frequencies count as the same point."""
 
 RESONANCE_FIT_FRACTION = 0.01
 """Half-width of the window, as a fraction of the frequency, over which X(f) is fitted by a quadratic to
@@ -107,10 +105,7 @@ def align(before: Correction, after: Correction) -> Aligned:
         return Aligned(fa, before.gamma_feed, after.gamma_feed, before.gamma_shack, after.gamma_shack,
                        np.asarray(before.matched_loss_db, float), np.asarray(after.matched_loss_db, float),
                        "same frequencies")
-    ib = np.clip(np.searchsorted(fb, fa), 0, fb.size - 1)
-    ib_lo = np.clip(ib - 1, 0, fb.size - 1)
-    ib = np.where(np.abs(fb[ib_lo] - fa) < np.abs(fb[ib] - fa), ib_lo, ib)
-    hit = np.abs(fb[ib] - fa) <= FREQ_MATCH_RTOL * np.abs(fa)
+    ib, hit = nearest_points(fb, fa)
     if hit.sum() >= MIN_COMMON_POINTS:
         ia, ib = np.flatnonzero(hit), ib[hit]
         note = (f"the sweeps share {ia.size} frequencies (baseline {fb.size} points, after {fa.size}); "

@@ -69,7 +69,9 @@ def _num(x):
     return x if math.isfinite(x) else None
 
 
-def _check_threshold(threshold):
+def check_swr_threshold(threshold) -> float:
+    """An SWR threshold as a float; refuses anything that is not a finite SWR above 1 (the one check, for
+    bandwidth spans, Q from a span and the band check)."""
     t = float(threshold)
     if not math.isfinite(t) or t <= 1:
         raise OptionError("SWR threshold", f"{threshold!r} is not an SWR above 1; give one such as 2")
@@ -278,7 +280,7 @@ def bandwidth_spans(freq_hz, gamma, threshold, *, merge_steps: int = NOISE_MERGE
         gap of less than ``merge_steps`` sweep steps (the SWR dithering about the threshold) are
         joined into one.
     """
-    t = _check_threshold(threshold)
+    t = check_swr_threshold(threshold)
     f, g = _arrays(freq_hz, gamma, "gamma")
     if f.size == 0:
         return []
@@ -432,7 +434,7 @@ def q_from_bandwidth(f_lo, f_hi, threshold_swr) -> float:
     A. D. Yaghjian and S. R. Best, IEEE Trans. Antennas Propag. 53(4):1298-1324, 2005 (matched-at-
     centre relation FBW ~ (s - 1)/(Q sqrt s), from memory).
     """
-    s = _check_threshold(threshold_swr)
+    s = check_swr_threshold(threshold_swr)
     lo, hi = float(f_lo), float(f_hi)
     if not (math.isfinite(lo) and math.isfinite(hi)) or lo <= 0 or hi <= lo:
         return math.nan

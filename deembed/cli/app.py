@@ -17,12 +17,9 @@ from .compare import compare_command
 from .correct import correct_command
 from .demo import demo_command
 from .site import site_command
+from ..render.safety import safety_line
 
-SAFETY = (
-    "Safety: bleed static off the feed line (short centre to shield) before connecting an analyzer; never "
-    "transmit into an analyzer; keep clear of RF exposure from nearby transmitters; tower work only by trained, "
-    "equipped crews; no antenna work with lightning about. Local codes and licensed practice come first."
-)
+SAFETY = safety_line()
 
 app = typer.Typer(
     add_completion=False,

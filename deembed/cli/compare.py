@@ -1,8 +1,7 @@
-"""``deembed compare`` and ``deembed site``: check feeds against their baselines after work.
+"""``deembed compare``: check a feed against its baseline after work.
 
-Plain functions with typer-annotated options; :mod:`deembed.cli` registers them. Exit status: 0 when
-everything is within its limits, 1 when a limit is exceeded (or, for a site, a feed failed), 2 for bad
-input (``deembed.cli.main`` turns a :class:`~deembed.errors.DeembedError` into one line).
+Exit status: 0 when everything is within its limits, 1 when a limit is exceeded, 2 for bad input
+(:func:`deembed.cli.app.main` turns a :class:`~deembed.base.errors.DeembedError` into one line).
 """
 from __future__ import annotations
 
@@ -11,8 +10,8 @@ from typing import List, Optional
 
 import typer
 
-from .options import CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, VfOpt, Z0Opt, build_line
-from ..base.errors import OptionError
+from .options import (CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, PortOpt, VfOpt,
+                      Z0Opt, build_line, check_port)
 
 MaxShiftOpt = typer.Option(None, "--max-shift", help="Largest acceptable move of the feedpoint resonance, "
                                                      "e.g. 50kHz (default 50kHz).")
@@ -41,7 +40,7 @@ def compare_command(
     after_line: Optional[str] = typer.Option(None, "--after-line", help="A fresh line description or "
                                              "characterization (.toml/.s2p) for the AFTER sweep; the baseline "
                                              "keeps the line options."),
-    port: Optional[int] = typer.Option(None, "--port", help="For 2-port files: which port's reflection to use."),
+    port: Optional[int] = PortOpt,
     max_shift: Optional[str] = MaxShiftOpt,
     max_swr_rise: Optional[str] = MaxSwrRiseOpt,
     max_gamma_change: Optional[str] = MaxGammaOpt,
@@ -55,34 +54,18 @@ def compare_command(
 
     Exit status 0 when within every limit, 1 when any is exceeded, 2 for bad input.
     """
-    from ..analysis import compare
     from ..analysis.limits import parse_limits
     from ..io.jsonfile import to_jsonable
+    from ..jobs.compare import compare_files
     from ..render.text import compare_text
-    from ..jobs import correct as workflow
-    from ..physics.deembedding import correct
-    from ..io.linefile import read_line_file
-    from ..io.touchstone import read_sweep
 
-    if port is not None and port not in (1, 2):
-        raise OptionError("--port", f"{port} is not a port of a 2-port file; use 1 or 2")
+    check_port(port)
     limits = parse_limits({"max_shift": max_shift, "max_swr_rise": max_swr_rise,
-                                   "max_gamma_change": max_gamma_change, "max_bw_loss": max_bw_loss,
-                                   "max_loss_change": max_loss_change})
+                           "max_gamma_change": max_gamma_change, "max_bw_loss": max_bw_loss,
+                           "max_loss_change": max_loss_change})
     the_line, _ = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate)
-    other = the_line
-    if after_line:
-        other, _ = read_line_file(after_line, cables, extrapolate)
-    before = correct(read_sweep(baseline, port=port, expect_ports=1), the_line)
-    later = correct(read_sweep(after, port=port, expect_ports=1), other)
-    result = compare.compare_corrections(before, later, limits)
-    if out:
-        from ..jobs.compare import compare_paths, write_compare_outputs
-
-        workflow.prepare_out_dir(out)
-        written = write_compare_outputs(result, before, later, compare_paths(after, out),
-                                        inputs=[baseline, after, line, cables, after_line])
-        result["outputs"] = written
+    result = compare_files(baseline, after, the_line, after_line=after_line, limits=limits, port=port, out=out,
+                           cables=cables, extrapolate=extrapolate, inputs=[line])
     if as_json:
         print(json.dumps(to_jsonable(result), indent=2, allow_nan=False))
     else:

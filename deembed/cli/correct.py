@@ -6,8 +6,8 @@ from typing import List, Optional
 
 import typer
 
-from ..base.errors import OptionError
-from .options import CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, VfOpt, Z0Opt, build_line, parse_thresholds
+from .options import (CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, PortOpt, VfOpt,
+                      Z0Opt, build_line, check_port, parse_thresholds)
 
 
 def correct_command(
@@ -21,7 +21,7 @@ def correct_command(
     line: Optional[str] = LineOpt,
     cables: Optional[str] = CablesOpt,
     extrapolate: bool = ExtrapolateOpt,
-    port: Optional[int] = typer.Option(None, "--port", help="For a 2-port file: which port's reflection to use (1 or 2)."),
+    port: Optional[int] = PortOpt,
     out: str = typer.Option("deembed-out", "--out", help="Folder for the results (created if needed)."),
     swr_limits: str = typer.Option("1.5,2,3", "--swr-limits", help="SWR thresholds for bandwidth spans."),
     target: Optional[str] = typer.Option(None, "--target", help="Wanted resonant frequency, e.g. 14.15MHz: trimming advice."),
@@ -36,8 +36,7 @@ def correct_command(
     from ..jobs import correct as workflow
     from ..base.units import parse_frequency, parse_power
 
-    if port is not None and port not in (1, 2):
-        raise OptionError("--port", f"{port} is not a port of a 2-port file; use 1 or 2")
+    check_port(port)
     the_line, notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate)
     opts = workflow.Options(
         port=port, thresholds=parse_thresholds(swr_limits),

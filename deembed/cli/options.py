@@ -36,6 +36,16 @@ ExtrapolateOpt = typer.Option(False, "--extrapolate", help="Allow a characterize
                                                            "frequencies it was measured over.")
 
 
+PortOpt = typer.Option(None, "--port", help="For a 2-port file: which port's reflection to use (1 or 2).")
+
+
+def check_port(port) -> None:
+    """The --port value: 1 or 2 (the library's check, named as the option)."""
+    from ..io.touchstone import check_port as _check
+
+    _check(port, "--port")
+
+
 def build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate=False):
     """The line from the shared options, plus notes for the summary."""
     from ..io.linefile import line_from_options

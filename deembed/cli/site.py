@@ -1,9 +1,10 @@
 """``deembed site``: every antenna of a site corrected and checked against its baseline."""
 from __future__ import annotations
 
+import json
 
 import typer
-import json
+
 from ..base.errors import OptionError
 
 
@@ -16,13 +17,12 @@ def site_command(
 ):
     """Check every feed of a site against its baseline; one index page. Exit 0 when all pass, 1 otherwise."""
     from ..io.jsonfile import to_jsonable
-    from ..jobs import site
+    from ..jobs.site import run_site
     from ..render.text import site_text, stderr_progress
 
     if workers < 1:
         raise OptionError("--workers", f"{workers}: give 1 or more processes")
-    total = len(site.read_site(site_file, out).jobs)
-    summary = site.run_site(site_file, out, workers=workers, progress=stderr_progress(total))
+    summary = run_site(site_file, out, workers=workers, progress=stderr_progress())
     if as_json:
         print(json.dumps(to_jsonable(summary), indent=2, allow_nan=False))
     else:

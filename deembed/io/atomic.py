@@ -59,6 +59,13 @@ def atomic_path(path) -> Iterator[Path]:
         raise
 
 
+def stem_of(path) -> str:
+    """The name outputs are made from: ``/x/dipole-40m.s1p`` -> ``dipole-40m`` (a name without extension as is)."""
+    base = os.path.basename(str(path))
+    stem, ext = os.path.splitext(base)
+    return stem if ext else base
+
+
 def write_bytes_atomic(path, data: bytes) -> None:
     """Write ``data`` to ``path`` atomically (temporary file in the same folder, then rename)."""
     with atomic_path(path) as tmp:

@@ -14,14 +14,12 @@ import numpy as np
 
 from ..base.errors import InputFileError, OptionError
 from ..base.units import fmt_freq
+from ..physics.grid import inside, nearest_points
 from ..physics.line import Line, LossModel, Section, abcd_to_s, s_to_abcd
 from .touchstone import read_sweep, write_touchstone
 
 MODEL_TAG = "deembed-line-model:"
 """Comment prefix under which a characterization file stores its fitted physical model (JSON)."""
-
-FREQ_MATCH_RTOL = 1e-9
-"""Relative tolerance under which a sweep frequency counts as one of the characterization's own points."""
 
 
 # --------------------------------------------------------------------------------------------------
@@ -145,10 +143,8 @@ class CharacterizedLine:
         g = self.freq_hz
         if f.shape == g.shape and np.array_equal(f, g):
             return np.arange(g.size)
-        idx = np.clip(np.searchsorted(g, f), 0, g.size - 1)
-        idx_lo = np.clip(idx - 1, 0, g.size - 1)
-        best = np.where(np.abs(g[idx_lo] - f) < np.abs(g[idx] - f), idx_lo, idx)
-        if np.all(np.abs(g[best] - f) <= FREQ_MATCH_RTOL * np.abs(f)):
+        best, hit = nearest_points(g, f)
+        if np.all(hit):
             return best
         return None
 
@@ -156,7 +152,7 @@ class CharacterizedLine:
         if self.allow_extrapolation or f.size == 0:
             return
         lo, hi = float(np.min(f)), float(np.max(f))
-        if lo < self.f_min_hz * (1 - FREQ_MATCH_RTOL) or hi > self.f_max_hz * (1 + FREQ_MATCH_RTOL):
+        if not inside(lo, hi, self.f_min_hz, self.f_max_hz):
 
             raise OptionError("--line", f"{self.source} characterizes the line from {fmt_freq(self.f_min_hz)} to "
                                         f"{fmt_freq(self.f_max_hz)}, but the sweep runs from {fmt_freq(lo)} to "

@@ -53,6 +53,9 @@ class SectionSpec:
     label: str | None = None
 
 
+SECTION_KEYS = ("cable", "length", "vf", "delay", "z0", "loss")
+"""The keys that describe one section of line (in a line file's [[section]], a site file's feed, the options)."""
+
 _OPT = {"cable": "--cable", "length": "--length", "vf": "--vf", "delay": "--delay", "z0": "--z0", "loss": "--loss"}
 
 
@@ -156,16 +159,7 @@ def read_line_file(path, cables_file=None, allow_extrapolation: bool = False) ->
         if "measured" in entry:
             parts.append(_two_port_line(os.path.join(base, str(entry["measured"])), allow_extrapolation).parts[0])
             continue
-        loss = entry.get("loss", [])
-        if isinstance(loss, str):
-            loss = [loss]
-        spec = SectionSpec(entry.get("cable"), as_text(entry.get("length")), entry.get("vf"), as_text(entry.get("delay")),
-                           entry.get("z0"), list(loss), entry.get("label"))
-        names = {k: f"{where} '{k}'" for k in _OPT}
-        try:
-            sec, sec_notes = build_section(spec, cat, names)
-        except OptionError as exc:
-            raise InputFileError(p, str(exc)) from None
+        sec, sec_notes = section_from_table(entry, cat, p, where)
         parts.append(sec)
         notes += [f"{where}: {n}" for n in sec_notes]
     return Line(tuple(parts), name=str(data.get("name", ""))), notes
@@ -173,6 +167,22 @@ def read_line_file(path, cables_file=None, allow_extrapolation: bool = False) ->
 
 def as_text(v):
     return None if v is None else str(v)
+
+
+def section_from_table(entry: dict, cat: dict, path: str, where: str, label: str | None = None):
+    """One section from a TOML table (a line file's ``[[section]]``, a site file's feed): (section, notes).
+
+    The keys are those of :data:`SECTION_KEYS`; ``loss`` may be one string or a list. A bad value raises
+    :class:`InputFileError` naming ``path`` and the key as ``<where> '<key>'``.
+    """
+    loss = entry.get("loss", [])
+    loss = [loss] if isinstance(loss, str) else list(loss)
+    spec = SectionSpec(entry.get("cable"), as_text(entry.get("length")), entry.get("vf"), as_text(entry.get("delay")),
+                       entry.get("z0"), loss, label if label is not None else entry.get("label"))
+    try:
+        return build_section(spec, cat, {k: f"{where} '{k}'" for k in SECTION_KEYS})
+    except OptionError as exc:
+        raise InputFileError(path, str(exc)) from None
 
 
 def _two_port_line(path: str, allow_extrapolation: bool = False) -> Line:
@@ -186,4 +196,5 @@ def _two_port_line(path: str, allow_extrapolation: bool = False) -> Line:
     return Line((MeasuredTwoPort(sw.freq_hz, sw.s, label="measured 2-port", source=path),))
 
 
-__all__ = ["SectionSpec", "build_section", "line_from_options", "read_line_file"]
+__all__ = ["SECTION_KEYS", "SectionSpec", "build_section", "line_from_options", "read_line_file",
+           "section_from_table"]

@@ -39,6 +39,7 @@ from pathlib import Path
 import numpy as np
 
 from ..base.errors import InputFileError, OptionError
+from ..physics.network import renormalise_s, s_from_y, s_from_z
 from ..physics.rf import Z_REF_OHM
 from .sweep import Sweep
 from .atomic import write_text_atomic
@@ -89,6 +90,16 @@ class _Header:
 
 # ----------------------------------------------------------------------------------------------
 # reading
+
+
+SWEEP_PORTS = (1, 2)
+"""The ports a reflection can be taken from: a sweep file is a .s1p, or a .s2p whose S11 or S22 is used."""
+
+
+def check_port(port, field: str = "port") -> None:
+    """Refuse a port other than 1 or 2 (None, a .s1p's own reflection, is fine)."""
+    if port is not None and (isinstance(port, bool) or port not in SWEEP_PORTS):
+        raise OptionError(field, f"{port!r} is not a port of a 2-port file; use 1 or 2")
 
 
 def read_sweep(path, *, port: int | None = None, expect_ports: int | None = 1) -> Sweep:
@@ -704,47 +715,27 @@ def _to_s50(m: np.ndarray, hdr: _Header, z_ref: np.ndarray, name: str, rec_line)
     p = m.shape[1]
     param = hdr.opts.param
     r = hdr.opts.r_ohm
-    eye = np.eye(p)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if param == "s":
-            if np.all(z_ref == Z_REF_OHM):
-                return m
-            rho = (z_ref - Z_REF_OHM) / (z_ref + Z_REF_OHM)
-            if p == 1:
-                return (m + rho[0]) / (1 + rho[0] * m)
-            x = m + np.diag(rho)
-            y = eye + rho[:, None] * m
-            s = np.swapaxes(np.linalg.solve(np.swapaxes(y, 1, 2), np.swapaxes(x, 1, 2)), 1, 2)
-            a = np.sqrt(1 - rho ** 2)
-            return s * a[None, None, :] / a[None, :, None]
-        if param == "z":
-            z = m * r if hdr.version == 1 else m
-            if p == 1:
-                s = (z - Z_REF_OHM) / (z + Z_REF_OHM)
+            return renormalise_s(m, z_ref, Z_REF_OHM)
+        try:
+            if param == "z":
+                s = s_from_z(m * r if hdr.version == 1 else m, Z_REF_OHM)
             else:
-                s = _solve(z + Z_REF_OHM * eye, z - Z_REF_OHM * eye, name, rec_line)
-        else:
-            y = m / r if hdr.version == 1 else m
-            if p == 1:
-                s = (1 - Z_REF_OHM * y) / (1 + Z_REF_OHM * y)
-            else:
-                s = _solve(eye + Z_REF_OHM * y, eye - Z_REF_OHM * y, name, rec_line)
+                s = s_from_y(m / r if hdr.version == 1 else m, Z_REF_OHM)
+        except np.linalg.LinAlgError:
+            eye = np.eye(p)
+            a = (m * r if hdr.version == 1 else m) + Z_REF_OHM * eye if param == "z" else \
+                eye + Z_REF_OHM * (m / r if hdr.version == 1 else m)
+            k = int(np.argmin(np.abs(np.linalg.det(a))))
+            raise InputFileError(name, "these parameters have no S-parameter equivalent at 50 ohm (singular "
+                                       "matrix); check the values", line=int(rec_line[k])) from None
     bad = ~np.isfinite(s).reshape(s.shape[0], -1).all(axis=1)
     if bad.any():
         k = int(np.argmax(bad))
         raise InputFileError(name, f"the {param.upper()}-parameters here have no S-parameter equivalent at "
                                    f"50 ohm; check the values", line=int(rec_line[k]))
     return s
-
-
-def _solve(a, b, name, rec_line):
-    try:
-        return np.linalg.solve(a, b)
-    except np.linalg.LinAlgError:
-        det = np.abs(np.linalg.det(a))
-        k = int(np.argmin(det))
-        raise InputFileError(name, "these parameters have no S-parameter equivalent at 50 ohm (singular "
-                                   "matrix); check the values", line=int(rec_line[k])) from None
 
 
 # ----------------------------------------------------------------------------------------------

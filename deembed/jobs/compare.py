@@ -1,13 +1,23 @@
-"""Comparison outputs: the overlay plot, the JSON and the HTML page of one comparison, written atomically."""
+"""``deembed compare``: two sweeps through their lines, compared; the overlay plot, JSON and HTML page written.
+
+:func:`compare_files` is the whole job from file names (the command line and the demo call it); the site
+job calls :func:`write_compare_outputs` on corrections it has already made.
+"""
 from __future__ import annotations
 
 import json
 import os
-from .correct import stem_of
-from ..io.atomic import check_not_input, write_text_atomic
-from ..render.plots import save
+
+from ..analysis.compare import compare_corrections
+from ..analysis.limits import Limits
+from ..io.atomic import check_not_input, stem_of, write_text_atomic
 from ..io.jsonfile import to_jsonable
+from ..io.linefile import read_line_file
+from ..io.touchstone import read_sweep
+from ..physics.deembedding import correct
 from ..render.compare_page import compare_html, compare_plot
+from ..render.plots import save
+from .correct import prepare_out_dir
 
 
 def compare_paths(after_path: str, out_dir: str) -> dict:
@@ -29,3 +39,46 @@ def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *
     write_text_atomic(paths["compare_json"], json.dumps(to_jsonable(result), indent=2, allow_nan=False) + "\n")
     write_text_atomic(paths["compare_html"], compare_html(result, paths["compare_png"], title))
     return dict(paths)
+
+
+def compare_files(baseline: str, after: str, line, *, after_line: str | None = None, limits: Limits | None = None,
+                  port: int | None = None, out: str | None = None, cables: str | None = None,
+                  extrapolate: bool = False, inputs=(), title: str = "") -> dict:
+    """Correct a baseline and an after-work sweep and compare them; write the outputs when ``out`` is given.
+
+    Parameters
+    ----------
+    baseline, after : str
+        The two sweeps (Touchstone; ``port`` picks the reflection of a 2-port file).
+    line : deembed.physics.line.Line
+        The line both sweeps are corrected through (the baseline always).
+    after_line : str, optional
+        A fresh line file (.toml or .s2p) for the after sweep only.
+    limits : Limits, optional
+        The verdict's limits (defaults: :class:`~deembed.analysis.limits.Limits`).
+    out : str, optional
+        Folder for ``<after>.compare.json/.png/.html``; nothing is written without it.
+    cables, extrapolate
+        For reading ``after_line`` (a cable catalog of one's own; a characterized line beyond its range).
+    inputs : iterable of str
+        Further input files no output may overwrite (line and catalog files).
+
+    Returns
+    -------
+    dict
+        The comparison (:func:`deembed.analysis.compare.compare_corrections`), with ``outputs`` (paths
+        written) when ``out`` is given.
+    """
+
+    other = line
+    if after_line:
+        other, _ = read_line_file(after_line, cables, extrapolate)
+    before = correct(read_sweep(baseline, port=port, expect_ports=1), line)
+    later = correct(read_sweep(after, port=port, expect_ports=1), other)
+    result = compare_corrections(before, later, limits)
+    if out:
+        prepare_out_dir(out)
+        written = write_compare_outputs(result, before, later, compare_paths(after, out),
+                                        inputs=[baseline, after, after_line, cables, *inputs], title=title)
+        result["outputs"] = written
+    return result

@@ -17,14 +17,15 @@ from ..base.errors import OptionError
 from ..io.atomic import check_not_input
 from ..physics.budget import power_budget
 from ..analysis.findings import trim_advice
-from ..io.bands import band_check, load_bands
+from ..analysis.bandcheck import band_check
+from ..io.bands import load_bands
 from ..analysis.summary import ranges_text
 from ..base.errors import InputFileError
 from ..physics import rf
 from ..io.atomic import write_text_atomic
 from ..io.touchstone import write_touchstone
 from ..render.report import write_report
-from ..io.atomic import atomic_path
+from ..io.atomic import atomic_path, stem_of
 from ..render import plots
 from ..io.touchstone import read_sweep
 from ..io.jsonfile import to_jsonable
@@ -43,12 +44,6 @@ class Options:
     plots: bool = True
     html: bool = True
     notes: list = field(default_factory=list)
-
-
-def stem_of(path: str) -> str:
-    base = os.path.basename(path)
-    stem, ext = os.path.splitext(base)
-    return stem if ext else base
 
 
 def output_paths(sweep_path: str, out_dir: str) -> dict:
@@ -196,15 +191,7 @@ def write_table_csv(table: dict, path: str) -> None:
 
 def write_plots(corr, table: dict, paths: dict, opts: Options) -> dict:
 
-    limits = tuple(t for t in opts.thresholds if t <= 3)
-    figs = {
-        "swr_png": plots.swr_plot(corr, limits=limits),
-        "smith_png": plots.smith_plot(corr),
-        "impedance_png": plots.impedance_plot(corr),
-        "return_loss_png": plots.return_loss_plot(corr),
-    }
-    if opts.power_w:
-        figs["budget_png"] = plots.budget_plot(corr.freq_hz, table)
+    figs = plots.correction_plots(corr, table if opts.power_w else None, opts.thresholds)
     for key, fig in figs.items():
         plots.save(fig, paths[key])
     return {k: paths[k] for k in figs}

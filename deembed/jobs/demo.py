@@ -3,16 +3,11 @@ from __future__ import annotations
 
 import os
 
-from . import correct as workflow
 from ..io.linefile import line_from_options
-from ..render.text import correction_text
+from ..render.text import compare_text, correction_text, site_text
+from . import correct as workflow
+from .compare import compare_files
 from .samples import write_samples
-from ..analysis.compare import compare_corrections
-from ..render.text import compare_text
-from .compare import compare_paths, write_compare_outputs
-from ..physics.deembedding import correct
-from ..io.touchstone import read_sweep
-from ..render.text import site_text
 from .site import run_site
 
 
@@ -53,15 +48,11 @@ def run_demo(out_dir: str, echo=print) -> dict:
     echo("\n== After the tower work: the 2 m vertical against its baseline, and against a wet-run sweep ==")
 
     line, _ = line_from_options(line_file=s("vertical-2m.line.toml"))
-    base = correct(read_sweep(s("vertical-2m.s1p")), line)
     folder = os.path.join(out_dir, "compare")
-    os.makedirs(folder, exist_ok=True)
     results["compare"] = {}
     for name in ("vertical-2m-after", "vertical-2m-wet"):
-        later = correct(read_sweep(s(f"{name}.s1p")), line)
-        res = compare_corrections(base, later)
-        write_compare_outputs(res, base, later, compare_paths(s(f"{name}.s1p"), folder),
-                              title=f"2 m vertical: {name} against its baseline")
+        res = compare_files(s("vertical-2m.s1p"), s(f"{name}.s1p"), line, out=folder,
+                            inputs=[s("vertical-2m.line.toml")], title=f"2 m vertical: {name} against its baseline")
         echo(compare_text(res) + "\n")
         results["compare"][name] = res
 

@@ -8,10 +8,9 @@ from __future__ import annotations
 import html
 import os
 
-import numpy as np
 
 from ..physics import rf
-from .plots import GRID_COLOUR, smith_grid
+from .plots import finish, smith_frame, smith_grid, smith_trace, swr_scale
 from .text import compare_text
 
 BEFORE_COLOUR = "#3f51a3"
@@ -32,29 +31,17 @@ def compare_plot(before, after, title: str = ""):
     for row, (end, attr, ls) in enumerate((("feedpoint (corrected)", "gamma_feed", "-"),
                                            ("analyzer end (measured)", "gamma_shack", "--"))):
         ax_swr, ax_sm = axes[row]
-        tops = []
+        traces = []
         for corr, colour, label in ((before, BEFORE_COLOUR, BEFORE_LABEL), (after, AFTER_COLOUR, AFTER_LABEL)):
             g = getattr(corr, attr)
             s = rf.swr(g)
             ax_swr.plot(corr.freq_hz / 1e6, s, color=colour, lw=1.8, ls=ls, label=label)
-            tops.append(s[np.isfinite(s)])
-            ax_sm.plot(g.real, g.imag, color=colour, lw=1.6, ls=ls, label=label)
-            ax_sm.plot(g.real[:1], g.imag[:1], "o", color=colour, ms=4)
-        finite = np.concatenate(tops)
-        top = min(max(float(finite.max()) if finite.size else 3.0, 3.0), 10.0)
-        ax_swr.axhline(2.0, color="#8a8a8a", lw=0.8, ls=":")
-        ax_swr.set_ylim(1.0, top * 1.05)
-        ax_swr.set_xlabel("Frequency (MHz)")
-        ax_swr.set_ylabel("SWR")
-        ax_swr.set_title(f"SWR at the {end}")
-        ax_swr.grid(True, color=GRID_COLOUR, lw=0.6)
-        ax_swr.legend(loc="best", fontsize=9)
+            traces.append(s)
+            smith_trace(ax_sm, g, colour, ls, label, lw=1.6, ms=4)
+        swr_scale(ax_swr, traces, (2.0,))
+        finish(ax_swr, "SWR", f"SWR at the {end}")
         smith_grid(ax_sm)
-        ax_sm.set_xlim(-1.08, 1.08)
-        ax_sm.set_ylim(-1.08, 1.08)
-        ax_sm.set_aspect("equal")
-        ax_sm.axis("off")
-        ax_sm.set_title(f"Smith chart (50 ohm), {end}\ndot = lowest frequency", fontsize=10)
+        smith_frame(ax_sm, f"Smith chart (50 ohm), {end}\ndot = lowest frequency", fontsize=10)
     if title:
         fig.suptitle(title)
     return fig

@@ -25,7 +25,7 @@ def _axes(ax, figsize=(8, 4.5)):
     return fig, fig.add_subplot()
 
 
-def _finish(ax, ylabel: str, title: str) -> None:
+def finish(ax, ylabel: str, title: str) -> None:
     """The frequency axis, labels, grid and legend every frequency plot shares."""
     ax.set_xlabel("Frequency (MHz)")
     ax.set_ylabel(ylabel)
@@ -51,6 +51,23 @@ def _xrange(ax, f_mhz) -> None:
     ax.set_xlim(lo - pad, hi + pad)
 
 
+def swr_marks(thresholds) -> tuple:
+    """The SWR thresholds drawn as dotted lines on an SWR plot: those up to 3:1 (higher ones crowd the top)."""
+    return tuple(t for t in thresholds if t <= 3)
+
+
+def swr_scale(ax, traces, limits=(2.0,), label_at=None) -> None:
+    """The SWR axis every SWR plot shares: 1 to the highest finite SWR (at least 3, at most 10), with a
+    dotted line at each of ``limits`` (labelled ``2:1`` at x = ``label_at`` when given)."""
+    finite = np.concatenate([np.asarray(s)[np.isfinite(s)] for s in traces]) if traces else np.array([])
+    top = min(max(float(finite.max()) if finite.size else 3.0, 3.0), 10.0)
+    for lim in limits:
+        ax.axhline(lim, color="#8a8a8a", lw=0.8, ls=":")
+        if label_at is not None:
+            ax.text(label_at, lim, f" {lim:g}:1", va="bottom", ha="left", fontsize=8, color="#6a6a6a")
+    ax.set_ylim(1.0, top * 1.05)
+
+
 def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends"):
     """SWR against frequency at the analyzer and at the feedpoint, on one chart."""
     fig, ax = _axes(ax)
@@ -59,13 +76,8 @@ def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends"):
     ax.plot(f, s_sh, color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"], **_marks(f))
     ax.plot(f, s_fp, color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
-    finite = np.concatenate([s_sh[np.isfinite(s_sh)], s_fp[np.isfinite(s_fp)]])
-    top = min(max(float(finite.max()) if finite.size else 3.0, 3.0), 10.0)
-    for lim in limits:
-        ax.axhline(lim, color="#8a8a8a", lw=0.8, ls=":")
-        ax.text(f[0], lim, f" {lim:g}:1", va="bottom", ha="left", fontsize=8, color="#6a6a6a")
-    ax.set_ylim(1.0, top * 1.05)
-    _finish(ax, "SWR", title)
+    swr_scale(ax, [s_sh, s_fp], limits, label_at=f[0])
+    finish(ax, "SWR", title)
     return fig
 
 
@@ -78,7 +90,7 @@ def return_loss_plot(corr, ax=None):
     ax.plot(f, rf.return_loss_db(corr.gamma_feed), color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
     ax.invert_yaxis()
-    _finish(ax, "Return loss (dB, larger is better)", "Return loss at both ends")
+    finish(ax, "Return loss (dB, larger is better)", "Return loss at both ends")
     return fig
 
 
@@ -97,7 +109,7 @@ def impedance_plot(corr, ax=None):
     if finite.size:
         lim = min(float(np.percentile(finite, 98)) * 1.2 + 10, 2000.0)
         ax.set_ylim(-lim, lim)
-    _finish(ax, "Ohms", "Feedpoint impedance (corrected)")
+    finish(ax, "Ohms", "Feedpoint impedance (corrected)")
     return fig
 
 
@@ -117,19 +129,29 @@ def smith_grid(ax):
         ax.text((r - 1) / (r + 1), 0.01, f"{50 * r:g}", fontsize=7, color="#7d7d7d", ha="center", va="bottom")
 
 
+def smith_trace(ax, gamma, colour, ls="-", label=None, lw=1.8, ms=5) -> None:
+    """One reflection trace on a Smith chart, with a dot at the sweep's lowest frequency."""
+    ax.plot(gamma.real, gamma.imag, color=colour, lw=lw, ls=ls, label=label)
+    ax.plot(gamma.real[:1], gamma.imag[:1], "o", color=colour, ms=ms)
+
+
+def smith_frame(ax, title: str, fontsize=None) -> None:
+    """The Smith chart's square frame without axes, and its title."""
+    ax.set_xlim(-1.08, 1.08)
+    ax.set_ylim(-1.08, 1.08)
+    ax.set_aspect("equal")
+    ax.axis("off")
+    ax.set_title(title, fontsize=fontsize)
+
+
 def smith_plot(corr, ax=None):
     """Smith chart (50 ohm) with the measured and corrected traces; circles mark the sweep's start."""
     fig, ax = _axes(ax, figsize=(6.2, 6.2))
     smith_grid(ax)
     for g, colour, ls, key in ((corr.gamma_shack, SHACK_COLOUR, "--", "shack"),
                                (corr.gamma_feed, FEED_COLOUR, "-", "feedpoint")):
-        ax.plot(g.real, g.imag, color=colour, lw=1.8, ls=ls, label=LABELS[key])
-        ax.plot(g.real[:1], g.imag[:1], "o", color=colour, ms=5)
-    ax.set_xlim(-1.08, 1.08)
-    ax.set_ylim(-1.08, 1.08)
-    ax.set_aspect("equal")
-    ax.axis("off")
-    ax.set_title("Smith chart (50 ohm); dot = lowest frequency")
+        smith_trace(ax, g, colour, ls, LABELS[key])
+    smith_frame(ax, "Smith chart (50 ohm); dot = lowest frequency")
     ax.legend(loc="lower left", fontsize=8, frameon=False)
     return fig
 
@@ -145,8 +167,34 @@ def budget_plot(freq_hz, budget: dict, ax=None):
     ax.plot(f, budget["budget_reflected_at_tx_w"], color=SHACK_COLOUR, lw=1.6, ls="--",
             label="reflected back to the transmitter", **_marks(f))
     _xrange(ax, f)
-    _finish(ax, "Watts", "Where the transmitter's power goes")
+    finish(ax, "Watts", "Where the transmitter's power goes")
     return fig
+
+
+PLOT_KEYS = ("swr_png", "smith_png", "impedance_png", "return_loss_png", "budget_png")
+"""Every plot of a correction, by its output key, in the order they are written."""
+
+
+def correction_plot(key: str, corr, table: dict | None = None, thresholds=(2.0,)):
+    """The plot ``key`` (one of :data:`PLOT_KEYS`) of a correction, or None when it has nothing to show
+    (the power budget without budget columns in ``table``)."""
+    if key == "swr_png":
+        return swr_plot(corr, limits=swr_marks(thresholds))
+    if key == "return_loss_png":
+        return return_loss_plot(corr)
+    if key == "impedance_png":
+        return impedance_plot(corr)
+    if key == "smith_png":
+        return smith_plot(corr)
+    if key == "budget_png" and table and "budget_delivered_w" in table:
+        return budget_plot(corr.freq_hz, table)
+    return None
+
+
+def correction_plots(corr, table: dict | None = None, thresholds=(2.0,)) -> dict:
+    """Every plot a correction has, as {output key: Figure} (the budget only when ``table`` has its columns)."""
+    figs = {k: correction_plot(k, corr, table, thresholds) for k in PLOT_KEYS}
+    return {k: f for k, f in figs.items() if f is not None}
 
 
 def save(fig, path, dpi: int = 110) -> None:

@@ -17,6 +17,7 @@ from html import escape
 
 from . import plots
 from ..io.atomic import write_text_atomic
+from .safety import SAFETY_FOOT, SAFETY_ITEMS
 from .plots import FEED_COLOUR, GRID_COLOUR, SHACK_COLOUR
 from ..base.units import fmt_freq
 
@@ -24,25 +25,6 @@ LINE_LOSS_COLOUR = "#8b6c3e"  # the "lost in the line" trace of plots.budget_plo
 MAX_RESONANCES = 4
 MAX_SPANS = 3
 MAX_COMMENT_LINES = 12
-
-SAFETY_ITEMS = (
-    ("Static on the line",
-     "A feed line can hold a dangerous static charge, especially from a tall or long antenna. Bleed it off "
-     "(briefly short the centre conductor to the shield, or to ground) before connecting an analyzer."),
-    ("Never transmit into an analyzer",
-     "Disconnect the analyzer before any transmitter on the line is keyed, and make sure nobody else can key "
-     "it while you measure. Nearby transmitters can also couple enough power to damage the analyzer."),
-    ("RF exposure",
-     "Keep clear of antennas that are transmitting, including other stations' antennas on a shared site or "
-     "tower; follow the exposure limits that apply where you are."),
-    ("Tower and roof work",
-     "Climbing, rigging and work at height are for trained, equipped and insured crews only, never alone."),
-    ("Lightning",
-     "Do no antenna or feed-line work when thunderstorms are about; disconnect and ground lines as your "
-     "installation requires."),
-)
-SAFETY_FOOT = ("These notes do not replace local electrical and building codes, site rules or licensed practice; "
-               "where they differ, those come first.")
 
 PLOTS = (  # key in `written`, caption
     ("swr_png", "SWR against frequency at the analyzer (slate, dashed) and at the feedpoint (copper). "
@@ -451,19 +433,9 @@ def _render_png(key: str, corr, table: dict, summary: dict) -> bytes | None:
     import io
 
 
-    if key == "swr_png":
-        keys = (summary.get("feedpoint") or {}).get("bandwidth_hz") or {}
-        limits = tuple(float(k) for k in keys if float(k) <= 3) or (2.0,)
-        fig = plots.swr_plot(corr, limits=limits)
-    elif key == "return_loss_png":
-        fig = plots.return_loss_plot(corr)
-    elif key == "impedance_png":
-        fig = plots.impedance_plot(corr)
-    elif key == "smith_png":
-        fig = plots.smith_plot(corr)
-    elif key == "budget_png" and table and "budget_delivered_w" in table:
-        fig = plots.budget_plot(corr.freq_hz, table)
-    else:
+    keys = (summary.get("feedpoint") or {}).get("bandwidth_hz") or {}
+    fig = plots.correction_plot(key, corr, table, tuple(float(k) for k in keys) or (2.0,))
+    if fig is None:
         return None
     buf = io.BytesIO()
     fig.savefig(buf, dpi=110, format="png")
@@ -493,7 +465,7 @@ def _plots(corr, table: dict, summary: dict, written: dict) -> str:
 
 
 def _safety() -> str:
-    lis = "".join(f"<li><strong>{_e(h)}.</strong> {_e(t)}</li>" for h, t in SAFETY_ITEMS)
+    lis = "".join(f"<li><strong>{_e(h)}.</strong> {_e(t)}</li>" for h, _, t in SAFETY_ITEMS)
     return f"""
 <section id="safety" class="safety">
   <h2>Safety</h2>

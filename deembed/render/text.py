@@ -119,14 +119,16 @@ def budget_text(b: dict, power_w: float, loss_db: float) -> str:
     return "\n".join(lines)
 
 
-def stderr_progress(total: int):
-    """A progress callback writing ``site: 2/5 feeds done (name: status)`` to standard error, or None when
-    the run is short and standard error is not a terminal."""
+def stderr_progress():
+    """A progress callback writing ``site: 2/5 feeds done (name: status)`` to standard error.
+
+    It writes nothing for a short run (3 feeds or fewer) when standard error is not a terminal.
+    """
     tty = sys.stderr.isatty()
-    if not tty and total <= 3:
-        return None
 
     def show(done, n, result):
+        if not tty and n <= 3:
+            return
         msg = f"site: {done}/{n} feeds done ({result['name']}: {STATUS_TEXT[result['status']]})"
         if tty:
             sys.stderr.write("\r" + msg.ljust(78) + ("\n" if done == n else ""))

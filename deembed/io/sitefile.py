@@ -1,0 +1,210 @@
+"""The site file: several antennas, each with its line, a baseline sweep and later sweeps.
+
+The site file is TOML of our own design; paths in it are relative to the file::
+
+    name = "Ridgeback Hill"            # the site's name, for the index page
+    cables = "my-cables.toml"          # optional: your own cable catalog for every feed
+
+    [limits]                           # optional: limits for every feed (defaults: deembed.analysis.limits.Limits)
+    max_shift = "50kHz"
+    max_swr_rise = 0.2
+
+    [[feed]]
+    name = "2 m vertical"
+    line = "vertical-2m.line.toml"     # a line description (.toml) or a measured/characterized .s2p ...
+    baseline = "vertical-2m.s1p"       # the sweep taken when the feed was known good
+    latest = ["vertical-2m-after.s1p"] # one or more later sweeps (a single string is fine too)
+    limits = { max_shift = "100kHz" }  # optional: this feed's own limits, over the site's
+
+    [[feed]]
+    name = "40 m dipole"
+    cable = "rg8x"                     # ... or one section inline: cable, length, vf, delay, z0, loss
+    length = "38m"
+    baseline = "dipole-40m.s1p"
+    latest = "dipole-40m-after.s1p"
+    after_line = "dipole-40m-2026.s2p" # optional: a fresh characterization for the latest sweeps
+    port = 1                           # optional: the port of a 2-port sweep file
+
+This module reads the file and each feed's entry into plain objects (:class:`Site`, :class:`FeedJob`,
+:class:`FeedFiles`) and builds a feed's line; the limits' values are checked by
+:func:`deembed.analysis.limits.parse_limits` in the site job (:mod:`deembed.jobs.site`), which runs the feeds.
+A problem with the file as a whole raises at once; a problem with one feed's entry is raised when that
+feed is read (:func:`read_feed`), so a bad feed fails alone.
+"""
+from __future__ import annotations
+
+import os
+import re
+from dataclasses import dataclass, field
+
+from ..base.errors import InputFileError, OptionError
+from ..physics.line import Line
+from .atomic import stem_of
+from .cables import catalog
+from .linefile import SECTION_KEYS, read_line_file, section_from_table
+from .tomlfile import load_toml
+from .touchstone import check_port
+
+SITE_KEYS = ("name", "cables", "limits", "feed")
+"""Keys of the site file's top level."""
+
+FEED_KEYS = ("name", "line", "cable", "length", "vf", "delay", "z0", "loss", "baseline", "latest", "after_line",
+             "port", "limits")
+"""Keys of one ``[[feed]]`` entry."""
+
+
+@dataclass(frozen=True)
+class FeedJob:
+    """One feed as read from the site file (checked in the worker, so a bad feed fails alone)."""
+
+    index: int
+    name: str
+    slug: str
+    entry: dict
+    site_file: str
+    base_dir: str
+    out_dir: str
+    cables: str | None = None
+    site_limits: dict = field(default_factory=dict)
+
+    @property
+    def where(self) -> str:
+        """How error messages name this feed: ``feed 2 (40 m dipole)``."""
+        return f"feed {self.index} ({self.name})"
+
+
+@dataclass(frozen=True)
+class Site:
+    """A site file read: its name, its path and one :class:`FeedJob` per feed, in file order."""
+
+    name: str
+    path: str
+    jobs: tuple
+
+
+@dataclass(frozen=True)
+class FeedFiles:
+    """The files and settings of one feed, checked and with their paths resolved.
+
+    ``line_file`` and ``after_line_file`` are None when the feed has no such key (an inline line; no fresh
+    characterization). ``own_limits`` is the feed's ``limits`` table, still as written.
+    """
+
+    baseline: str
+    latest: tuple
+    line_file: str | None
+    after_line_file: str | None
+    port: int | None
+    own_limits: dict
+
+
+def slugify(name: str) -> str:
+    """'2 m Vertical (north)' -> '2-m-vertical-north'; folder names safe on every system."""
+    s = re.sub(r"[^a-z0-9]+", "-", str(name).lower()).strip("-")
+    return s[:60] or "feed"
+
+
+def read_site(path, out_dir: str) -> Site:
+    """Read a site file; problems with the file as a whole raise :class:`InputFileError`.
+
+    The ``[limits]`` table is only checked to be a table here; its values are checked by the site job.
+    """
+
+    p = str(path)
+    data = load_toml(p)
+    unknown = sorted(set(data) - set(SITE_KEYS))
+    if unknown:
+        raise InputFileError(p, f"unknown key(s) {', '.join(unknown)}; a site file has {', '.join(SITE_KEYS)}")
+    feeds = data.get("feed")
+    if not isinstance(feeds, list) or not feeds or not all(isinstance(f, dict) for f in feeds):
+        raise InputFileError(p, "no [[feed]] tables; describe each feed as a [[feed]] table with name, line, "
+                                "baseline and latest")
+    limits = data.get("limits", {})
+    if not isinstance(limits, dict):
+        raise InputFileError(p, "[limits] should be a table, e.g. max_shift = \"50kHz\"")
+    base = os.path.dirname(os.path.abspath(p))
+    cables = data.get("cables")
+    if cables is not None:
+        cables = os.path.join(base, str(cables))
+    jobs, used = [], set()
+    for i, entry in enumerate(feeds, 1):
+        name = str(entry.get("name") or f"feed {i}")
+        slug = slugify(name)
+        k = 2
+        while slug in used:
+            slug, k = f"{slugify(name)}-{k}", k + 1
+        used.add(slug)
+        jobs.append(FeedJob(i, name, slug, dict(entry), p, base, os.path.join(out_dir, slug), cables, dict(limits)))
+    return Site(str(data.get("name") or os.path.basename(p)), p, tuple(jobs))
+
+
+def _path(job: FeedJob, key: str) -> str:
+    v = job.entry.get(key)
+    if not isinstance(v, str) or not v.strip():
+        raise InputFileError(job.site_file, f"{job.where}: '{key}' should be a file name")
+    return os.path.join(job.base_dir, v)
+
+
+def _maybe(job: FeedJob, key: str):
+    return _path(job, key) if key in job.entry else None
+
+
+def read_feed(job: FeedJob) -> FeedFiles:
+    """Check one feed's entry (keys, port, file names) and resolve its paths against the site file's folder."""
+
+    where = job.where
+    unknown = sorted(set(job.entry) - set(FEED_KEYS))
+    if unknown:
+        raise InputFileError(job.site_file, f"{where}: unknown key(s) {', '.join(unknown)}; "
+                                            f"use {', '.join(FEED_KEYS)}")
+    own = job.entry.get("limits", {})
+    if not isinstance(own, dict):
+        raise InputFileError(job.site_file, f"{where}: limits should be a table, e.g. {{ max_shift = \"50kHz\" }}")
+    port = job.entry.get("port")
+    try:
+        check_port(port)
+    except OptionError:
+        raise InputFileError(job.site_file, f"{where}: port = {port!r}; use 1 or 2 (or leave it out for a .s1p)") \
+            from None
+    baseline = _path(job, "baseline")
+    latest = job.entry.get("latest")
+    latest = [latest] if isinstance(latest, str) else latest
+    if not isinstance(latest, list) or not latest or not all(isinstance(x, str) and x.strip() for x in latest):
+        raise InputFileError(job.site_file, f"{where}: 'latest' should name one or more sweeps, "
+                                            "e.g. latest = [\"after.s1p\"]")
+    latest = [os.path.join(job.base_dir, x) for x in latest]
+    stems = [stem_of(x) for x in [baseline, *latest]]
+    if len(set(stems)) != len(stems):
+        raise InputFileError(job.site_file, f"{where}: two sweeps share a file name ({', '.join(stems)}); their "
+                                            "outputs would collide, so give them different names")
+    line_file = job.entry.get("line")
+    line_file = os.path.join(job.base_dir, line_file) if isinstance(line_file, str) else None
+    return FeedFiles(baseline, tuple(latest), line_file, _maybe(job, "after_line"), port, dict(own))
+
+
+def feed_line(job: FeedJob) -> tuple[Line, list]:
+    """The feed's line: from its ``line`` file, or one section from its inline keys. Returns (line, notes)."""
+
+    where = job.where
+    inline = [k for k in SECTION_KEYS if k in job.entry]
+    if "line" in job.entry:
+        if inline:
+            raise InputFileError(job.site_file, f"{where}: give either 'line' or {', '.join(inline)}, not both")
+        return read_line_file(_path(job, "line"), job.cables)
+    if not inline:
+        raise InputFileError(job.site_file, f"{where}: say which line feeds it: line = \"FILE\" (.toml or .s2p), "
+                                            "or cable and length")
+    sec, notes = section_from_table(job.entry, catalog(job.cables), job.site_file, where, label=job.name)
+    return Line((sec,), name=job.name), notes
+
+
+def after_line(job: FeedJob, files: FeedFiles, line: Line, notes: list) -> tuple[Line, list]:
+    """The line for the latest sweeps: the feed's ``after_line`` file when it has one, else ``line`` itself."""
+
+    if files.after_line_file is None:
+        return line, notes
+    return read_line_file(files.after_line_file, job.cables)
+
+
+__all__ = ["FEED_KEYS", "SECTION_KEYS", "SITE_KEYS", "FeedFiles", "FeedJob", "Site", "after_line", "feed_line",
+           "read_feed", "read_site", "slugify"]
