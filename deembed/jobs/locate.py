@@ -1,0 +1,357 @@
+"""``deembed locate``: where along the line the reflections come from.
+
+Reads a sweep, transforms it along the line (band-pass, or low-pass when asked and the grid allows),
+finds the reflections, the far end and the line's length, optionally gates a window and writes the
+gated sweep back as Touchstone, and writes the outputs into a folder:
+
+* ``<stem>.along.json``: the summary (the same object ``--json`` prints)
+* ``<stem>.along.csv``: the trace, one row per time sample (one-way delay, distance, seen and
+  compensated levels; low-pass adds the step response and the impedance it implies)
+* ``<stem>.along.png``: the plot
+* ``<stem>.gated.s1p``: with ``--keep`` or ``--remove``
+"""
+from __future__ import annotations
+
+import json
+import os
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..analysis import reflections as refl_mod
+from ..base.errors import InputFileError, OptionError
+from ..base.units import FEET_PER_M, parse_delay, parse_length
+from ..io import cables as cables_mod
+from ..io.atomic import atomic_path, check_not_input, write_text_atomic
+from ..io.jsonfile import to_jsonable
+from ..io.linefile import line_from_options
+from ..io.touchstone import read_sweep, write_touchstone
+from ..physics import runmap as rm
+from ..physics import timedomain as td
+from ..physics.line import LossModel
+from .correct import prepare_out_dir, stem_of
+
+
+@dataclass
+class LocateOptions:
+    """What the user asked for beyond the sweep and the line."""
+
+    port: int | None = None
+    lowpass: bool = False
+    beta: float = td.DEFAULT_KAISER_BETA
+    pad: int = td.DEFAULT_PAD
+    threshold_db: float = refl_mod.DEFAULT_THRESHOLD_DB
+    floor_db: float | None = None
+    unit: str = "m"
+    keep: str | None = None
+    remove: str | None = None
+    resolve: str | None = None
+    plots: bool = True
+
+
+@dataclass
+class LineView:
+    """What is known of the line for looking along it."""
+
+    runmap: object = None          # RunMap or None (nothing known: one-way delay axis, no loss)
+    described_length_m: float | None = None
+    notes: list = field(default_factory=list)
+    inputs: list = field(default_factory=list)
+
+
+def line_view(cable=None, length=None, vf=None, delay=None, z0=None, loss=(), line=None, cables=None) -> LineView:
+    """The line options of ``correct``, read for a look along the line.
+
+    Unlike ``correct``, the length may be unknown: ``--vf`` or ``--cable`` alone give distances (and the
+    cable its loss per metre); ``--length`` alone is compared with what the sweep finds, and gives a
+    velocity factor estimate.
+    """
+    loss = list(loss or [])
+    view = LineView(inputs=[line, cables])
+    if line or delay or (length and (vf or cable)):
+        the_line, notes = line_from_options(cable=cable, length=length, vf=vf, delay=delay, z0=z0, loss=loss,
+                                            cables_file=cables, line_file=line)
+        source = f"line file {os.path.basename(line)}" if line else "the line options"
+        m, why = rm.from_line(the_line, source=the_line.describe())
+        if m is None:
+            raise OptionError("--line", why + "; describe it as sections (a .toml line file) or give --vf")
+        view.runmap = m
+        view.described_length_m = m.length_m
+        view.notes += notes
+        if not m.has_loss:
+            view.notes.append(f"no loss known from {source}: reflections are shown as seen only")
+        return view
+    if loss:
+        raise OptionError("--loss", "--loss is the whole run's matched loss, so it needs the run's --length (with "
+                                    "--vf or --cable) or --delay; or give --cable for a loss per metre")
+    if z0:
+        view.notes.append("--z0 is not used to look along the line")
+    if length:
+        view.described_length_m = parse_length(length, "--length", allow_zero=False)
+        view.runmap = rm.uniform(None, source=f"length {view.described_length_m:g} m, velocity factor unknown")
+        view.notes.append("velocity factor unknown: distances are shown as one-way delay, and the far end's delay "
+                          "with the given length estimates the velocity factor")
+        return view
+    if cable:
+        c = cables_mod.lookup(cable, cables_mod.catalog(cables), "--cable")
+        v = c.vf if vf is None else _vf(vf)
+        per_m = LossModel.from_k(c.k1, c.k2, 1.0)
+        view.runmap = rm.uniform(v, per_m.c_np, per_m.d_np, source=f"{c.name} (catalog: velocity factor, loss per m)")
+        return view
+    if vf:
+        view.runmap = rm.uniform(_vf(vf), source="the given velocity factor")
+        view.notes.append("no loss known (give --cable, or --length with --loss): reflections are shown as seen only")
+        return view
+    view.notes.append("no velocity factor known (give --vf or --cable): the trace is against one-way delay")
+    return view
+
+
+def _vf(text) -> float:
+    from ..base.units import parse_positive
+
+    return parse_positive(text, "--vf", "velocity factor", upper=1.0)
+
+
+def output_paths(sweep_path: str, out_dir: str) -> dict:
+    stem = stem_of(sweep_path)
+    j = lambda suffix: os.path.join(out_dir, stem + suffix)  # noqa: E731
+    return {"along_json": j(".along.json"), "along_csv": j(".along.csv"), "along_png": j(".along.png"),
+            "gated_s1p": j(".gated.s1p")}
+
+
+def transform(freq_hz, gamma, opts: LocateOptions, source: str = "the sweep"):
+    """(grid, response) for a sweep, or a one-line error naming the file or ``--lowpass``."""
+    grid, why = td.grid_of(freq_hz)
+    if grid is None:
+        raise InputFileError(source, f"cannot be looked at along the line: {why}")
+    if opts.lowpass:
+        ok, why = td.lowpass_check(grid)
+        if not ok:
+            raise OptionError("--lowpass", f"{source}: no low-pass view: {why}; for one, {td.lowpass_hint(grid)}. "
+                                           "Without --lowpass the band-pass view works on this sweep")
+        return grid, td.lowpass(gamma, grid, opts.beta, opts.pad)
+    return grid, td.bandpass(gamma, grid, opts.beta, opts.pad)
+
+
+def _one_way(tau_s, runmap):
+    """Distances (m) of one-way delays, or None when no velocity factor is known."""
+    if runmap is None or not runmap.knows_distance:
+        return None
+    return runmap.distance_m(tau_s)
+
+
+def along(freq_hz, gamma, view: LineView, opts: LocateOptions, source: str = "the sweep") -> tuple[dict, dict]:
+    """The look along the line: (summary, trace). Pure computation; nothing is written."""
+    grid, resp = transform(freq_hz, gamma, opts, source)
+    m = view.runmap
+    found = refl_mod.reflections(resp, grid, m, opts.threshold_db, opts.floor_db, opts.pad, opts.beta)
+    period = td.alias_free_s(grid)
+    width_rt = td.pulse_width_s(grid, opts.beta, resp.mode, opts.pad)
+    shown = resp.t_s < period - 2 * width_rt
+    tau = resp.t_s[shown] / 2
+    dist = _one_way(tau, m)
+    seen = resp.magnitude[shown]
+    trace = {"one_way_delay_s": tau, "distance_m": dist, "seen": seen, "at_point": None,
+             "impulse": None, "step": None, "impedance_ohm": None, "mode": resp.mode}
+    if m is not None and m.has_loss:
+        coarse = np.linspace(0.0, tau[-1], 257)
+        factor = td.two_way_factor(resp.weights, grid.freq_hz, m.loss_np, coarse)
+        trace["at_point"] = seen / np.interp(tau, coarse, factor)
+    if resp.mode == "low-pass":
+        trace["impulse"] = resp.amplitude[shown]
+        step = resp.step[shown]
+        trace["step"] = step
+        with np.errstate(divide="ignore", invalid="ignore"):
+            trace["impedance_ohm"] = np.where(step < 1, 50.0 * (1 + step) / (1 - step), np.inf)
+
+    res_s = td.resolution_s(grid, resp.mode) / 2
+    alias_s = period / 2
+    lp_ok, lp_why = td.lowpass_check(grid)
+    summary = {
+        "sweep": os.path.basename(source),
+        "points": grid.n, "start_hz": grid.start_hz, "stop_hz": grid.stop_hz, "step_hz": grid.step_hz,
+        "mode": resp.mode,
+        "window": {"kind": "kaiser" if opts.beta > 0 else "none", "beta": opts.beta},
+        "padding": opts.pad, "transform_points": int(resp.t_s.size),
+        "line": m.describe() if m is not None else None,
+        "velocity_factor_known": bool(m is not None and m.knows_distance),
+        "resolution_m": _m_at(m, 0.0, res_s),
+        "resolution_ns": res_s * 1e9,
+        "resolution_formula": "v/(2 B), B = stop - start" if resp.mode == "band-pass" else "v/(4 f_stop)",
+        "trace_width_m": _m_at(m, 0.0, width_rt / 2),
+        "trace_width_ns": width_rt / 2 * 1e9,
+        "alias_free_range_m": _m_at(m, 0.0, alias_s),
+        "alias_free_range_ns": alias_s * 1e9,
+        "alias_free_formula": "v/(2 df), df = frequency step",
+        "lowpass_available": lp_ok,
+        "lowpass_why_not": None if lp_ok else f"{lp_why}; for one, {td.lowpass_hint(grid)}",
+        "compensated": found.compensated,
+        "far_end_m": found.length.far_end_m if found.length else None,
+        "far_end_one_way_delay_ns": (found.length.far_end_delay_s * 1e9
+                                     if found.length and found.length.far_end_delay_s is not None else None),
+        "length": found.length.to_dict() if found.length else None,
+        "reflections": [r.to_dict() for r in found.reflections],
+        "threshold_db": opts.threshold_db, "floor_db": opts.floor_db,
+        "notes": list(view.notes) + list(found.notes),
+        "unit": opts.unit,
+    }
+    ln = summary["length"]
+    if ln is not None and view.described_length_m is not None and not summary["velocity_factor_known"] \
+            and ln["far_end_one_way_delay_ns"]:
+        vf_est = refl_mod.vf_from_length(view.described_length_m, ln["far_end_one_way_delay_ns"] * 1e-9)
+        ln["velocity_factor_estimate"] = vf_est
+        ln["described_length_m"] = view.described_length_m
+        ln["verdict"] = (f"with the given length of {view.described_length_m:.1f} m, the far end at "
+                         f"{ln['far_end_one_way_delay_ns']:.1f} ns one way means a velocity factor of {vf_est:.3f} "
+                         f"(+/- {vf_est * res_s / (ln['far_end_one_way_delay_ns'] * 1e-9):.3f} from the resolution)")
+    if opts.resolve:
+        want = parse_length(opts.resolve, "--resolve", allow_zero=False)
+        vf = _vf_for_needs(m)
+        if vf is None:
+            raise OptionError("--resolve", "the sweep needed for a distance depends on the velocity factor; give "
+                                           "--vf or --cable")
+        reach = max(filter(None, [summary["far_end_m"], view.described_length_m]), default=None)
+        summary["sweep_needed"] = refl_mod.sweep_needed(want, vf, 1.5 * reach if reach else None)
+    return summary, trace
+
+
+def _m_at(m, tau_from: float, span_s: float):
+    if m is None or not m.knows_distance:
+        return None
+    a, b = m.distance_m(np.array([tau_from, tau_from + span_s]))
+    return float(b - a)
+
+
+def _vf_for_needs(m):
+    if m is None or not m.knows_distance:
+        return None
+    return float(m.stretches[0].vf)
+
+
+def gate_window(text: str, option: str, m) -> tuple[float, float]:
+    """'2m:40m', '6ft:100ft' or '10ns:200ns' (one way) -> (lo, hi) one-way delays, s."""
+    parts = str(text).split(":")
+    if len(parts) != 2:
+        raise OptionError(option, f"cannot read {text!r}; give the window as FROM:TO, e.g. 0m:3m or 40m:200m "
+                                  "(or one-way delays, 0ns:15ns)")
+    out = []
+    for p in parts:
+        p = p.strip()
+        if p.lower().endswith("s"):
+            out.append(parse_delay(p, option))
+            continue
+        dist = parse_length(p, option)
+        if m is None or not m.knows_distance:
+            raise OptionError(option, f"{p!r} is a distance, but no velocity factor is known; give --vf or --cable, "
+                                      "or the window as one-way delays (e.g. 0ns:15ns)")
+        out.append(float(m.delay_of_distance_s(dist)[0]))
+    lo, hi = out
+    if not hi > lo:
+        raise OptionError(option, f"{text!r}: the window's end must lie beyond its start")
+    return lo, hi
+
+
+def gated_sweep(freq_hz, gamma, view: LineView, opts: LocateOptions, source: str) -> tuple[np.ndarray, dict]:
+    """Gate the sweep (``--keep`` or ``--remove``): the gated reflection and what the gate did."""
+    if opts.keep and opts.remove:
+        raise OptionError("--keep", "give either --keep or --remove, not both")
+    option, text = ("--keep", opts.keep) if opts.keep else ("--remove", opts.remove)
+    grid, why = td.grid_of(freq_hz)
+    if grid is None:
+        raise InputFileError(source, f"cannot be gated: {why}")
+    lo, hi = gate_window(text, option, view.runmap)
+    if 2 * hi > td.alias_free_s(grid):
+        raise OptionError(option, f"{text!r} reaches past the sweep's alias-free range; end the window sooner, "
+                                  "or sweep in smaller steps")
+    res_s = td.resolution_s(grid) / 2
+    g = td.gate(gamma, grid, 2 * lo, 2 * hi, keep=bool(opts.keep), pad=opts.pad)
+    drooped = g.droop_db > 0.1
+    edge = {"droop_max_db": float(np.nanmax(g.droop_db)),
+            "affected_hz": _edge_ranges(grid.freq_hz, drooped)}
+    info = {"action": "keep" if opts.keep else "remove", "window": text,
+            "from_one_way_ns": lo * 1e9, "to_one_way_ns": hi * 1e9,
+            "from_m": _m_at(view.runmap, 0.0, lo), "to_m": _m_at(view.runmap, 0.0, hi),
+            "edge_width_ns": res_s * 1e9, "band_edge": edge}
+    notes = []
+    if hi - max(lo, 0.0) < 2 * res_s:
+        notes.append("the window is narrower than two resolution cells: what it keeps is mostly the window's own shape")
+    info["notes"] = notes
+    info["band_edge_text"] = band_edge_text(edge)
+    return g.gamma, info
+
+
+def _edge_ranges(f, mask) -> list:
+    """[[low, high], ...] frequency ranges where ``mask`` is true (run starts and ends, vectorised)."""
+    if not mask.any():
+        return []
+    d = np.diff(np.concatenate([[0], mask.astype(int), [0]]))
+    starts, ends = np.nonzero(d == 1)[0], np.nonzero(d == -1)[0] - 1
+    return [[float(f[a]), float(f[b])] for a, b in zip(starts, ends)]
+
+
+def band_edge_text(edge: dict) -> str:
+    rng = edge["affected_hz"]
+    if not rng:
+        return "the gate changes no point by more than 0.1 dB before correction: no band-edge effect worth noting"
+    spans = ", ".join(f"{a / 1e6:.6g}-{b / 1e6:.6g} MHz" for a, b in rng)
+    return (f"band edges: the gate's frequency kernel reaches past the sweep at {spans}; a reflection there sagged "
+            f"by up to {edge['droop_max_db']:.1f} dB before it was divided back out, so trust those points less "
+            "(a wider sweep, or a wider window, shrinks that zone)")
+
+
+def locate_file(sweep_path: str, view: LineView, out_dir: str, opts: LocateOptions) -> tuple[dict, dict]:
+    """Read, look along the line, gate if asked, and write. Returns (summary, written paths)."""
+    sweep = read_sweep(sweep_path, port=opts.port, expect_ports=1)
+    paths = output_paths(sweep_path, out_dir)
+    for p in paths.values():
+        check_not_input(p, [sweep_path, *[i for i in view.inputs if i]], "--out")
+    if opts.unit not in ("m", "ft"):
+        raise OptionError("--unit", f"{opts.unit!r}: use m or ft")
+    summary, trace = along(sweep.freq_hz, sweep.gamma, view, opts, sweep_path)
+    gated = None
+    if opts.keep or opts.remove:
+        gated, summary["gate"] = gated_sweep(sweep.freq_hz, sweep.gamma, view, opts, sweep_path)
+        if not np.all(np.isfinite(gated)):
+            raise OptionError("--keep" if opts.keep else "--remove", "the gated sweep is not finite; widen the window")
+    prepare_out_dir(out_dir)
+    written = {}
+    if gated is not None:
+        g = summary["gate"]
+        write_touchstone(paths["gated_s1p"], sweep.freq_hz, gated, comments=[
+            f"deembed: {os.path.basename(sweep_path)} with {g['action']} {g['window']} along the line",
+            g["band_edge_text"], "reference 50 ohm"])
+        written["gated_s1p"] = paths["gated_s1p"]
+    write_trace_csv(trace, paths["along_csv"])
+    written["along_csv"] = paths["along_csv"]
+    if opts.plots:
+        from ..render.along import along_plot, save
+
+        save(along_plot(trace, summary, opts.unit, described_m=view.described_length_m), paths["along_png"])
+        written["along_png"] = paths["along_png"]
+    summary["outputs"] = {k: os.path.basename(v) for k, v in written.items()}
+    summary["outputs"]["along_json"] = os.path.basename(paths["along_json"])
+    write_text_atomic(paths["along_json"], json.dumps(to_jsonable(summary), indent=2, allow_nan=False) + "\n")
+    written["along_json"] = paths["along_json"]
+    return summary, written
+
+
+def write_trace_csv(trace: dict, path: str) -> None:
+    """The trace as CSV: one row per time sample; levels in dB (20 log10 of the magnitude)."""
+    tau = trace["one_way_delay_s"]
+    cols = {"one_way_delay_ns": tau * 1e9}
+    if trace["distance_m"] is not None:
+        cols["distance_m"] = trace["distance_m"]
+        cols["distance_ft"] = trace["distance_m"] * FEET_PER_M
+    with np.errstate(divide="ignore"):
+        cols["seen_db"] = 20 * np.log10(trace["seen"])
+        if trace["at_point"] is not None:
+            cols["at_point_db"] = 20 * np.log10(trace["at_point"])
+    for k in ("impulse", "step", "impedance_ohm"):
+        if trace[k] is not None:
+            cols[k] = trace[k]
+    head = ",".join(cols)
+    data = np.column_stack(list(cols.values()))
+    with atomic_path(path) as tmp:
+        with open(tmp, "w", encoding="utf-8") as fh:
+            fh.write(head + "\n")
+            np.savetxt(fh, data, delimiter=",", fmt="%.9g")

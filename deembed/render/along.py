@@ -1,0 +1,196 @@
+"""The look along the line as text and as a plot.
+
+Plot colours follow the other plots: what the analyzer sees in slate, the reflection at its place
+(line loss taken off) in copper; reflections found are marked with their distance, the far end with a
+filled marker, the described line's end with a dotted line, a gate window as a shaded band.
+Figures are built without pyplot (no global state); nothing calls ``show()``.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..base.units import FEET_PER_M, fmt_freq
+
+SEEN_COLOUR = "#5b6b7a"
+AT_POINT_COLOUR = "#c0582b"
+STEP_COLOUR = "#2f7d6d"
+GRID_COLOUR = "#d9d4cc"
+GATE_COLOUR = "#e8dcc4"
+
+
+def _dist(m, unit: str):
+    if m is None:
+        return None
+    return m * FEET_PER_M if unit == "ft" else m
+
+
+def fmt_dist(m, unit: str = "m", digits: int = 1) -> str:
+    if m is None or (isinstance(m, float) and not math.isfinite(m)):
+        return "n/a"
+    return f"{_dist(m, unit):.{digits}f} {unit}"
+
+
+def _x(trace: dict, unit: str):
+    """The x values and label: distance in the display unit, or one-way delay in ns."""
+    if trace["distance_m"] is not None:
+        return _dist(trace["distance_m"], unit), f"Distance along the line ({unit})"
+    return trace["one_way_delay_s"] * 1e9, "One-way delay along the line (ns)"
+
+
+def _x_of(refl: dict, unit: str, by_distance: bool):
+    return _dist(refl["distance_m"], unit) if by_distance else refl["one_way_delay_ns"]
+
+
+def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float | None = None,
+               other: dict | None = None, labels=("seen at the analyzer", "at its place (line loss taken off)")):
+    """Reflection level along the line (dB), with the reflections marked; low-pass adds the impedance.
+
+    ``other`` is a second trace (same keys) drawn for comparison (a baseline sweep).
+    """
+    from matplotlib.figure import Figure
+
+    lowpass = trace.get("impedance_ohm") is not None
+    fig = Figure(figsize=(9, 6.5 if lowpass else 4.8), layout="constrained")
+    ax = fig.add_subplot(2 if lowpass else 1, 1, 1)
+    x, xlabel = _x(trace, unit)
+    by_distance = trace["distance_m"] is not None
+    with np.errstate(divide="ignore"):
+        seen_db = 20 * np.log10(trace["seen"])
+        at_db = 20 * np.log10(trace["at_point"]) if trace["at_point"] is not None else None
+    if other is not None:
+        ox, _ = _x(other, unit)
+        with np.errstate(divide="ignore"):
+            ax.plot(ox, 20 * np.log10(other["seen"]), color="#9aa7b3", lw=1.3, ls="--", label=labels[1])
+        ax.plot(x, seen_db, color=AT_POINT_COLOUR, lw=1.6, label=labels[0])
+    else:
+        ax.plot(x, seen_db, color=SEEN_COLOUR, lw=1.4, ls="--" if at_db is not None else "-", label=labels[0])
+        if at_db is not None:
+            ax.plot(x, at_db, color=AT_POINT_COLOUR, lw=1.8, label=labels[1])
+    gate = summary.get("gate")
+    if gate:
+        lo = gate["from_m"] if by_distance else gate["from_one_way_ns"]
+        hi = gate["to_m"] if by_distance else gate["to_one_way_ns"]
+        if by_distance:
+            lo, hi = _dist(lo, unit), _dist(hi, unit)
+        ax.axvspan(lo, hi, color=GATE_COLOUR, alpha=0.6, lw=0, label=f"gate: {gate['action']} {gate['window']}")
+    if described_m is not None and by_distance:
+        ax.axvline(_dist(described_m, unit), color="#444444", lw=1.0, ls=":", label="described length")
+    for r in summary.get("reflections", []):
+        xr = _x_of(r, unit, by_distance)
+        if xr is None:
+            continue
+        yr = -r["return_loss_db"] if (other is not None or r["return_loss_at_point_db"] is None) \
+            else -r["return_loss_at_point_db"]
+        ax.plot([xr], [yr], marker="v", ms=8 if r["far_end"] else 6, color="#222222",
+                mfc="#222222" if r["far_end"] else "white", ls="none")
+        text = (fmt_dist(r["distance_m"], unit) if by_distance else f"{r['one_way_delay_ns']:.1f} ns")
+        if r["far_end"]:
+            text += " far end"
+        ax.annotate(text, (xr, yr), textcoords="offset points", xytext=(0, 7), ha="center", fontsize=8)
+    finite = seen_db[np.isfinite(seen_db)]
+    top = 3.0
+    bottom = max(float(np.min(finite)) if finite.size else -80.0, -80.0)
+    if summary.get("reflections"):
+        weakest = min(-(r["return_loss_at_point_db"] or r["return_loss_db"]) for r in summary["reflections"])
+        bottom = max(min(bottom, weakest - 15), -90.0)
+    ax.set_ylim(bottom, top)
+    ax.set_xlim(float(x[0]), float(x[-1]))
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel("Reflection (dB, 0 = total)")
+    mode = summary.get("mode", "band-pass")
+    ax.set_title(f"Along the line ({mode}, {fmt_freq(summary['start_hz'])} to {fmt_freq(summary['stop_hz'])}, "
+                 f"resolution {fmt_res(summary, unit)})", fontsize=10)
+    ax.grid(True, color=GRID_COLOUR, lw=0.6)
+    ax.legend(loc="upper right", fontsize=8)
+    if lowpass:
+        ax2 = fig.add_subplot(2, 1, 2, sharex=ax)
+        z = np.clip(trace["impedance_ohm"], 0, 500)
+        ax2.plot(x, z, color=STEP_COLOUR, lw=1.6, label="impedance along the line (from the step response)")
+        ax2.axhline(50, color="#8a8a8a", lw=0.8, ls=":")
+        ax2.set_ylim(0, min(max(150.0, float(np.nanpercentile(z, 99)) * 1.1), 500.0))
+        ax2.set_xlabel(xlabel)
+        ax2.set_ylabel("Ohms (seen through the line)")
+        ax2.grid(True, color=GRID_COLOUR, lw=0.6)
+        ax2.legend(loc="upper right", fontsize=8)
+    return fig
+
+
+def fmt_res(summary: dict, unit: str = "m") -> str:
+    if summary.get("resolution_m") is not None:
+        return fmt_dist(summary["resolution_m"], unit, 2)
+    return f"{summary['resolution_ns']:.2f} ns"
+
+
+def save(fig, path, dpi: int = 110) -> None:
+    from ..io.atomic import atomic_path
+
+    with atomic_path(path) as tmp:
+        fig.savefig(tmp, dpi=dpi, format="png")
+
+
+def locate_text(summary: dict, out_dir: str | None = None) -> str:
+    """The terminal view of ``deembed locate``."""
+    u = summary.get("unit", "m")
+    by_distance = summary.get("velocity_factor_known")
+    lines = [f"Along the line: {summary['sweep']}, {fmt_freq(summary['start_hz'])} to {fmt_freq(summary['stop_hz'])}, "
+             f"{summary['points']} points in steps of {fmt_freq(summary['step_hz'])}",
+             f"  {summary['mode']} transform, window "
+             + (f"Kaiser beta {summary['window']['beta']:g}" if summary['window']['kind'] == "kaiser" else "none")
+             + f", padded {summary['padding']}x"]
+    if summary.get("line"):
+        lines.append(f"  line: {summary['line']}")
+    if by_distance:
+        lines.append(f"  range resolution  {fmt_dist(summary['resolution_m'], u, 2)}  ({summary['resolution_formula']}; "
+                     f"the window widens each reflection to {fmt_dist(summary['trace_width_m'], u, 2)} at half height)")
+        lines.append(f"  alias-free range  {fmt_dist(summary['alias_free_range_m'], u, 0)}  "
+                     f"({summary['alias_free_formula']})")
+    else:
+        lines.append(f"  range resolution  {summary['resolution_ns']:.2f} ns one way  (1/(2 B) one way; "
+                     f"{summary['trace_width_ns']:.2f} ns wide at half height with the window)")
+        lines.append(f"  alias-free range  {summary['alias_free_range_ns']:.0f} ns one way  (1/(2 df))")
+    if summary["mode"] == "band-pass":
+        lines.append("  low-pass view: " + ("available (--lowpass)" if summary["lowpass_available"]
+                                            else "not for this sweep: " + summary["lowpass_why_not"]))
+    refl = summary["reflections"]
+    lines.append("")
+    if not refl:
+        lines.append("  No reflections above the threshold.")
+    else:
+        lines.append(f"  Reflections (down to {summary['threshold_db']:g} dB below the strongest"
+                     + (f", seen return loss at most {summary['floor_db']:g} dB" if summary.get("floor_db") else "")
+                     + "):")
+        head = f"    {'where':>12}  {'seen RL':>8}  {'RL at point':>11}  {'width':>9}"
+        lines.append(head)
+        for r in refl:
+            where = fmt_dist(r["distance_m"], u) if by_distance else f"{r['one_way_delay_ns']:.1f} ns"
+            width = fmt_dist(r["width_m"], u, 2) if by_distance else f"{r['width_ns']:.1f} ns"
+            at = f"{r['return_loss_at_point_db']:.1f} dB" if r["return_loss_at_point_db"] is not None else "n/a"
+            sign = {1: " (+)", -1: " (-)"}.get(r.get("sign") or 0, "")
+            lines.append(f"    {where:>12}  {r['return_loss_db']:>5.1f} dB  {at:>11}  {width:>9}  "
+                         f"{r['kind']}{sign}".rstrip())
+        if summary["mode"] == "low-pass":
+            lines.append("    (+) toward higher impedance / open, (-) toward lower impedance / short")
+    ln = summary.get("length")
+    if ln and ln.get("verdict"):
+        lines.append("")
+        lines.append("  Line length: " + ln["verdict"])
+    need = summary.get("sweep_needed")
+    if need:
+        s = (f"  To resolve {fmt_dist(need['resolve_m'], u, 2)}: a sweep at least {fmt_freq(need['span_hz'])} wide "
+             f"(band-pass), or from near 0 Hz to {fmt_freq(need['lowpass_stop_hz'])} (low-pass)")
+        if need.get("max_step_hz"):
+            s += f"; to reach {fmt_dist(need['reach_m'], u, 0)} without aliasing, steps of at most {fmt_freq(need['max_step_hz'])}"
+        lines.append(s)
+    gate = summary.get("gate")
+    if gate:
+        lines.append("")
+        lines.append(f"  Gate: {gate['action']} {gate['window']} -> {summary['outputs'].get('gated_s1p', '')}")
+        lines.append("    " + gate["band_edge_text"])
+        lines += ["    " + n for n in gate.get("notes", [])]
+    for n in summary.get("notes", []):
+        lines.append("  note: " + n)
+    if out_dir:
+        lines.append(f"\nWritten to {out_dir}: " + ", ".join(sorted(summary.get("outputs", {}).values())))
+    return "\n".join(lines)
