@@ -75,6 +75,7 @@ class LengthEstimate:
     described_m: float | None = None
     described_delay_s: float | None = None
     vf_estimate: float | None = None
+    agrees: bool | None = None
     verdict: str = ""
 
     def to_dict(self) -> dict:
@@ -85,6 +86,7 @@ class LengthEstimate:
             "described_length_m": self.described_m,
             "described_one_way_delay_ns": None if self.described_delay_s is None else self.described_delay_s * 1e9,
             "velocity_factor_estimate": self.vf_estimate,
+            "agrees_with_description": self.agrees,
             "verdict": self.verdict,
         }
 
@@ -252,6 +254,7 @@ def length_estimate(refl, grid: td.Grid, mode: str, runmap=None) -> LengthEstima
     if est.far_end_m is not None and est.described_m is not None:
         diff = est.far_end_m - est.described_m
         agree = abs(diff) <= res_m
+        est.agrees = bool(agree)
         est.verdict = (f"the description says {est.described_m:.1f} m; the sweep puts the far end at "
                        f"{est.far_end_m:.1f} m (resolution {res_m:.2f} m): "
                        + ("they agree within the resolution" if agree else
@@ -260,6 +263,7 @@ def length_estimate(refl, grid: td.Grid, mode: str, runmap=None) -> LengthEstima
     elif est.described_delay_s is not None:
         diff = fe.delay_s - est.described_delay_s
         agree = abs(diff) <= res_s
+        est.agrees = bool(agree)
         est.verdict = (f"the description says {est.described_delay_s * 1e9:.1f} ns one way; the sweep puts the far end "
                        f"at {fe.delay_s * 1e9:.1f} ns (resolution {res_s * 1e9:.2f} ns): "
                        + ("they agree within the resolution" if agree else "they differ by more than the resolution"))
@@ -286,3 +290,31 @@ def sweep_needed(resolve_m: float, vf: float, reach_m: float | None, mode: str =
         out["reach_m"] = reach_m
         out["max_step_hz"] = td.step_for_range_hz(2 * reach_m / v)
     return out
+
+
+RESOLVE_FRACTION = 5      # a sweep "resolves the line" when its resolution is a fifth of the line or finer
+REACH_MARGIN = 1.5        # ... and its alias-free range reaches 1.5 times the line's length
+
+
+def resolves_line(grid: td.Grid, delay_s: float | None, vf: float | None = None,
+                  length_m: float | None = None) -> tuple[bool, str]:
+    """Whether a sweep can show where along a line of one-way ``delay_s`` reflections sit, and if not, a
+    one-line statement of the sweep that would (our criterion: resolution at most a fifth of the line,
+    alias-free range at least 1.5 times it; common practice, no source)."""
+    if not delay_s or delay_s <= 0:
+        return False, "the line's delay is unknown, so whether this sweep resolves it cannot be said"
+    res = td.resolution_s(grid) / 2
+    reach = td.alias_free_s(grid) / 2
+    ok = res <= delay_s / RESOLVE_FRACTION and reach >= REACH_MARGIN * delay_s
+    need_span = td.span_for_resolution_hz(2 * delay_s / RESOLVE_FRACTION)
+    need_step = td.step_for_range_hz(2 * REACH_MARGIN * delay_s)
+    if length_m is not None:
+        scale = length_m / delay_s
+        where = f"{res * scale:.2f} m resolution over a {length_m:.1f} m line"
+    else:
+        where = f"{res * 1e9:.1f} ns resolution over a {delay_s * 1e9:.1f} ns line"
+    if ok:
+        return True, f"this sweep resolves the line ({where})"
+    return False, (f"this sweep ({grid.start_hz / 1e6:.6g} to {grid.stop_hz / 1e6:.6g} MHz) is too narrow to show where "
+                   f"along the line reflections sit ({where}); a sweep at least {need_span / 1e6:.3g} MHz wide "
+                   f"in steps of at most {need_step / 1e3:.4g} kHz would (see deembed locate)")

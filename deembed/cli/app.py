@@ -16,6 +16,7 @@ from .characterize import characterize_command
 from .compare import compare_command
 from .correct import correct_command
 from .demo import demo_command
+from .locate import locate_command
 from .site import site_command
 from ..render.safety import safety_line
 
@@ -39,6 +40,7 @@ app.command("demo")(demo_command)
 app.command("characterize")(characterize_command)
 app.command("compare")(compare_command)
 app.command("site")(site_command)
+app.command("locate")(locate_command)
 
 
 def main(argv=None) -> int:

@@ -9,6 +9,8 @@ from . import correct as workflow
 from .compare import compare_files
 from .samples import write_samples
 from .site import run_site
+from .locate import LocateOptions, line_view, locate_file
+from ..render.along import locate_text
 
 
 def sample_folder(out_dir: str) -> str:
@@ -55,6 +57,13 @@ def run_demo(out_dir: str, echo=print) -> dict:
                             inputs=[s("vertical-2m.line.toml")], title=f"2 m vertical: {name} against its baseline")
         echo(compare_text(res) + "\n")
         results["compare"][name] = res
+
+    echo("== Along the line: a wide sweep (0.1 to 60 MHz) of the 30 m ground-plane's feed ==")
+    folder = os.path.join(out_dir, "along")
+    view = line_view(line=s("groundplane-30m.line.toml"))
+    summary, _ = locate_file(s("groundplane-30m-wide.s1p"), view, folder, LocateOptions(lowpass=True))
+    echo(locate_text(summary, folder) + "\n")
+    results["along"] = summary
 
     echo("== The whole site, every feed against its baseline (site file) ==")
 

@@ -204,6 +204,11 @@ def along(freq_hz, gamma, view: LineView, opts: LocateOptions, source: str = "th
         ln["verdict"] = (f"with the given length of {view.described_length_m:.1f} m, the far end at "
                          f"{ln['far_end_one_way_delay_ns']:.1f} ns one way means a velocity factor of {vf_est:.3f} "
                          f"(+/- {vf_est * res_s / (ln['far_end_one_way_delay_ns'] * 1e-9):.3f} from the resolution)")
+    if m is not None and m.delay_s:
+        ok, text = refl_mod.resolves_line(grid, m.delay_s, length_m=m.length_m)
+        summary["resolves_line"] = ok
+        if not ok:
+            summary["notes"].append(text)
     if opts.resolve:
         want = parse_length(opts.resolve, "--resolve", allow_zero=False)
         vf = _vf_for_needs(m)
@@ -264,10 +269,8 @@ def gated_sweep(freq_hz, gamma, view: LineView, opts: LocateOptions, source: str
         raise OptionError(option, f"{text!r} reaches past the sweep's alias-free range; end the window sooner, "
                                   "or sweep in smaller steps")
     res_s = td.resolution_s(grid) / 2
-    g = td.gate(gamma, grid, 2 * lo, 2 * hi, keep=bool(opts.keep), pad=opts.pad)
-    drooped = g.droop_db > 0.1
-    edge = {"droop_max_db": float(np.nanmax(g.droop_db)),
-            "affected_hz": _edge_ranges(grid.freq_hz, drooped)}
+    g = td.gate(gamma, grid, 2 * lo, 2 * hi, keep=bool(opts.keep), beta=opts.beta, pad=opts.pad)
+    edge = band_edges(grid.freq_hz, g.droop_db)
     info = {"action": "keep" if opts.keep else "remove", "window": text,
             "from_one_way_ns": lo * 1e9, "to_one_way_ns": hi * 1e9,
             "from_m": _m_at(view.runmap, 0.0, lo), "to_m": _m_at(view.runmap, 0.0, hi),
@@ -280,23 +283,40 @@ def gated_sweep(freq_hz, gamma, view: LineView, opts: LocateOptions, source: str
     return g.gamma, info
 
 
-def _edge_ranges(f, mask) -> list:
-    """[[low, high], ...] frequency ranges where ``mask`` is true (run starts and ends, vectorised)."""
-    if not mask.any():
-        return []
-    d = np.diff(np.concatenate([[0], mask.astype(int), [0]]))
-    starts, ends = np.nonzero(d == 1)[0], np.nonzero(d == -1)[0] - 1
-    return [[float(f[a]), float(f[b])] for a, b in zip(starts, ends)]
+EDGE_DB = 20.0  # a point is in the band-edge zone when window and gate take off more than this (errors x10)
+
+
+def band_edges(f, droop_db) -> dict:
+    """The zones at each band edge where window and gate take off more than :data:`EDGE_DB`, and the
+    most they take off between those zones.
+
+    From each edge inward, the zone ends at the last point (in that half of the band) that the gate
+    alone sags by more than :data:`EDGE_DB`.
+    """
+    d = np.nan_to_num(np.asarray(droop_db, dtype=float), nan=np.inf)
+    n = d.size
+    half = n // 2
+    low_hits = np.nonzero(d[:half] > EDGE_DB)[0]
+    high_hits = np.nonzero(d[half:] > EDGE_DB)[0] + half
+    lo_end = int(low_hits[-1]) if low_hits.size else -1
+    hi_start = int(high_hits[0]) if high_hits.size else n
+    inner = d[lo_end + 1:hi_start]
+    return {"low_zone_hz": [float(f[0]), float(f[lo_end])] if lo_end >= 0 else None,
+            "high_zone_hz": [float(f[hi_start]), float(f[-1])] if hi_start < n else None,
+            "droop_max_db": float(np.max(d[np.isfinite(d)])) if np.isfinite(d).any() else None,
+            "inside_max_db": float(np.max(np.abs(inner))) if inner.size else None}
 
 
 def band_edge_text(edge: dict) -> str:
-    rng = edge["affected_hz"]
-    if not rng:
-        return "the gate changes no point by more than 0.1 dB before correction: no band-edge effect worth noting"
-    spans = ", ".join(f"{a / 1e6:.6g}-{b / 1e6:.6g} MHz" for a, b in rng)
-    return (f"band edges: the gate's frequency kernel reaches past the sweep at {spans}; a reflection there sagged "
-            f"by up to {edge['droop_max_db']:.1f} dB before it was divided back out, so trust those points less "
-            "(a wider sweep, or a wider window, shrinks that zone)")
+    zones = [z for z in (edge["low_zone_hz"], edge["high_zone_hz"]) if z]
+    tail = ""
+    if not zones:
+        return f"band edges: window and gate take off less than {EDGE_DB:g} dB anywhere" + tail
+    spans = " and ".join(f"{a / 1e6:.6g}-{b / 1e6:.6g} MHz" for a, b in zones)
+    return (f"band edges: at {spans} the window's taper and the gate's frequency kernel (which reaches past the "
+            f"sweep) take off more than {EDGE_DB:g} dB, up to {edge['droop_max_db']:.0f} dB at the very edge; it is "
+            "divided back out, which multiplies errors and noise there as much, so do not rely on those points "
+            "(a wider sweep, or a lower --kaiser-beta, narrows the zone)" + tail)
 
 
 def locate_file(sweep_path: str, view: LineView, out_dir: str, opts: LocateOptions) -> tuple[dict, dict]:

@@ -15,6 +15,7 @@ import numpy as np
 from ..physics import rf
 from ..physics.deembedding import embed_gamma
 from ..io.cables import catalog
+from ..physics.joint import Joint
 from ..physics.line import Line
 from ..io.atomic import write_text_atomic
 from ..io.touchstone import write_touchstone
@@ -145,6 +146,42 @@ def far_end_standards(rng=None) -> dict:
     return out
 
 
+WIDE_LINE_TOML = """\
+# Ridgeback Hill, 30 m (10 MHz) ground-plane feed (an invented station for the deembed demo).
+# As the station's records describe it: the joint part-way up is not in the description.
+name = "30 m ground-plane feed"
+
+[[section]]
+label = "analyzer jumper"
+cable = "rg58"
+length = "2m"
+
+[[section]]
+label = "tower run"
+cable = "rg213"
+length = "40m"
+"""
+
+
+def wide_run():
+    """The 30 m ground-plane's feed as it really is: the described jumper and tower run, but with a barrel
+    joint 26 m up the tower run (28 m from the analyzer) that has taken in water: 3 ohm of contact
+    resistance in series and 25 pF across the line (invented figures)."""
+    cat = catalog()
+    return Line((cat["rg58"].section(2.0, "analyzer jumper"), cat["rg213"].section(26.0, "tower run, below the joint"),
+                 Joint(series_r_ohm=3.0, shunt_c_f=25e-12, label="wet barrel joint"),
+                 cat["rg213"].section(14.0, "tower run, above the joint")), name="30 m ground-plane feed (as built)")
+
+
+def wide_sweep(rng=None):
+    """A wide sweep (0.1 to 60 MHz in 100 kHz steps, every point a multiple of the step) of the 30 m
+    ground-plane through :func:`wide_run`: for ``deembed locate``. Returns (freq_hz, gamma)."""
+    rng = rng or np.random.default_rng(SEED + 2)
+    f = np.arange(1, 601) * 100e3
+    g_ant = rf.gamma_from_z(series_antenna_z(f, 10.12e6, 36.0, 6.0, 1.0))
+    return f, _noisy(embed_gamma(g_ant, wide_run().s_params(f)), rng)
+
+
 def write_samples(folder: str) -> list[str]:
     """Write the station's sweeps and line descriptions into ``folder``; returns the paths."""
 
@@ -160,10 +197,16 @@ def write_samples(folder: str) -> list[str]:
         p = os.path.join(folder, f"dipole-40m-far-{name}.s1p")
         write_touchstone(p, f, g, comments=head + [f"{name} at the far end of the 40 m dipole's line"])
         written.append(p)
+    f, g = wide_sweep()
+    p = os.path.join(folder, "groundplane-30m-wide.s1p")
+    write_touchstone(p, f, g, comments=head + ["wide sweep at the analyzer end: 30 m ground-plane, 0.1-60 MHz",
+                                               "(a wet barrel joint part-way up the tower run)"])
+    written.append(p)
     p = os.path.join(folder, "dipole-40m.line.toml")
     write_text_atomic(p, DIPOLE_LINE_TOML)
     written.append(p)
-    for name, text in (("vertical-2m.line.toml", VERTICAL_LINE_TOML), ("ridgeback-hill.site.toml", SITE_TOML)):
+    for name, text in (("vertical-2m.line.toml", VERTICAL_LINE_TOML), ("ridgeback-hill.site.toml", SITE_TOML),
+                       ("groundplane-30m.line.toml", WIDE_LINE_TOML)):
         p = os.path.join(folder, name)
         write_text_atomic(p, text)
         written.append(p)

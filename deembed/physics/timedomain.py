@@ -175,7 +175,7 @@ def lowpass(gamma, grid: Grid, beta: float = DEFAULT_KAISER_BETA, pad: int = DEF
 
     The spectrum from 0 Hz to the top is completed below the sweep by a quadratic fit to its first
     six points (real and imaginary parts apart; the 0 Hz value is made real, as it is for any passive
-    one-port), weighted by the right half of a Kaiser window (1 at 0 Hz) and mirrored:
+    one-port, and at most 1 in size), weighted by the right half of a Kaiser window (1 at 0 Hz) and mirrored:
     ``h(t) = [w_0 G_0 + 2 Re sum_k w_k G_k exp(j 2 pi k df t)] / (w_0 + 2 sum_k w_k)``.
     The step response is the running sum of the unscaled impulse; it starts at the negative-time
     tail, so a reflection right at the analyzer is counted whole.
@@ -189,7 +189,7 @@ def lowpass(gamma, grid: Grid, beta: float = DEFAULT_KAISER_BETA, pad: int = DEF
         fit_im = np.polyfit(k, g[: k.size].imag, 2)
         below = np.arange(missing)
         filled = np.polyval(fit_re, below) + 1j * np.polyval(fit_im, below)
-        filled[0] = filled[0].real
+        filled[0] = np.clip(filled[0].real, -1.0, 1.0)  # passive: real, |Gamma(0)| <= 1
         g = np.concatenate([filled, g])
         notes.append(f"the {missing} point(s) below the sweep, 0 Hz included, are extrapolated "
                      f"(0 Hz reflection taken as {filled[0].real:+.3f})")
@@ -267,24 +267,26 @@ class Gated:
     Attributes
     ----------
     gamma : (N,) the sweep with only the kept part of the line (or without the removed part)
-    droop_db : (N,) how much the gate alone takes off a reflection in the middle of the kept window, dB,
-        before it is divided back out: near 0 inside the band, rising toward the band edges where the
-        gate's frequency kernel reaches past the sweep
+    droop_db : (N,) how much window and gate together take off a reflection in the middle of the kept
+        window, dB, before it is divided back out: small in the middle of the band, large toward the
+        band edges (where the window tapers and the gate's frequency kernel reaches past the sweep),
+        so errors and noise there are multiplied by ``10**(droop_db/20)``
     """
 
     gamma: np.ndarray
     droop_db: np.ndarray
 
 
-def gate(gamma, grid: Grid, lo_s: float, hi_s: float, keep: bool = True, edge_s: float | None = None,
-         pad: int = DEFAULT_PAD) -> Gated:
+def gate(gamma, grid: Grid, lo_s: float, hi_s: float, keep: bool = True, beta: float = DEFAULT_KAISER_BETA,
+         edge_s: float | None = None, pad: int = DEFAULT_PAD) -> Gated:
     """Keep (or remove) the part of the response between round-trip times ``lo_s`` and ``hi_s``.
 
-    The unwindowed band-pass response is multiplied by a :func:`soft_box` gate and transformed back
-    to the sweep's own frequencies. Multiplying in time is a convolution in frequency, so near the
-    band edges the gate's kernel reaches past the sweep, where there is no data, and the result sags.
-    That sag is measured on a flat reflection placed at the middle of the window and divided out
-    (``droop_db`` reports it). Removing a window subtracts the kept part from the sweep.
+    The windowed band-pass response (low side lobes, so the gate's edges cut little of any reflection
+    outside it) is multiplied by a :func:`soft_box` gate (edges ``1/B`` wide unless ``edge_s`` is given)
+    and transformed back to the sweep's own frequencies. Window and gate together shape the spectrum
+    (the window tapers it; the gate, a convolution in frequency, reaches past the band edges where there
+    is no data); that shape is measured on a flat reflection at the middle of the window and divided
+    out, and ``droop_db`` reports it. Removing a window subtracts the kept part from the sweep.
     A window that starts at or before 0 also takes the response's negative-time tail (the part of a
     reflection at the analyzer that the transform wraps to the end of the period).
     """
@@ -297,13 +299,14 @@ def gate(gamma, grid: Grid, lo_s: float, hi_s: float, keep: bool = True, edge_s:
     signed = np.where(t > period - guard, t - period, t)
     lo = -period if lo_s <= 0 else lo_s
     box = soft_box(signed, lo, hi_s, edge)
-    kept = np.fft.fft(np.fft.ifft(g, n=m) * box)[: grid.n]
+    w = kaiser(grid.n, beta)
+    kept = np.fft.fft(np.fft.ifft(g * w, n=m) * box)[: grid.n]
     centre = 0.5 * (max(lo_s, 0.0) + hi_s)
     ref = np.exp(-2j * np.pi * grid.freq_hz * centre)
-    ref_kept = np.fft.fft(np.fft.ifft(ref, n=m) * box)[: grid.n] / ref
+    shape = np.fft.fft(np.fft.ifft(ref * w, n=m) * box)[: grid.n] / ref
     with np.errstate(divide="ignore", invalid="ignore"):
-        kept = kept / ref_kept
-        droop = -20 * np.log10(np.abs(ref_kept))
+        kept = kept / shape
+        droop = -20 * np.log10(np.abs(shape))
     out = kept if keep else g - kept
     return Gated(out, droop)
 

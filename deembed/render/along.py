@@ -77,7 +77,8 @@ def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float |
         ax.axvspan(lo, hi, color=GATE_COLOUR, alpha=0.6, lw=0, label=f"gate: {gate['action']} {gate['window']}")
     if described_m is not None and by_distance:
         ax.axvline(_dist(described_m, unit), color="#444444", lw=1.0, ls=":", label="described length")
-    for r in summary.get("reflections", []):
+    past_far_end = False
+    for k, r in enumerate(summary.get("reflections", [])):
         xr = _x_of(r, unit, by_distance)
         if xr is None:
             continue
@@ -85,10 +86,14 @@ def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float |
             else -r["return_loss_at_point_db"]
         ax.plot([xr], [yr], marker="v", ms=8 if r["far_end"] else 6, color="#222222",
                 mfc="#222222" if r["far_end"] else "white", ls="none")
+        if past_far_end:  # echoes: marked, not labelled
+            continue
         text = (fmt_dist(r["distance_m"], unit) if by_distance else f"{r['one_way_delay_ns']:.1f} ns")
         if r["far_end"]:
-            text += " far end"
-        ax.annotate(text, (xr, yr), textcoords="offset points", xytext=(0, 7), ha="center", fontsize=8)
+            text += " (far end)"
+            past_far_end = True
+        ax.annotate(text, (xr, yr), textcoords="offset points", xytext=(0, 7 + 11 * (k % 2)), ha="center",
+                    fontsize=8)
     finite = seen_db[np.isfinite(seen_db)]
     top = 3.0
     bottom = max(float(np.min(finite)) if finite.size else -80.0, -80.0)
@@ -96,14 +101,14 @@ def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float |
         weakest = min(-(r["return_loss_at_point_db"] or r["return_loss_db"]) for r in summary["reflections"])
         bottom = max(min(bottom, weakest - 15), -90.0)
     ax.set_ylim(bottom, top)
-    ax.set_xlim(float(x[0]), float(x[-1]))
+    ax.set_xlim(float(x[0]), view_end(x, trace, summary, unit, described_m))
     ax.set_xlabel(xlabel)
     ax.set_ylabel("Reflection (dB, 0 = total)")
     mode = summary.get("mode", "band-pass")
     ax.set_title(f"Along the line ({mode}, {fmt_freq(summary['start_hz'])} to {fmt_freq(summary['stop_hz'])}, "
                  f"resolution {fmt_res(summary, unit)})", fontsize=10)
     ax.grid(True, color=GRID_COLOUR, lw=0.6)
-    ax.legend(loc="upper right", fontsize=8)
+    ax.legend(loc="best", fontsize=8)
     if lowpass:
         ax2 = fig.add_subplot(2, 1, 2, sharex=ax)
         z = np.clip(trace["impedance_ohm"], 0, 500)
@@ -117,6 +122,25 @@ def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float |
     return fig
 
 
+def view_end(x, trace: dict, summary: dict, unit: str, described_m=None) -> float:
+    """Right end of the plot: 1.6 times the farther of the far end and the described length (at least ten
+    trace widths), within the alias-free range; the CSV keeps the whole range."""
+    by_distance = trace["distance_m"] is not None
+    marks = [summary.get("far_end_m") if by_distance else summary.get("far_end_one_way_delay_ns")]
+    if by_distance and described_m:
+        marks.append(described_m)
+    marks = [m for m in marks if m]
+    width = summary.get("trace_width_m") if by_distance else summary.get("trace_width_ns")
+    if not marks:
+        return float(x[-1])
+    far = 1.6 * max(marks)
+    if width:
+        far = max(far, 10 * width)
+    if by_distance:
+        far = _dist(far, unit)
+    return float(min(far, x[-1]))
+
+
 def fmt_res(summary: dict, unit: str = "m") -> str:
     if summary.get("resolution_m") is not None:
         return fmt_dist(summary["resolution_m"], unit, 2)
@@ -128,6 +152,22 @@ def save(fig, path, dpi: int = 110) -> None:
 
     with atomic_path(path) as tmp:
         fig.savefig(tmp, dpi=dpi, format="png")
+
+
+def length_text(ln: dict, unit: str = "m") -> str:
+    """The length verdict in the display unit (the JSON keeps metres)."""
+    fe, desc, res = ln.get("far_end_m"), ln.get("described_length_m"), ln.get("resolution_m")
+    if fe is None or ln.get("velocity_factor_estimate") is not None:
+        return ln["verdict"]
+    if desc is None:
+        return f"the sweep puts the far end at {fmt_dist(fe, unit)} (resolution {fmt_dist(res, unit, 2)})"
+    head = (f"the description says {fmt_dist(desc, unit)}; the sweep puts the far end at {fmt_dist(fe, unit)} "
+            f"(resolution {fmt_dist(res, unit, 2)}): ")
+    if ln.get("agrees_with_description"):
+        return head + "they agree within the resolution"
+    diff = fe - desc
+    return head + (f"{fmt_dist(abs(diff), unit)} {'longer' if diff > 0 else 'shorter'} than described, more than the "
+                   "resolution: check the length, the velocity factor, or what is at the end")
 
 
 def locate_text(summary: dict, out_dir: str | None = None) -> str:
@@ -175,7 +215,7 @@ def locate_text(summary: dict, out_dir: str | None = None) -> str:
     ln = summary.get("length")
     if ln and ln.get("verdict"):
         lines.append("")
-        lines.append("  Line length: " + ln["verdict"])
+        lines.append("  Line length: " + length_text(ln, u))
     need = summary.get("sweep_needed")
     if need:
         s = (f"  To resolve {fmt_dist(need['resolve_m'], u, 2)}: a sweep at least {fmt_freq(need['span_hz'])} wide "

@@ -1,0 +1,333 @@
+"""Looking along the line (`deembed locate`): transforms, reflections, loss compensation, gating.
+
+The sweeps these tests look at are built with scikit-rf's own line model (``DistributedCircuit``
+cascades, loads from scikit-rf), so neither the data nor the reference transform goes through the
+project's line code. Sources are named beside each check.
+"""
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+from deembed.analysis import reflections as refl
+from deembed.physics import runmap as rm
+from deembed.physics import timedomain as td
+from deembed.physics.line import Line, LossModel, Section
+
+C0 = 299_792_458.0
+ROOT = __import__("pathlib").Path(__file__).resolve().parents[1]
+SAMPLES = ROOT / "sample_sweeps"
+
+
+# --- sweeps built with scikit-rf ------------------------------------------------------------------------
+
+def skrf_run(freq_hz, sections, load):
+    """S11 at the analyzer of scikit-rf DistributedCircuit sections [(z0, vf, length_m, k_np_per_m_sqrtHz)]
+    ending in ``load`` ('open', 'short', 'match' or a complex Gamma). Loss: R' = 2 Z0 k sqrt(f) per metre,
+    so the matched loss is k sqrt(f) Np per metre (Pozar 4th ed. sec. 2.7, alpha_c = R/2Z0)."""
+    import skrf
+
+    fr = skrf.Frequency.from_f(freq_hz, unit="hz")
+    net = None
+    for z0, vf, length, k in sections:
+        v = vf * C0
+        med = skrf.media.DistributedCircuit(fr, C=1 / (z0 * v), L=z0 / v, R=2 * z0 * k * np.sqrt(freq_hz), G=0,
+                                            z0_port=50)
+        seg = med.line(length, unit="m")
+        net = seg if net is None else net ** seg
+    port = skrf.media.DefinedGammaZ0(fr, z0=50)
+    term = {"open": port.open(), "short": port.short(), "match": port.match()}.get(load) if isinstance(load, str) \
+        else port.load(load)
+    return (net ** term).s[:, 0, 0], net
+
+
+def runmap_of(sections):
+    """The same sections as the project's run map (what a line description would give)."""
+    parts = tuple(Section.from_length(z0, vf, length, LossModel(k * length, 0.0)) for z0, vf, length, k in sections)
+    m, why = rm.from_line(Line(parts))
+    assert m is not None, why
+    return m
+
+
+F_WIDE = np.arange(1, 601) * 100e3        # 0.1 to 60 MHz in 100 kHz steps (harmonic grid)
+K_RG213 = 0.6 / 8.686 / 30 / np.sqrt(30e6)  # about 0.6 dB per 30 m at 30 MHz: an RG-213-like loss, invented
+
+
+# --- formulas against hand values ------------------------------------------------------------------------
+
+@pytest.mark.parametrize("n, f1, f2, d_max, res_bp, res_lp", [
+    # check-values E11 [D], from F21 (T = 1/df, D_max = VF c/(2 df)) and F22 (band-pass VF c/(2 span),
+    # low-pass VF c/(4 f_max)); DFT sampling and resolution: Oppenheim & Schafer, Discrete-Time Signal
+    # Processing, 3rd ed., sec. 8.1 and 10.2 (from memory).
+    (1001, 1e6, 30e6, 3411.4, 3.411, 1.649),
+    (1001, 0.1e6, 60e6, 1651.6, 1.652, 0.824),
+    (1001, 1e6, 1001e6, 98.93, 0.0989, 0.0494),
+])
+def test_resolution_and_alias_free_range_against_hand_values(n, f1, f2, d_max, res_bp, res_lp):
+    grid, why = td.grid_of(np.linspace(f1, f2, n))
+    assert grid is not None, why
+    v = 0.66 * C0
+    assert v * td.alias_free_s(grid) / 2 == pytest.approx(d_max, rel=2e-4)
+    assert v * td.resolution_s(grid, "band-pass") / 2 == pytest.approx(res_bp, rel=2e-3)
+    assert v * td.resolution_s(grid, "low-pass") / 2 == pytest.approx(res_lp, rel=2e-3)
+
+
+def test_distance_of_a_round_trip_delay_hand_value():
+    # check-values E11 [D] / F20: a fault at 30.00 m with VF 0.66 is 303.240 ns round trip (d = VF c t / 2)
+    m = rm.uniform(0.66)
+    assert m.distance_m(np.array([303.240e-9 / 2]))[0] == pytest.approx(30.00, abs=1e-4)
+    assert m.delay_of_distance_s(np.array([30.0]))[0] * 2 == pytest.approx(303.240e-9, abs=1e-12)
+
+
+def test_sweep_needed_inverts_the_formulas():
+    # F22 inverted by hand: resolving 0.5 m at VF 0.66 needs a span of VF c / (2 x 0.5 m) = 197.863 MHz
+    need = refl.sweep_needed(0.5, 0.66, 100.0)
+    assert need["span_hz"] == pytest.approx(0.66 * C0 / 1.0, rel=1e-9)
+    assert need["span_hz"] == pytest.approx(197.863e6, rel=1e-5)
+    # F21 inverted: 100 m without aliasing needs steps of at most VF c / (2 x 100 m) = 989.3 kHz
+    assert need["max_step_hz"] == pytest.approx(989.32e3, rel=1e-4)
+
+
+# --- scikit-rf's own time-domain transform as an independent implementation ------------------------------
+
+def test_bandpass_peaks_agree_with_scikit_rf_impulse_response():
+    """Same sweep through scikit-rf 2.2 ``Network.impulse_response(window=('kaiser', 6), bandpass=True)``:
+    peak positions agree within a tenth of the resolution and heights within 2 % (scikit-rf's response is
+    unnormalised; its heights are scaled by n / sum(window) to compare)."""
+    import skrf
+
+    f = np.arange(200, 1201) * 50e3  # 10 to 60 MHz, not harmonic: band-pass only
+    secs = [(50, 0.66, 12.0, K_RG213), (75, 0.66, 6.0, K_RG213), (50, 0.66, 20.0, K_RG213)]
+    g, _ = skrf_run(f, secs, 0.5)
+    grid, _ = td.grid_of(f)
+    ours = td.bandpass(g, grid, beta=6.0, pad=16)
+    width = td.pulse_width_s(grid, 6.0, pad=16)
+    t_o, h_o, _ = refl.find_peaks(ours.t_s, np.abs(ours.amplitude), width, threshold_db=30,
+                                  t_max_s=td.alias_free_s(grid) / 2)
+
+    net = skrf.Network(frequency=skrf.Frequency.from_f(f, unit="hz"), s=g.reshape(-1, 1, 1), z0=50)
+    pad = 15 * f.size
+    t_s, ir = net.impulse_response(window=("kaiser", 6), pad=pad, bandpass=True)
+    from scipy.signal import get_window
+
+    w = get_window(("kaiser", 6), f.size)
+    mag = np.abs(ir) * ir.size / w.sum()
+    keep = t_s >= 0
+    t_r, h_r, _ = refl.find_peaks(t_s[keep], mag[keep], width, threshold_db=30)
+    assert len(t_o) == len(t_r) >= 4
+    res = td.resolution_s(grid)
+    assert np.max(np.abs(t_o - t_r)) < res / 10
+    assert h_o == pytest.approx(h_r, rel=0.02)
+
+
+def test_lowpass_agrees_with_scikit_rf_on_a_grid_from_0_hz():
+    """Low-pass against scikit-rf's ``impulse_response(bandpass=False)`` on a grid that starts at 0 Hz
+    (nothing extrapolated): the same peaks (within a tenth of the resolution) and the same signs."""
+    import skrf
+
+    f = np.arange(0, 601) * 100e3
+    secs = [(50, 0.66, 15.0, 0.0), (75, 0.66, 5.0, 0.0), (50, 0.66, 10.0, 0.0)]
+    g, _ = skrf_run(f, secs, "short")
+    grid, _ = td.grid_of(f)
+    assert td.lowpass_check(grid)[0]
+    ours = td.lowpass(g, grid, beta=6.0, pad=16)
+    width = td.pulse_width_s(grid, 6.0, "low-pass", pad=16)
+    t_o, h_o, _ = refl.find_peaks(ours.t_s, np.abs(ours.amplitude), width, t_max_s=td.alias_free_s(grid) / 2)
+
+    net = skrf.Network(frequency=skrf.Frequency.from_f(f, unit="hz"), s=g.reshape(-1, 1, 1), z0=50)
+    t_s, ir = net.impulse_response(window=("kaiser", 6), pad=16 * f.size, bandpass=False)
+    keep = t_s >= 0
+    t_r, _, _ = refl.find_peaks(t_s[keep], np.abs(ir[keep]), width, t_max_s=td.alias_free_s(grid) / 2)
+    assert len(t_o) == len(t_r) >= 3
+    assert np.max(np.abs(t_o - t_r)) < td.resolution_s(grid, "low-pass") / 10
+    sign_o = np.sign(np.interp(t_o[:3], ours.t_s, ours.amplitude))
+    sign_r = np.sign(np.interp(t_r[:3], t_s[keep], ir[keep].real))
+    assert list(sign_o) == list(sign_r) == [1, -1, -1]  # up to 75 ohm, back down to 50, then the short
+
+
+# --- physics checks -------------------------------------------------------------------------------------
+
+@pytest.mark.parametrize("mode", ["band-pass", "low-pass"])
+def test_75_ohm_section_in_a_50_ohm_line(mode):
+    """A 75 ohm section starting 20 m along a lossy 50 ohm line: the step shows where it is (within the
+    resolution) with |Gamma| = (75 - 50)/(75 + 50) = 0.2 after loss compensation, within 1 dB
+    (impedance step: Pozar, Microwave Engineering 4th ed., eq. 2.35, Gamma = (Z_L - Z_0)/(Z_L + Z_0))."""
+    secs = [(50, 0.66, 20.0, K_RG213), (75, 0.66, 8.0, K_RG213), (50, 0.66, 12.0, K_RG213)]
+    g, _ = skrf_run(F_WIDE, secs, "match")
+    grid, _ = td.grid_of(F_WIDE)
+    resp = td.bandpass(g, grid) if mode == "band-pass" else td.lowpass(g, grid)
+    found = refl.reflections(resp, grid, runmap_of(secs))
+    step = min(found.reflections, key=lambda r: abs(r.distance_m - 20.0))
+    res_m = 0.66 * C0 * td.resolution_s(grid, mode) / 2
+    assert abs(step.distance_m - 20.0) < res_m
+    assert abs(20 * np.log10(step.gamma_at_point / 0.2)) < 1.0
+    # without compensation the seen step is lower by the two-way loss of the first 20 m
+    assert step.gamma_seen < step.gamma_at_point
+    if mode == "low-pass":
+        assert step.sign == 1  # a step up in impedance
+
+
+def test_open_at_the_end_of_a_lossy_line():
+    """An open at the end of a 60 m lossy line: the peak sits at 60 m (within the resolution) and its seen
+    return loss equals twice the line's matched loss (at the band centre) within 0.5 dB (open/short cable
+    loss test: F. Witt, "Measuring Cable Loss", QEX May/Jun 2005, citing the ARRL Antenna Book, RL = 2 ML).
+    The matched loss is scikit-rf's own: -20 log10 |S21| of its line."""
+    secs = [(50, 0.66, 60.0, 2 * K_RG213)]
+    g, net = skrf_run(F_WIDE, secs, "open")
+    grid, _ = td.grid_of(F_WIDE)
+    found = refl.reflections(td.bandpass(g, grid), grid, rm.uniform(0.66))
+    fe = next(r for r in found.reflections if r.far_end)
+    assert abs(fe.distance_m - 60.0) < 0.66 * C0 * td.resolution_s(grid) / 2
+    centre = int(np.argmin(np.abs(F_WIDE - (F_WIDE[0] + F_WIDE[-1]) / 2)))
+    ml_db = -20 * np.log10(np.abs(net.s[centre, 1, 0]))
+    assert ml_db > 1.5  # a line lossy enough for the check to mean something
+    assert fe.return_loss_db == pytest.approx(2 * ml_db, abs=0.5)
+    assert found.length.far_end_m == pytest.approx(60.0, abs=0.66 * C0 * td.resolution_s(grid) / 2)
+
+
+def test_compensation_recovers_a_total_reflection_at_the_end():
+    """With the line's loss known, the open at the end reads as |Gamma| = 1 at its place (within 0.3 dB):
+    the compensation divides by the window-weighted two-way transmission."""
+    secs = [(50, 0.66, 60.0, 2 * K_RG213)]
+    g, _ = skrf_run(F_WIDE, secs, "open")
+    grid, _ = td.grid_of(F_WIDE)
+    found = refl.reflections(td.bandpass(g, grid), grid, runmap_of(secs))
+    fe = next(r for r in found.reflections if r.far_end)
+    assert abs(fe.return_loss_at_point_db) < 0.3
+    assert "open" in fe.kind or "antenna" in fe.kind
+
+
+# --- gating --------------------------------------------------------------------------------------------
+
+def test_gate_keeps_one_reflection_and_removes_another():
+    """Two reflections at 10 m and 40 m of a lossless line built in scikit-rf: keeping 25-60 m leaves the
+    same sweep as the line with only the far one, within 0.01 inside the band-edge zones (the reference
+    is scikit-rf's cascade without the near mismatch, a 52 ohm piece at 10 m that is electrically short)."""
+    f = F_WIDE
+    with_near, _ = skrf_run(f, [(50, 0.66, 10.0, 0), (60, 0.66, 0.3, 0), (50, 0.66, 30.0, 0)], 0.4)
+    far_only, _ = skrf_run(f, [(50, 0.66, 40.3, 0)], 0.4)
+    grid, _ = td.grid_of(f)
+    v = 0.66 * C0
+    kept = td.gate(with_near, grid, 2 * 25.0 / v, 2 * 60.0 / v, keep=True)
+    inside = kept.droop_db < 20
+    assert inside.sum() > 0.7 * f.size
+    # the near mismatch's own transmission loss (1 - |Gamma|^2 twice, about 0.03) is not gated away
+    assert np.max(np.abs(kept.gamma[inside] - far_only[inside])) < 0.05
+    removed = td.gate(with_near, grid, 0.0, 2 * 25.0 / v, keep=False)
+    assert np.median(np.abs(removed.gamma - far_only)) < 0.03
+    assert np.median(np.abs(kept.gamma - far_only)) < 0.03
+    # the near mismatch alone is what was taken away
+    near = with_near - kept.gamma
+    near_t = td.bandpass(near, grid)
+    peak_m = v * near_t.t_s[np.argmax(np.abs(near_t.amplitude))] / 2
+    assert abs(peak_m - 10.15) < 1.0
+
+
+def test_gate_of_everything_changes_nothing_in_the_band():
+    """A window over the whole alias-free range gives back the sweep (the gate is then the identity)."""
+    g, _ = skrf_run(F_WIDE, [(50, 0.66, 30.0, K_RG213)], 0.3 + 0.2j)
+    grid, _ = td.grid_of(F_WIDE)
+    out = td.gate(g, grid, 0.0, 0.7 * td.alias_free_s(grid))
+    inside = out.droop_db < 20
+    assert np.max(np.abs(out.gamma[inside] - g[inside])) < 1e-3
+
+
+# --- grids ---------------------------------------------------------------------------------------------
+
+def test_grid_checks():
+    assert td.grid_of(np.linspace(1e6, 2e6, 10))[0] is None  # too few points
+    f = np.linspace(1e6, 2e6, 101)
+    f[50] += 0.01 * (f[1] - f[0])
+    assert td.grid_of(f)[0] is None
+    grid, _ = td.grid_of(np.arange(1, 101) * 1e5)
+    assert td.lowpass_check(grid)[0]
+    grid, _ = td.grid_of(np.linspace(6.6e6, 7.6e6, 501))
+    ok, why = td.lowpass_check(grid)
+    assert not ok and "steps above 0 Hz" in why
+
+
+# --- the command ---------------------------------------------------------------------------------------
+
+def run_cli(*args):
+    return subprocess.run([sys.executable, "-m", "deembed", *args], capture_output=True, text=True, cwd=str(ROOT),
+                          timeout=300)
+
+
+def test_locate_command_json_keys_and_sample_far_end(tmp_path):
+    r = run_cli("locate", str(SAMPLES / "groundplane-30m-wide.s1p"), "--line", str(SAMPLES / "groundplane-30m.line.toml"),
+                "--out", str(tmp_path), "--json", "--remove", "0m:5m")
+    assert r.returncode == 0, r.stderr
+    s = json.loads(r.stdout)
+    for key in ("resolution_m", "alias_free_range_m", "far_end_m", "reflections"):
+        assert key in s
+    for item in s["reflections"]:
+        for key in ("distance_m", "return_loss_db", "return_loss_at_point_db"):
+            assert key in item
+    # the invented run: described 42 m, with a wet joint at 28 m (deembed/jobs/samples.py)
+    assert s["far_end_m"] == pytest.approx(42.0, abs=s["resolution_m"])
+    assert any(abs(x["distance_m"] - 28.0) < s["resolution_m"] and not x["far_end"] for x in s["reflections"])
+    assert s["length"]["agrees_with_description"] is True
+    assert (tmp_path / "groundplane-30m-wide.gated.s1p").exists()
+    assert (tmp_path / "groundplane-30m-wide.along.png").exists()
+    # the gated sweep is a sweep `correct` can use
+    r2 = run_cli("correct", str(tmp_path / "groundplane-30m-wide.gated.s1p"), "--line",
+                 str(SAMPLES / "groundplane-30m.line.toml"), "--out", str(tmp_path / "c"), "--no-plots")
+    assert r2.returncode == 0, r2.stderr
+
+
+def test_locate_lowpass_refused_with_a_clear_line_on_a_narrow_sweep(tmp_path):
+    r = run_cli("locate", str(SAMPLES / "dipole-40m.s1p"), "--lowpass", "--out", str(tmp_path))
+    assert r.returncode == 2
+    assert r.stderr.count("\n") == 1 and r.stderr.startswith("error: --lowpass:")
+    assert "Traceback" not in r.stderr
+    assert not any(tmp_path.iterdir())
+
+
+def test_locate_feet_display_keeps_metres_in_json(tmp_path):
+    r = run_cli("locate", str(SAMPLES / "groundplane-30m-wide.s1p"), "--vf", "0.66", "--unit", "ft", "--out",
+                str(tmp_path), "--json", "--no-plots")
+    assert r.returncode == 0, r.stderr
+    s = json.loads(r.stdout)
+    assert s["far_end_m"] == pytest.approx(42.0, abs=2.0)
+    r = run_cli("locate", str(SAMPLES / "groundplane-30m-wide.s1p"), "--vf", "0.66", "--unit", "ft", "--out",
+                str(tmp_path), "--no-plots")
+    assert " ft" in r.stdout
+
+
+def test_locate_without_velocity_factor_uses_delay_and_estimates_it_from_a_length(tmp_path):
+    r = run_cli("locate", str(SAMPLES / "groundplane-30m-wide.s1p"), "--length", "42m", "--out", str(tmp_path),
+                "--json", "--no-plots")
+    assert r.returncode == 0, r.stderr
+    s = json.loads(r.stdout)
+    assert s["far_end_m"] is None and s["far_end_one_way_delay_ns"] > 0
+    # the sample's cables: VF 0.66 (catalog rg58 and rg213)
+    assert s["length"]["velocity_factor_estimate"] == pytest.approx(0.66, abs=0.02)
+
+
+@pytest.mark.parametrize("args, option", [
+    (["--keep", "5m"], "--keep"),
+    (["--keep", "9m:5m", "--vf", "0.66"], "--keep"),
+    (["--keep", "5m:9m"], "--keep"),            # a distance with no velocity factor
+    (["--unit", "yd"], "--unit"),
+    (["--pad", "0"], "--pad"),
+    (["--kaiser-beta", "-1"], "--kaiser-beta"),
+    (["--vf", "0.66", "--loss", "1dB@10MHz"], "--loss"),
+    (["--threshold", "abc"], "--threshold"),
+])
+def test_locate_bad_options(tmp_path, args, option):
+    r = run_cli("locate", str(SAMPLES / "groundplane-30m-wide.s1p"), "--out", str(tmp_path / "o"), *args)
+    assert r.returncode == 2, r.stdout + r.stderr
+    assert r.stderr.startswith("error: ") and option in r.stderr and r.stderr.count("\n") == 1
+    assert not (tmp_path / "o").exists()
+
+
+def test_locate_refuses_an_unequal_grid_naming_the_file(tmp_path):
+    p = tmp_path / "log.s1p"
+    f = np.geomspace(1e6, 60e6, 50)
+    p.write_text("# Hz S RI R 50\n" + "".join(f"{x:.6f} 0.1 0.0\n" for x in f))
+    r = run_cli("locate", str(p), "--out", str(tmp_path / "o"))
+    assert r.returncode == 2 and str(p) in r.stderr and "equal" in r.stderr
