@@ -88,7 +88,7 @@ def test_needed_step_is_the_alias_free_step_with_the_margin():
 
 
 def test_feedpoint_error_matches_finite_difference_of_deembedding():
-    from deembed.core import feedpoint_gamma  # the project's closed form (check-values F16)
+    from deembed.physics.deembedding import feedpoint_gamma  # the project's closed form (check-values F16)
 
     m = 200
     s = np.empty((m, 2, 2), complex)

@@ -251,7 +251,7 @@ class Characterization:
     def line(self, source: str = "<memory>", allow_extrapolation: bool = False) -> Line:
         """The characterized run as a :class:`~deembed.line.Line`."""
         return Line((CharacterizedLine(self.freq_hz, self.s, self.section, self.f_min_hz, self.f_max_hz,
-                                       self.method, source, allow_extrapolation),))
+                                       self.method, source, allow_extrapolation, self.fit.residual_rms),))
 
 
 def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None, z0_ohm=Z_REF_OHM,

@@ -54,6 +54,7 @@ from ..base.errors import DeembedError, InputFileError
 from ..physics.grid import nearest_points
 from ..physics.line import DB_PER_NP
 from ..base.units import fmt_freq
+from .between import between_points, between_warnings
 from .findings import resonances
 from .findings import end_findings
 from .limits import Limits
@@ -371,6 +372,11 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         line["delay_change_ps"] = float((da - db) * 1e12)
     if same:
         line["fitted_change"] = fit_line_change(f, al.gamma_feed_before, al.gamma_feed_after)
+    bp_before = between_points(before.line, before.freq_hz, before.gamma_feed)
+    bp_after = between_points(after.line, after.freq_hz, after.gamma_feed)
+    if bp_before or bp_after:
+        line["between_points"] = {"before": bp_before, "after": bp_after}
+    between_notes = between_warnings(bp_before, "baseline") + between_warnings(bp_after, "after work")
 
     verdict = _verdict(fp, line, limits, res_b, res_a)
     diagnosis = diagnose(fp, sh, line, limits, verdict)
@@ -391,7 +397,7 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         "limits": limits.as_dict(),
         "verdict": verdict,
         "diagnosis": diagnosis,
-        "notes": list(al.notes) + ([f"only {al.freq_hz.size} common frequencies: resonance, bandwidth and the "
+        "notes": list(al.notes) + between_notes + ([f"only {al.freq_hz.size} common frequencies: resonance, bandwidth and the "
                                     "antenna-or-line diagnosis need a sweep, so this verdict says little"]
                                    if al.freq_hz.size < 3 else []),
     }

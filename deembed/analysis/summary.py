@@ -8,6 +8,7 @@ import numpy as np
 
 from ..physics import rf
 from ..base.units import fmt_freq
+from .between import between_points, between_warnings
 from .findings import end_findings
 
 TWO_WAY_LOSS_WARN_DB = 10.0
@@ -121,6 +122,10 @@ def summarise(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | 
         "shack": end_findings(corr.freq_hz, corr.gamma_shack, thresholds=thresholds),
         "warnings": list(notes) + warnings_for(corr),
     }
+    bp = between_points(corr.line, corr.freq_hz, corr.gamma_feed)
+    if bp is not None:
+        summary["line"]["between_points"] = bp
+        summary["warnings"].extend(between_warnings(bp))
     if sweep_info:
         summary["sweep"].update(sweep_info)
     return summary

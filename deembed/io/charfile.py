@@ -9,12 +9,14 @@ import json
 import math
 import os
 from dataclasses import dataclass, replace
+from functools import cached_property
 
 import numpy as np
 
 from ..base.errors import InputFileError, OptionError
 from ..base.units import fmt_freq
-from ..physics.grid import inside, nearest_points
+from ..physics import between as bw
+from ..physics.grid import FREQ_MATCH_RTOL, inside, nearest_points
 from ..physics.line import Line, LossModel, Section, abcd_to_s, s_to_abcd
 from .touchstone import read_sweep, write_touchstone
 
@@ -97,8 +99,11 @@ def line_from_characterization(path, allow_extrapolation: bool = False):
     sw = read_sweep(p, expect_ports=2)
     sec = Section(vals["z0_ohm"], vals["delay_s"], LossModel(vals["c_np"], vals["d_np"]),
                   label=f"characterized line ({vals['method']})")
+    misfit = rec.get("residual_rms", 0.0)
+    misfit = float(misfit) if isinstance(misfit, (int, float)) and math.isfinite(misfit) and misfit >= 0 else 0.0
     part = CharacterizedLine(np.asarray(sw.freq_hz, dtype=float), np.asarray(sw.s, dtype=complex), sec,
-                             vals["f_min_hz"], vals["f_max_hz"], str(vals["method"]), p, bool(allow_extrapolation))
+                             vals["f_min_hz"], vals["f_max_hz"], str(vals["method"]), p, bool(allow_extrapolation),
+                             misfit)
     return Line((part,))
 
 
@@ -111,7 +116,7 @@ def with_extrapolation(line: Line, allow: bool = True) -> Line:
 
 @dataclass(frozen=True)
 class CharacterizedLine:
-    """A run known from a characterization: measured on its own points, its physical model elsewhere.
+    """A run known from a characterization: measured on its own points, interpolated or modelled between.
 
     Attributes
     ----------
@@ -120,13 +125,19 @@ class CharacterizedLine:
     f_min_hz, f_max_hz : the characterized range.
     method, source : how and from which file.
     allow_extrapolation : evaluate the model beyond the range (otherwise refuse).
+    fit_misfit : the model fit's RMS misfit as stored in the file (used as the error of a one-standard
+        characterization, whose stored 2-port is the model's own).
 
     Notes
     -----
-    Off the measured points the run is evaluated through its fitted model, never by interpolating the
-    measured complex values (which turn through many phase turns over a long run). For a run that is not
-    uniform (adapters, a 75 ohm section) the model is one equivalent uniform line, so off-grid values are
-    approximate; on the measured points they are exact.
+    On the measured points the measured values are used (``exact``). Between them the run is evaluated
+    either by interpolating its S-parameters with the run's fitted delay removed (``interpolated``,
+    :mod:`deembed.physics.between`) or through its fitted physical model (``model``), whichever has the
+    smaller estimated error (:func:`deembed.physics.between.assess`): interpolation for a run of mixed
+    impedances, which one equivalent uniform line cannot describe; normally the model for a uniform line.
+    A one-standard characterization is always its model. Beyond the range (``allow_extrapolation``) only
+    the model can be used. Never the raw complex values interpolated: behind a long run they turn through
+    many phase turns between points.
     """
 
     freq_hz: np.ndarray
@@ -137,6 +148,15 @@ class CharacterizedLine:
     method: str = ""
     source: str = "<memory>"
     allow_extrapolation: bool = False
+    fit_misfit: float = 0.0
+
+    @cached_property
+    def between(self) -> bw.Between:
+        """How this run is evaluated between its points, and the error of that (decided once)."""
+        model_s = abcd_to_s(self.section.abcd(self.freq_hz))
+        single = self.method in ("open", "short")
+        return bw.assess(self.freq_hz, self.s, self.section.delay_s, model_s, model_only=single,
+                         model_misfit_s11=self.fit_misfit if single else 0.0)
 
     def _on_grid(self, f):
         """Indices of ``f`` in the measured grid when every point is one of them, else None."""
@@ -144,9 +164,10 @@ class CharacterizedLine:
         if f.shape == g.shape and np.array_equal(f, g):
             return np.arange(g.size)
         best, hit = nearest_points(g, f)
-        if np.all(hit):
-            return best
-        return None
+        return best if np.all(hit) else None
+
+    def _inside(self, f):
+        return (f >= self.f_min_hz * (1 - FREQ_MATCH_RTOL)) & (f <= self.f_max_hz * (1 + FREQ_MATCH_RTOL))
 
     def _check_range(self, f):
         if self.allow_extrapolation or f.size == 0:
@@ -159,14 +180,91 @@ class CharacterizedLine:
                                         f"{fmt_freq(hi)}; characterize the line over the sweep's range, or pass "
                                         "--extrapolate to use its fitted model beyond it")
 
+    def _between_method(self, f) -> str:
+        """"exact" when every frequency is a measured point, else the method used between points."""
+        if self.method in ("open", "short"):
+            return "model"
+        return "exact" if self._on_grid(f) is not None else self.between.method
+
     def s_params(self, freq_hz):
-        """S (n, 2, 2) at 50 ohm: measured values on the characterization's points, the model elsewhere."""
+        """S (n, 2, 2) at 50 ohm: measured values on the characterization's points, interpolated (delay
+        removed) or modelled between them (:attr:`between`), the model beyond the range."""
         f = np.atleast_1d(np.asarray(freq_hz, dtype=float))
         idx = self._on_grid(f)
         if idx is not None:
             return self.s[idx]
         self._check_range(f)
-        return abcd_to_s(self.section.abcd(f))
+        if self.between.method != "interpolated":
+            return abcd_to_s(self.section.abcd(f))
+        inside = self._inside(f)
+        if inside.all():
+            return bw.interpolate(self.freq_hz, self.s, f, self.section.delay_s)
+        out = abcd_to_s(self.section.abcd(f))
+        out[inside] = bw.interpolate(self.freq_hz, self.s, f[inside], self.section.delay_s)
+        return out
+
+    def feedpoint_error(self, freq_hz, gamma_feedpoint=None):
+        """Estimated error in the feedpoint reflection (|Gamma|, per frequency) from evaluating the run
+        between its points; 0 on its own points. ``gamma_feedpoint``: the corrected reflection (else the
+        worst antenna, |Gamma_L| = 1). For the uncertainty of a correction, add it to the other sources."""
+        f = np.atleast_1d(np.asarray(freq_hz, dtype=float))
+        if self._between_method(f) == "exact":
+            return np.zeros(f.shape)
+        b = self.between
+        model_used = self._between_method(f) == "model"
+        ds = bw.local_error(self.freq_hz, b.s_error, f, exact_on_grid=not model_used)
+        if not model_used and b.model_error is not None:
+            outside = ~self._inside(f)
+            if outside.any():  # beyond the range the model is used: its misfit at the nearest end
+                ds[outside] = bw.local_error(self.freq_hz, b.model_error, f[outside], exact_on_grid=False)
+        return bw.feedpoint_error(self.s_params(f), ds, gamma_feedpoint)
+
+    def between_points(self, freq_hz, gamma_feedpoint=None) -> dict:
+        """How the run was evaluated at a sweep's frequencies and the estimated error (JSON-ready).
+
+        Keys: ``method`` (exact, interpolated or model), ``characterization`` (the file),
+        ``points_on_grid``, ``points_between``, ``points_beyond`` (extrapolated through the model),
+        ``estimated_error`` (largest estimated |dGamma| at the feedpoint over the sweep) and
+        ``estimated_error_at_hz``, ``error_from`` (how it was estimated), ``grid_step_hz`` (widest step of
+        the characterization), ``needed_step_hz`` (what the run's longest echo allows, with ``grid_margin``),
+        ``longest_two_way_delay_s``, ``grid_too_coarse``, ``delay_removed_s`` (interpolation only),
+        ``characterization_error_worst`` (the chosen method's figure for the worst antenna, |Gamma_L| = 1).
+        """
+        f = np.atleast_1d(np.asarray(freq_hz, dtype=float))
+        b = self.between
+        method = self._between_method(f)
+        _, exact = nearest_points(self.freq_hz, f)
+        beyond = ~self._inside(f)
+        err = self.feedpoint_error(f, gamma_feedpoint)
+        i = int(np.argmax(err)) if err.size else 0
+        worst = float(err[i]) if err.size else 0.0
+        if method == "exact":
+            source = "none needed: every sweep frequency is a characterized point (its own measurement error aside)"
+        elif method == "interpolated":
+            source = "leave-one-out interpolation on the characterization"
+        elif self.method in ("open", "short"):
+            source = "the one-standard model fit's RMS misfit"
+        else:
+            source = "the model's misfit to the characterization's measured points"
+        out = {
+            "method": method,
+            "characterization": self.source,
+            "points_on_grid": int(np.count_nonzero(exact)),
+            "points_between": int(np.count_nonzero(~exact & ~beyond)),
+            "points_beyond": int(np.count_nonzero(beyond)),
+            "estimated_error": worst,
+            "estimated_error_at_hz": float(f[i]) if worst > 0 else None,
+            "error_from": source,
+            "grid_step_hz": b.step_hz,
+            "needed_step_hz": b.needed_step_hz,
+            "grid_margin": bw.GRID_MARGIN,
+            "longest_two_way_delay_s": b.two_way_delay_s,
+            "grid_too_coarse": bool(b.grid_too_coarse),
+            "characterization_error_worst": b.worst_feedpoint_error,
+        }
+        if method == "interpolated":
+            out["delay_removed_s"] = b.delay_s
+        return out
 
     def abcd(self, freq_hz):
         return s_to_abcd(self.s_params(freq_hz))

@@ -80,7 +80,8 @@ def _run_feed(job: FeedJob) -> dict:
               "line": line.describe(), "after_line": other.describe() if other is not line else None,
               "limits": limits.as_dict(),
               "baseline": {"file": baseline, "outputs": {k: rel(v) for k, v in base_written.items()},
-                           "warnings": base_summary.get("warnings", [])},
+                           "warnings": base_summary.get("warnings", []),
+                           "between_points": base_summary["line"].get("between_points")},
               "comparisons": []}
     for sweep in latest:
         a_opts = workflow.Options(port=port, notes=after_notes)
@@ -101,6 +102,7 @@ def _run_feed(job: FeedJob) -> dict:
             "max_gamma_change_feedpoint": res["max_gamma_change_feedpoint"],
             "outputs": {**{k: rel(v) for k, v in written.items()}, **{k: rel(v) for k, v in cw.items()}},
             "warnings": summary.get("warnings", []),
+            "between_points": summary["line"].get("between_points"),
         })
         if not res["verdict"]["within_limits"]:
             result["status"] = "exceeded"

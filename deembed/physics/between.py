@@ -53,14 +53,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .grid import FREQ_MATCH_RTOL, nearest_points
+
 GRID_MARGIN = 4.0
 """The characterization's step must be at most 1/(2 x longest two-way delay x GRID_MARGIN) (see above)."""
 
 FEEDPOINT_ERROR_WARN = 0.01
 """Estimated error in |Gamma| at the feedpoint above which the user is told (issue 15's figure)."""
 
-FREQ_MATCH_RTOL = 1e-9
-"""Relative tolerance under which a frequency counts as one of the characterization's own points."""
 
 
 # --------------------------------------------------------------------------------------------------
@@ -79,16 +79,6 @@ def largest_step_hz(grid_hz) -> float:
     """The widest gap between neighbouring characterized frequencies, Hz (0 for fewer than 2 points)."""
     g = np.asarray(grid_hz, dtype=float)
     return float(np.max(np.diff(g))) if g.size >= 2 else 0.0
-
-
-def on_grid(grid_hz, freq_hz, rtol: float = FREQ_MATCH_RTOL):
-    """(index of the nearest grid point, whether it matches within ``rtol``), each shaped like ``freq_hz``."""
-    g = np.asarray(grid_hz, dtype=float)
-    f = np.asarray(freq_hz, dtype=float)
-    hi = np.clip(np.searchsorted(g, f), 0, g.size - 1)
-    lo = np.clip(hi - 1, 0, g.size - 1)
-    best = np.where(np.abs(g[lo] - f) < np.abs(g[hi] - f), lo, hi)
-    return best, np.abs(g[best] - f) <= rtol * np.abs(f)
 
 
 # --------------------------------------------------------------------------------------------------
@@ -152,7 +142,7 @@ def interpolate(grid_hz, values, freq_hz, delay_s: float = 0.0):
     idx = cubic_stencil(g, f)
     w = _lagrange_weights(g[idx], f)
     out = np.einsum("mk,mk...->m...", w, resid[idx])
-    hit, exact = on_grid(g, f)
+    hit, exact = nearest_points(g, f)
     out[exact] = resid[hit[exact]]
     return restore_delay(f, out, delay_s)
 
@@ -182,16 +172,21 @@ def leave_one_out(grid_hz, values, delay_s: float = 0.0):
     return err
 
 
-def local_error(grid_hz, err, freq_hz):
+def local_error(grid_hz, err, freq_hz, exact_on_grid: bool = True):
     """Per-frequency error (m, ...) from per-grid-point errors (n, ...): the larger of the two points
-    around each frequency, 0 on the grid's own points (the measured value is used there)."""
+    around each frequency (the nearest end point beyond the grid); with ``exact_on_grid``, 0 on the grid's
+    own points (the measured value is used there), otherwise that point's own figure."""
     g = np.asarray(grid_hz, dtype=float)
     f = np.atleast_1d(np.asarray(freq_hz, dtype=float))
     e = np.asarray(err, dtype=float)
     j = np.clip(np.searchsorted(g, f, side="right") - 1, 0, g.size - 2)
     out = np.maximum(e[j], e[j + 1])
-    _, exact = on_grid(g, f)
-    out[exact] = 0.0
+    hit, exact = nearest_points(g, f)
+    out[exact] = 0.0 if exact_on_grid else e[hit[exact]]
+    beyond = (f < g[0]) & ~exact
+    out[beyond] = e[0]
+    beyond = (f > g[-1]) & ~exact
+    out[beyond] = e[-1]
     return out
 
 
@@ -287,7 +282,8 @@ class Between:
         return self.step_hz > self.needed_step_hz * (1 + FREQ_MATCH_RTOL)
 
 
-def assess(grid_hz, s, delay_s: float, model_s=None, *, model_only: bool = False) -> Between:
+def assess(grid_hz, s, delay_s: float, model_s=None, *, model_only: bool = False,
+           model_misfit_s11: float = 0.0) -> Between:
     """Decide how a characterized run is evaluated between its points, and estimate the error.
 
     Parameters
@@ -297,6 +293,9 @@ def assess(grid_hz, s, delay_s: float, model_s=None, *, model_only: bool = False
     delay_s : the run's fitted one-way delay, s.
     model_s : complex (n, 2, 2), optional: the fitted physical model's S-parameters on the same grid.
     model_only : the measured values are the model's own (a one-standard fit): use the model.
+    model_misfit_s11 : a misfit of the model known from its fit, added to its S11 error (a one-standard
+        fit's RMS misfit in the reflection measured at the analyzer, which reaches the feedpoint as an
+        error in S11 does).
 
     Notes
     -----
@@ -312,6 +311,8 @@ def assess(grid_hz, s, delay_s: float, model_s=None, *, model_only: bool = False
     step = largest_step_hz(g)
     need = needed_step_hz(two_way_delay_s(delay_s))
     model_err = None if model_s is None else np.abs(np.asarray(model_s, dtype=complex) - s)
+    if model_err is not None and model_misfit_s11:
+        model_err[:, 0, 0] += float(model_misfit_s11)
     interp_err = None
     if not model_only and g.size >= 5:
         interp_err = leave_one_out(g, s, delay_s)
@@ -336,7 +337,7 @@ def sweep_error(between: Between, grid_hz, s_at_sweep, freq_hz, gamma_feedpoint=
 
 
 __all__ = [
-    "Between", "FEEDPOINT_ERROR_WARN", "FREQ_MATCH_RTOL", "GRID_MARGIN", "METHODS", "assess", "cubic_stencil",
+    "Between", "FEEDPOINT_ERROR_WARN", "GRID_MARGIN", "METHODS", "assess", "cubic_stencil",
     "feedpoint_error", "interpolate", "largest_step_hz", "leave_one_out", "local_error", "needed_step_hz",
-    "on_grid", "remove_delay", "restore_delay", "sweep_error", "two_way_delay_s",
+    "remove_delay", "restore_delay", "sweep_error", "two_way_delay_s",
 ]

@@ -177,8 +177,8 @@ def _method(line) -> str:
                "frequencies), cascaded with any modelled sections and removed from the measured reflection exactly:")
     elif "CharacterizedLine" in kinds:
         how = ("Closed-form de-embedding through a characterized line: the 2-port found from standards placed at "
-               "the far end of the run, used as measured on its own frequencies and through its fitted "
-               "transmission-line model between them; removed from the measured reflection exactly:")
+               "the far end of the run, used as measured on its own frequencies and, between them, as the table "
+               "below says; removed from the measured reflection exactly:")
     else:
         how = "Closed-form de-embedding of the line's 2-port from the measured reflection:"
     return f"<p>{how}</p>{formula}"
@@ -234,7 +234,36 @@ def _line(summary: dict, corr, fq: _Freq) -> str:
   {delay}
   <h3>How it was removed</h3>
   {_method(corr.line)}
+  {_between(ln.get("between_points"))}
 </section>"""
+
+
+def _between(bp) -> str:
+    """The line section's table on how a characterized run was evaluated between its points."""
+    if not bp:
+        return ""
+    from ..analysis.between import METHOD_TEXT
+    from ..physics.between import FEEDPOINT_ERROR_WARN
+
+    err = bp.get("estimated_error")
+    big = _finite(err) and err > FEEDPOINT_ERROR_WARN
+    pill = (f" <span class='pill {'fail' if big else 'ok'}'>{'above' if big else 'within'} "
+            f"{FEEDPOINT_ERROR_WARN:g}</span>") if bp.get("method") != "exact" else ""
+    where = bp.get("estimated_error_at_hz")
+    at = f" (largest at {_e(fmt_freq(where))})" if _finite(where) else ""
+    rows = [("Method", _e(METHOD_TEXT.get(bp.get("method"), bp.get("method", "")))),
+            ("Sweep points", f"{bp.get('points_on_grid', 0)} on characterized points, {bp.get('points_between', 0)} "
+                             f"between them, {bp.get('points_beyond', 0)} beyond the range"),
+            ("Estimated error at the feedpoint", f"up to {_num(err, '.2g')} in |&Gamma;|{at}{pill}"
+                                                 f"<br><span class='muted'>from {_e(bp.get('error_from', ''))}</span>"),
+            ("Characterization step", f"{_e(fmt_freq(bp.get('grid_step_hz')))} (this run needs "
+                                      f"{_e(fmt_freq(bp.get('needed_step_hz')))} or less: 1/(2 &times; "
+                                      f"{_num((bp.get('longest_two_way_delay_s') or 0) * 1e9, '.1f')} ns two-way delay) "
+                                      f"with a margin of {bp.get('grid_margin', 0):g})")]
+    if _finite(bp.get("delay_removed_s")):
+        rows.append(("Delay removed before interpolating", f"{bp['delay_removed_s'] * 1e9:.2f} ns one way"))
+    body = "".join(f"<tr><th>{k}</th><td>{v}</td></tr>" for k, v in rows)
+    return (f"<h3>Between characterized points</h3><table class='grid between'><tbody>{body}</tbody></table>")
 
 
 def _resonances_html(end: dict, fq: _Freq) -> str:

@@ -37,8 +37,15 @@ def index_html(summary: dict) -> str:
             links = " ".join(_link(p, k.replace("_", " ")) for k, p in cmp["outputs"].items()
                              if k in ("compare_html", "compare_png", "compare_json", "report_html"))
             why = "; ".join(cmp["reasons"])
+            bp = cmp.get("between_points")
+            btw = ""
+            if bp:
+                err = bp.get("estimated_error")
+                btw = (f"<br><small>between characterized points: {e(str(bp.get('method')))}"
+                       + (f", estimated error up to {err:.2g} in |&Gamma;|" if err is not None and
+                          bp.get("method") != "exact" else "") + "</small>")
             rows.append(
-                f'<tr class="{st}"><td>{name}<br><small>{e(feed["line"] or "")}</small></td>'
+                f'<tr class="{st}"><td>{name}<br><small>{e(feed["line"] or "")}</small>{btw}</td>'
                 f'<td class="st">{STATUS_TEXT[st]}</td>'
                 f'<td>{e(os.path.basename(cmp["file"]))}<br><small>baseline {e(os.path.basename(base["file"]))}: '
                 f'{base_links}</small></td>'

@@ -5,6 +5,7 @@ from ..base.units import fmt_freq
 from .site_index import STATUS_TEXT
 import os
 import sys
+from ..analysis.between import between_text
 from ..analysis.limits import LIMIT_NAMES
 
 
@@ -58,6 +59,7 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
         f"line    {ln['description']}",
         f"        matched loss {ln['matched_loss_db']['at_start']:.2f} dB at {fmt_freq(ln['f_start_hz'])}, "
         f"{ln['matched_loss_db']['at_stop']:.2f} dB at {fmt_freq(ln['f_stop_hz'])}",
+        *([f"        between points: {between_text(ln['between_points'])}"] if ln.get("between_points") else []),
         "",
         f"{'':24}{'at the analyzer':34}{'at the feedpoint'}",
         _row("lowest SWR", _min(sh), _min(fp)),
@@ -175,6 +177,9 @@ def compare_text(result: dict) -> str:
     if ln["loss_change_db"] is not None:
         lines.append(f"\nline     {ln['before']}\n  now    {ln['after']}\n         matched loss change "
                      f"{ln['loss_change_db']['at_centre']:+.2f} dB at mid-band")
+    for which, bp in (ln.get("between_points") or {}).items():
+        if bp:
+            lines.append(f"line between points ({which}): {between_text(bp)}")
     v = result["verdict"]
     lines.append("")
     if v["within_limits"]:
