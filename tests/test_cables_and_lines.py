@@ -91,8 +91,11 @@ def test_options_length_delay_vf_consistency():
     assert line.parts[0].vf == pytest.approx(19.79 / (C0_M_PER_S * 100e-9), rel=1e-12)
     with pytest.raises(OptionError, match="disagree"):
         line_from_options(delay="100ns", length="19.79m", vf="0.5")
-    with pytest.raises(OptionError, match="--line"):
+    with pytest.raises(OptionError, match="^line: give either line or cable, length, not both"):
         line_from_options(cable="rg58", length="1m", line_file="x.toml")
+    with pytest.raises(OptionError, match="^--line: give either --line or --cable, --length, not both"):
+        line_from_options(cable="rg58", length="1m", line_file="x.toml",
+                          names={k: f"--{k}" for k in ("cable", "length", "vf", "delay", "z0", "loss", "line")})
     # one-point loss scales as sqrt(f): 1 dB at 10 MHz is 2 dB at 40 MHz (check-values sec. 1.3)
     line, notes = line_from_options(length="10m", vf="0.66", loss=["1dB@10MHz"])
     assert float(line.matched_loss_db(np.array([40e6]))[0]) == pytest.approx(2.0, rel=1e-3)

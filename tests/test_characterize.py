@@ -368,9 +368,10 @@ def test_extrapolation_refused_unless_asked(tmp_path):
     run2 = skrf_line(f2, 50, 0.66, 30.0, 0.1755, 0.00245)
     ant = antenna(f2, f0=14e6)
     sweep = one_port(f2, (run2 ** ant).s[:, 0, 0])
-    with pytest.raises(OptionError, match="--extrapolate") as exc:
+    with pytest.raises(OptionError, match="pass extrapolate to use") as exc:
         correct(sweep, line_from_characterization(path))
-    assert exc.value.option == "--line"
+    assert exc.value.field == "line"
+    assert "pass --extrapolate to use" in exc.value.render({"extrapolate": "--extrapolate"})
     for line in (line_from_characterization(path, allow_extrapolation=True),
                  with_extrapolation(line_from_characterization(path))):
         res = correct(sweep, line)

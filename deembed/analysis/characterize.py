@@ -312,8 +312,8 @@ def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None,
         s = abcd_to_s(fit.section.abcd(f))
         notes.append(f"one standard only: Z0 taken as {z0_ohm:g} ohm, the line is the fitted model")
         return Characterization(which, f, s, fit, None, offsets, tuple(notes))
-    raise OptionError("--open/--short/--load", "give open, short and load; or open and short; or open or short "
-                                               "alone (a load alone, or a load with one other standard, cannot "
+    raise OptionError("standards", "give `open`, `short` and `load`; or `open` and `short`; or `open` or `short` "
+                                   "alone (a load alone, or a load with one other standard, cannot "
                                                "characterize the line)")
 
 
@@ -378,7 +378,7 @@ def characterization_report(ch: Characterization, *, at_hz=None, length_m=None, 
         out["length_m"] = length_m
         out["vf"] = vf
         if vf > 1.0:
-            raise OptionError("--length", f"the measured delay {sec.delay_s * 1e9:.4g} ns over {length_m:g} m means a "
+            raise OptionError("length", f"the measured delay {sec.delay_s * 1e9:.4g} ns over {length_m:g} m means a "
                                           f"velocity factor of {vf:.3g}, above 1; check the length")
         if cable is not None and abs(vf - cable.vf) > 0.05 * cable.vf:
             notes.append(f"velocity factor {vf:.3f} differs from the catalog's {cable.vf:g} for {cable.id} by more than 5 %")

@@ -8,14 +8,8 @@ from ..base.errors import OptionError
 from ..base.units import parse_frequency
 
 
-LIMIT_NAMES = {
-    "max_shift": "--max-shift",
-    "max_swr_rise": "--max-swr-rise",
-    "max_gamma_change": "--max-gamma-change",
-    "max_bw_loss": "--max-bw-loss",
-    "max_loss_change": "--max-loss-change",
-}
-"""Each limit's name in JSON and site files, and the command-line option that sets it."""
+LIMIT_NAMES = {k: k for k in ("max_shift", "max_swr_rise", "max_gamma_change", "max_bw_loss", "max_loss_change")}
+"""Each limit's name in JSON and site files (and in error messages)."""
 
 
 @dataclass(frozen=True)
@@ -52,10 +46,10 @@ class Limits:
     max_loss_change_db: float = 0.5
 
     def __post_init__(self):
-        checks = (("max_shift_hz", "--max-shift", 0.0, None), ("max_swr_rise", "--max-swr-rise", 0.0, None),
-                  ("max_gamma_change", "--max-gamma-change", 0.0, 2.0),
-                  ("max_bw_loss_percent", "--max-bw-loss", 0.0, 100.0),
-                  ("max_loss_change_db", "--max-loss-change", 0.0, None))
+        checks = (("max_shift_hz", "max_shift", 0.0, None), ("max_swr_rise", "max_swr_rise", 0.0, None),
+                  ("max_gamma_change", "max_gamma_change", 0.0, 2.0),
+                  ("max_bw_loss_percent", "max_bw_loss", 0.0, 100.0),
+                  ("max_loss_change_db", "max_loss_change", 0.0, None))
         for attr, option, lo, hi in checks:
             v = getattr(self, attr)
             if not isinstance(v, (int, float)) or not math.isfinite(v) or v < lo or (hi is not None and v > hi):
@@ -72,7 +66,7 @@ def parse_limits(values: dict, *, base: Limits | None = None, names: dict | None
 
     ``max_shift`` takes a frequency with a unit ("50kHz"); ``max_bw_loss`` a per cent ("25" or "25%");
     ``max_loss_change`` dB ("0.5" or "0.5dB"); the others plain numbers. ``names`` maps each key to the
-    name used in error messages (default: the command-line option).
+    name used in error messages (default: the key itself).
     """
 
     base = base or Limits()

@@ -57,7 +57,7 @@ def parse_frequency(text, option: str = "frequency") -> float:
     return hz
 
 
-def parse_length(text, option: str = "--length", allow_zero: bool = True) -> float:
+def parse_length(text, option: str = "length", allow_zero: bool = True) -> float:
     """'30m', '98ft', '98 ft', "12'" -> metres. A unit is required (metres and feet are both in use)."""
     m = _scaled(text, option, "length", "30m or 98ft", _LENGTH)
     if m < 0 or (m == 0 and not allow_zero):
@@ -65,7 +65,7 @@ def parse_length(text, option: str = "--length", allow_zero: bool = True) -> flo
     return m
 
 
-def parse_delay(text, option: str = "--delay") -> float:
+def parse_delay(text, option: str = "delay") -> float:
     """One-way delay: '152ns', '0.152us'; a bare number is taken as nanoseconds. -> seconds."""
     s = _scaled(text, option, "delay", "152ns", _TIME, default_unit="ns")
     if s < 0:
@@ -73,7 +73,7 @@ def parse_delay(text, option: str = "--delay") -> float:
     return s
 
 
-def parse_power(text, option: str = "--power") -> float:
+def parse_power(text, option: str = "power") -> float:
     """'100W', '1.5kW', '500mW'; a bare number is taken as watts. -> watts (positive)."""
     w = _scaled(text, option, "power", "100W", _POWER, default_unit="w")
     if w <= 0:
@@ -81,7 +81,7 @@ def parse_power(text, option: str = "--power") -> float:
     return w
 
 
-def parse_loss_point(text, option: str = "--loss") -> tuple[float, float]:
+def parse_loss_point(text, option: str = "loss") -> tuple[float, float]:
     """'1.25dB@14MHz' -> (1.25, 14e6): a one-way matched loss in dB at a frequency."""
     s = str(text).strip()
     parts = s.split("@")
@@ -131,17 +131,17 @@ _INDUCTANCE = {"h": 1.0, "mh": 1e-3, "uh": 1e-6, "µh": 1e-6, "nh": 1e-9, "ph": 
 _RESISTANCE = {"ohm": 1.0, "ohms": 1.0, "ω": 1.0, "r": 1.0}
 
 
-def parse_capacitance(text, option: str = "--open-c") -> float:
+def parse_capacitance(text, option: str = "open_c") -> float:
     """'12fF', '0.05pF' -> farads. A unit is required; a kit's stated offset may be negative."""
     return _scaled(text, option, "capacitance", "12fF", _CAPACITANCE)
 
 
-def parse_inductance(text, option: str = "--short-l") -> float:
+def parse_inductance(text, option: str = "short_l") -> float:
     """'5pH', '0.02nH' -> henries. A unit is required; a kit's stated offset may be negative."""
     return _scaled(text, option, "inductance", "5pH", _INDUCTANCE)
 
 
-def parse_resistance(text, option: str = "--load-r") -> float:
+def parse_resistance(text, option: str = "load_r") -> float:
     """'50.2', '50.2ohm' -> ohms (a bare number is ohms). Must be positive."""
     r = _scaled(text, option, "resistance", "50.2ohm", _RESISTANCE, default_unit="ohm")
     if r <= 0:

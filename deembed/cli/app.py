@@ -17,6 +17,7 @@ from .compare import compare_command
 from .correct import correct_command
 from .demo import demo_command
 from .locate import locate_command
+from .options import OPTION_FOR_FIELD
 from .site import site_command
 from ..render.safety import safety_line
 
@@ -54,7 +55,8 @@ def main(argv=None) -> int:
     except DeembedError as exc:
         if debug:
             raise
-        print("error: " + " ".join(str(exc).splitlines()), file=sys.stderr)  # always one line
+        # the library names fields (power, length); the command line names its options (--power, --length)
+        print("error: " + " ".join(exc.render(OPTION_FOR_FIELD).splitlines()), file=sys.stderr)  # always one line
         return 2
     except typer.Exit as exc:
         return exc.exit_code

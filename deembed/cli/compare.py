@@ -11,7 +11,7 @@ from typing import List, Optional
 import typer
 
 from .options import (CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, PortOpt, VfOpt,
-                      Z0Opt, build_line, check_port)
+                      Z0Opt, OPTION_FOR_FIELD, build_line, check_port)
 
 MaxShiftOpt = typer.Option(None, "--max-shift", help="Largest acceptable move of the feedpoint resonance, "
                                                      "e.g. 50kHz (default 50kHz).")
@@ -69,7 +69,7 @@ def compare_command(
     if as_json:
         print(json.dumps(to_jsonable(result), indent=2, allow_nan=False))
     else:
-        print(compare_text(result))
+        print(compare_text(result, OPTION_FOR_FIELD))
         if out:
             print(f"\nresults in {out}/ (open the .compare.html)")
     if not result["verdict"]["within_limits"]:

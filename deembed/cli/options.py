@@ -46,12 +46,27 @@ def check_port(port) -> None:
     _check(port, "--port")
 
 
+OPTION_FOR_FIELD = {
+    **{k: f"--{k}" for k in ("cable", "length", "vf", "delay", "z0", "loss", "line", "cables", "port", "out",
+                             "power", "extrapolate", "target", "open", "short", "load")},
+    "measured_swr": "--measured-swr", "antenna_swr": "--antenna-swr", "open_c": "--open-c", "short_l": "--short-l",
+    "load_r": "--load-r", "standards": "--open/--short/--load", "swr_threshold": "--swr-limits",
+    "max_shift": "--max-shift", "max_swr_rise": "--max-swr-rise", "max_gamma_change": "--max-gamma-change",
+    "max_bw_loss": "--max-bw-loss", "max_loss_change": "--max-loss-change",
+}
+"""The library's field names (in :class:`~deembed.base.errors.DeembedError` messages) and the options that set
+them: the command line shows its option names in every error."""
+
+LINE_OPTIONS = {k: OPTION_FOR_FIELD[k] for k in ("cable", "length", "vf", "delay", "z0", "loss", "line")}
+
+
 def build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate=False):
     """The line from the shared options, plus notes for the summary."""
     from ..io.linefile import line_from_options
 
     return line_from_options(cable=cable, length=length, vf=vf, delay=delay, z0=z0, loss=loss or (),
-                             cables_file=cables, line_file=line, allow_extrapolation=extrapolate)
+                             cables_file=cables, line_file=line, allow_extrapolation=extrapolate,
+                             names=LINE_OPTIONS)
 
 
 def parse_thresholds(text: str) -> tuple:

@@ -75,9 +75,9 @@ def catalog(user_file=None) -> dict[str, Cable]:
     return cat
 
 
-def lookup(cable_id: str, cat: dict[str, Cable], option: str = "--cable") -> Cable:
+def lookup(cable_id: str, cat: dict[str, Cable], option: str = "cable") -> Cable:
     key = cable_id.strip().lower()
     if key not in cat:
         raise OptionError(option, f"unknown cable {cable_id!r}; known: {', '.join(sorted(cat))} "
-                                  "(or add yours with --cables FILE)")
+                                  "(or add yours with `cables` FILE)")
     return cat[key]

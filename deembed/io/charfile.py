@@ -175,10 +175,10 @@ class CharacterizedLine:
         lo, hi = float(np.min(f)), float(np.max(f))
         if not inside(lo, hi, self.f_min_hz, self.f_max_hz):
 
-            raise OptionError("--line", f"{self.source} characterizes the line from {fmt_freq(self.f_min_hz)} to "
+            raise OptionError("line", f"{self.source} characterizes the line from {fmt_freq(self.f_min_hz)} to "
                                         f"{fmt_freq(self.f_max_hz)}, but the sweep runs from {fmt_freq(lo)} to "
                                         f"{fmt_freq(hi)}; characterize the line over the sweep's range, or pass "
-                                        "--extrapolate to use its fitted model beyond it")
+                                        "`extrapolate` to use its fitted model beyond it")
 
     def _between_method(self, f) -> str:
         """"exact" when every frequency is a measured point, else the method used between points."""

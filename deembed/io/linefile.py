@@ -56,7 +56,9 @@ class SectionSpec:
 SECTION_KEYS = ("cable", "length", "vf", "delay", "z0", "loss")
 """The keys that describe one section of line (in a line file's [[section]], a site file's feed, the options)."""
 
-_OPT = {"cable": "--cable", "length": "--length", "vf": "--vf", "delay": "--delay", "z0": "--z0", "loss": "--loss"}
+_OPT = {k: k for k in SECTION_KEYS}
+"""Default names of the section fields in messages and notes: the fields themselves (a caller such as the
+command line passes its own names, e.g. its options)."""
 
 
 def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Section, list[str]]:
@@ -101,7 +103,7 @@ def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Sec
         loss = LossModel.from_k(cable.k1, cable.k2, length_m)
     else:
         loss = LossModel()
-        notes.append("no loss given for the line: it is taken as lossless (give --loss or --cable)")
+        notes.append(f"no loss given for the line: it is taken as lossless (give {names['loss']} or {names['cable']})")
 
     if delay_s == 0 and (loss.c_np or loss.d_np):
         raise OptionError(names["length"], "a section with loss must have a length or delay above zero")
@@ -110,19 +112,24 @@ def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Sec
 
 
 def line_from_options(*, cable=None, length=None, vf=None, delay=None, z0=None, loss=(), cables_file=None,
-                      line_file=None, allow_extrapolation: bool = False) -> tuple[Line, list[str]]:
-    """The line described by the command-line options (or by ``--line FILE``)."""
-    given = [n for n, v in (("--cable", cable), ("--length", length), ("--vf", vf), ("--delay", delay),
-                            ("--z0", z0), ("--loss", loss)) if v]
+                      line_file=None, allow_extrapolation: bool = False, names: dict | None = None
+                      ) -> tuple[Line, list[str]]:
+    """The line described by one section's values (or by a line file); ``names`` says how messages and notes
+    name each of ``cable``, ``length``, ``vf``, ``delay``, ``z0``, ``loss`` and ``line`` (default: so)."""
+    n = {**_OPT, "line": "line", **(names or {})}
+    given = [n[k] for k, v in (("cable", cable), ("length", length), ("vf", vf), ("delay", delay),
+                               ("z0", z0), ("loss", loss)) if v]
     if line_file:
         if given:
-            raise OptionError("--line", f"give either --line or {', '.join(given)}, not both")
+            raise OptionError(n["line"], f"give either {n['line']} or {', '.join(given)}, not both")
         return read_line_file(line_file, cables_file, allow_extrapolation)
     if not given:
-        raise OptionError("--line", "say which line to remove: --cable ID --length L, or --length/--vf/--loss, "
-                                    "or --line FILE (see deembed correct --help)")
+        raise OptionError(n["line"], f"say which line to remove: {n['cable']} ID {n['length']} L, or "
+                                     f"{n['length']}/{n['vf']}/{n['loss']}, or {n['line']} FILE "
+                                     "(see deembed correct --help)")
     cat = _cables.catalog(cables_file)
-    sec, notes = build_section(SectionSpec(cable, length, vf, delay, z0, list(loss or [])), cat)
+    sec, notes = build_section(SectionSpec(cable, length, vf, delay, z0, list(loss or [])), cat,
+                               {k: n[k] for k in SECTION_KEYS})
     return Line((sec,)), notes
 
 

@@ -128,7 +128,7 @@ def read_sweep(path, *, port: int | None = None, expect_ports: int | None = 1) -
     InputFileError
         For anything that is not a readable Touchstone file, with the line number where there is one.
     OptionError
-        ``--port`` out of range for the file.
+        ``port`` out of range for the file.
 
     Notes
     -----
@@ -143,7 +143,7 @@ def read_sweep(path, *, port: int | None = None, expect_ports: int | None = 1) -
     name = str(path)
     if port is not None:
         if isinstance(port, bool) or not isinstance(port, (int, np.integer)) or port < 1:
-            raise OptionError("--port", f"{port!r} is not a port number; use 1, 2, ...")
+            raise OptionError("port", f"{port!r} is not a port number; use 1, 2, ...")
     text = _read_text(Path(path), name)
     hdr, data_start, data_line, data_end = _parse_header(text, name)
     p = hdr.nports
@@ -181,13 +181,13 @@ def read_sweep(path, *, port: int | None = None, expect_ports: int | None = 1) -
     sel_ref = z_ref
     if port is not None:
         if port > p:
-            raise OptionError("--port", f"{name} has {p} port{'s' if p > 1 else ''}; "
-                                        f"use --port {' or --port '.join(str(k) for k in range(1, p + 1))}")
+            raise OptionError("port", f"{name} has {p} port{'s' if p > 1 else ''}; "
+                                      f"use `port` {' or `port` '.join(str(k) for k in range(1, p + 1))}")
         s = s[:, port - 1:port, port - 1:port].copy()
         sel_ref = z_ref[port - 1:port]
     if expect_ports is not None and s.shape[1] != expect_ports:
         if expect_ports == 1:
-            picks = " or ".join(f"--port {k}" for k in range(1, p + 1))
+            picks = " or ".join(f"`port` {k}" for k in range(1, p + 1))
             sparams = " or ".join(f"S{k}{k}" for k in range(1, p + 1))
             raise InputFileError(name, f"this is a {p}-port file but a one-port sweep is needed; "
                                        f"pass {picks} to use {sparams}")

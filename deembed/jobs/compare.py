@@ -32,7 +32,7 @@ def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *
     """Write the comparison's JSON, overlay PNG and HTML atomically; returns the paths written."""
 
     for p in paths.values():
-        check_not_input(p, [i for i in inputs if i], "--out")
+        check_not_input(p, [i for i in inputs if i], "out")
     os.makedirs(os.path.dirname(os.path.abspath(paths["compare_json"])), exist_ok=True)
     save(compare_plot(before, after, title), paths["compare_png"])
     result = dict(result, outputs={k: os.path.basename(v) for k, v in paths.items()})

@@ -68,18 +68,18 @@ def prepare_out_dir(out_dir: str) -> None:
     (Outputs that would overwrite an input are refused by :func:`refuse_overwriting_inputs`.)
     """
     if os.path.exists(out_dir) and not os.path.isdir(out_dir):
-        raise OptionError("--out", f"{out_dir} is a file; give a folder for the results")
+        raise OptionError("out", f"{out_dir} is a file; give a folder for the results")
     try:
         os.makedirs(out_dir, exist_ok=True)
     except OSError as exc:
-        raise OptionError("--out", f"cannot create the folder {out_dir} ({exc.strerror}); check the path: its parent "
+        raise OptionError("out", f"cannot create the folder {out_dir} ({exc.strerror}); check the path: its parent "
                                    "folders must exist as folders and be writable") from None
 
 
 def refuse_overwriting_inputs(paths: dict, inputs) -> None:
 
     for p in paths.values():
-        check_not_input(p, [i for i in inputs if i], "--out")
+        check_not_input(p, [i for i in inputs if i], "out")
 
 
 def budget_columns(corr, power_w: float) -> dict:

@@ -132,7 +132,7 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
     """
 
     if os.path.exists(out_dir) and not os.path.isdir(out_dir):
-        raise OptionError("--out", f"{out_dir} is a file; give a folder for the results")
+        raise OptionError("out", f"{out_dir} is a file; give a folder for the results")
     site = load_site(path, out_dir)
     os.makedirs(out_dir, exist_ok=True)
     results = [None] * len(site.jobs)

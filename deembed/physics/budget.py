@@ -16,7 +16,7 @@ def _out(x, scalar: bool):
     return float(x) if scalar else x
 
 
-def _loss_factor(matched_loss_db, option="--loss"):
+def _loss_factor(matched_loss_db, option="loss"):
     ml = np.asarray(matched_loss_db, dtype=float)
     if np.any(~np.isfinite(ml)) or np.any(ml < 0):
         raise OptionError(option, "the matched line loss must be a finite number of dB, zero or more (e.g. 1.25dB)")
@@ -67,7 +67,7 @@ def power_budget(power_w, matched_loss_db, gamma_antenna) -> dict:
     scalar = all(np.ndim(v) == 0 for v in (power_w, matched_loss_db, gamma_antenna))
     p = np.asarray(power_w, dtype=float)
     if np.any(~np.isfinite(p)) or np.any(p <= 0):
-        raise OptionError("--power", "the power must be a positive number of watts (e.g. 100W)")
+        raise OptionError("power", "the power must be a positive number of watts (e.g. 100W)")
     ml, a = _loss_factor(matched_loss_db)
     gl = np.abs(np.asarray(gamma_antenna, dtype=complex))
     gl = np.where(gl <= 1.0, gl, np.nan)
@@ -117,7 +117,7 @@ def antenna_swr_from_measured(measured_swr, matched_loss_db):
     Raises
     ------
     OptionError
-        ``--measured-swr`` when the reading is not an SWR, or when the line loss would need the
+        ``measured_swr`` when the reading is not an SWR, or when the line loss would need the
         antenna to reflect all the power or more (|Gamma_L| >= 1): the loss figure or the reading is
         wrong.
 
@@ -128,14 +128,14 @@ def antenna_swr_from_measured(measured_swr, matched_loss_db):
     scalar = np.ndim(measured_swr) == 0 and np.ndim(matched_loss_db) == 0
     s = np.asarray(measured_swr, dtype=float)
     if np.any(~np.isfinite(s)) or np.any(s < 1):
-        raise OptionError("--measured-swr", "an SWR reading must be a finite number of 1 or more (e.g. 1.5)")
+        raise OptionError("measured_swr", "an SWR reading must be a finite number of 1 or more (e.g. 1.5)")
     ml, a = _loss_factor(matched_loss_db)
     s, ml, a = np.broadcast_arrays(s, ml, a)
     g_l = gamma_mag_from_swr(s) * a
     if np.any(g_l >= 1):
         k = np.unravel_index(np.argmax(g_l), g_l.shape)
         raise OptionError(
-            "--measured-swr",
+            "measured_swr",
             f"an SWR of {s[k]:g} read behind {ml[k]:g} dB of matched line loss would need the antenna to "
             f"reflect all the power or more (|Gamma| = {g_l[k]:.3g}); the line loss is larger than the "
             "reading allows, so the loss figure or the reading is wrong")

@@ -59,7 +59,7 @@ class LossModel:
         return cls(k1_db_per_100ft * per_m / 1e3, k2_db_per_100ft * per_m / 1e6)
 
     @classmethod
-    def fit(cls, points, option: str = "--loss") -> "LossModel":
+    def fit(cls, points, option: str = "loss") -> "LossModel":
         """Fit to measured or quoted points [(dB, Hz), ...].
 
         One point: all conductor loss (sqrt(f) scaling). Two or more: non-negative least squares
@@ -190,7 +190,7 @@ class MeasuredTwoPort:
         if f.shape == self.freq_hz.shape and np.array_equal(f, self.freq_hz):
             return self.s
         raise OptionError(
-            "--line",
+            "line",
             f"{self.source or self.label} was measured at other frequencies than the sweep; "
             "measure the line over the sweep's own points, or characterize it so it can be evaluated through its model",
         )
@@ -216,7 +216,7 @@ class Line:
 
     def __post_init__(self):
         if not self.parts:
-            raise OptionError("--line", "a line needs at least one section")
+            raise OptionError("line", "a line needs at least one section")
 
     def abcd_parts(self, freq_hz):
         """Cascade ABCD as four arrays (A, B, C, D), multiplied out element by element."""

@@ -141,8 +141,12 @@ def stderr_progress():
     return show
 
 
-def compare_text(result: dict) -> str:
-    """A few readable lines: the numbers at both ends, the verdict naming the limits exceeded, the diagnosis."""
+def compare_text(result: dict, limit_names: dict | None = None) -> str:
+    """A few readable lines: the numbers at both ends, the verdict naming the limits exceeded, the diagnosis.
+
+    ``limit_names`` says how to name each limit (the command line passes its option names); default: the
+    limit's key (``max_shift``).
+    """
 
     fp, sh = result["feedpoint"], result["shack"]
 
@@ -185,7 +189,7 @@ def compare_text(result: dict) -> str:
     if v["within_limits"]:
         lines.append("verdict  WITHIN LIMITS")
     else:
-        names = ", ".join(LIMIT_NAMES[k] for k in v["exceeded"])
+        names = ", ".join((limit_names or LIMIT_NAMES).get(k, k) for k in v["exceeded"])
         lines.append(f"verdict  OUTSIDE LIMITS ({names})")
         lines += [f"         - {r}" for r in v["reasons"]]
     lines.append(f"cause    {result['diagnosis']['code']}: {result['diagnosis']['text']}")
