@@ -169,7 +169,7 @@ def test_cli_correct_and_compare_carry_between_points(tmp_path, capsys):
     out = tmp_path / "out"
     assert main(["correct", str(sp), "--line", path, "--out", str(out)]) == 0
     text = capsys.readouterr().out
-    assert "between points: interpolated" in text
+    assert "between points: interpolated with the run's delay removed" in text
     summary = json.loads((out / "analyzer.summary.json").read_text())
     bp = summary["line"]["between_points"]
     assert bp["method"] == "interpolated" and bp["estimated_error"] < 0.01
@@ -184,3 +184,27 @@ def test_cli_correct_and_compare_carry_between_points(tmp_path, capsys):
     res = json.loads(capsys.readouterr().out)
     assert res["line"]["between_points"]["after"]["method"] == "interpolated"
     assert res["line"]["between_points"]["before"]["estimated_error"] < 0.01
+
+
+def test_site_carries_between_points(tmp_path):
+    from deembed.io.touchstone import write_touchstone
+    from deembed.jobs.site import run_site
+
+    grid = np.linspace(3e6, 30e6, 201)
+    _characterize_file(tmp_path, mixed_run(grid), grid)
+    f2 = _other_points()
+    for name, f0 in (("base.s1p", 14e6), ("after.s1p", 14.2e6)):
+        sweep, _ = _sweep(mixed_run, f2, f0_ant=f0)
+        write_touchstone(tmp_path / name, f2, sweep.gamma)
+    site = tmp_path / "hill.site.toml"
+    site.write_text('name = "Invented hill"\n\n[[feed]]\nname = "20 m dipole"\nline = "run.s2p"\n'
+                    'baseline = "base.s1p"\nlatest = "after.s1p"\n')
+    out = tmp_path / "site-out"
+    summary = run_site(str(site), str(out), workers=1)
+    feed = summary["feeds"][0]
+    assert feed["baseline"]["between_points"]["method"] == "interpolated"
+    cmp = feed["comparisons"][0]
+    assert cmp["between_points"]["method"] == "interpolated" and cmp["between_points"]["estimated_error"] < 0.01
+    saved = json.loads((out / "site.json").read_text())
+    assert saved["feeds"][0]["comparisons"][0]["between_points"]["points_between"] == 400
+    assert "between characterized points: interpolated" in (out / "index.html").read_text()

@@ -74,19 +74,27 @@ def between_warnings(bp: dict | None, label: str = "") -> list[str]:
     return out
 
 
+SHORT_TEXT = {
+    "exact": "exact (the sweep is on the characterized points)",
+    "interpolated": "interpolated with the run's delay removed",
+    "model": "fitted line model",
+}
+
+
 def between_text(bp: dict | None) -> str:
-    """One line: how the line was evaluated between its points and the estimated error."""
+    """One short line: how the line was evaluated between its points and the estimated error."""
     if not bp:
         return ""
     m = bp.get("method", "")
-    text = METHOD_TEXT.get(m, m)
+    text = SHORT_TEXT.get(m, m)
     if m == "exact":
         return text
     err = bp.get("estimated_error")
-    tail = f"; estimated error up to {err:.2g} in |Gamma| at the feedpoint" if err is not None else ""
+    how = "leave-one-out" if m == "interpolated" else "model misfit"
+    tail = f", estimated error up to {err:.2g} in |Gamma| at the feedpoint ({how})" if err is not None else ""
     beyond = bp.get("points_beyond") or 0
     extra = f"; {beyond} point(s) beyond its range through the model" if beyond else ""
-    return f"{text}{tail} (from {bp.get('error_from', '')}){extra}"
+    return f"{text}{tail}{extra}"
 
 
-__all__ = ["METHOD_TEXT", "between_error", "between_points", "between_text", "between_warnings"]
+__all__ = ["METHOD_TEXT", "SHORT_TEXT", "between_error", "between_points", "between_text", "between_warnings"]

@@ -376,7 +376,9 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
     bp_after = between_points(after.line, after.freq_hz, after.gamma_feed)
     if bp_before or bp_after:
         line["between_points"] = {"before": bp_before, "after": bp_after}
-    between_notes = between_warnings(bp_before, "baseline") + between_warnings(bp_after, "after work")
+    wb, wa = between_warnings(bp_before), between_warnings(bp_after)
+    between_notes = ([w for w in wb if w in wa] + [f"baseline: {w}" for w in wb if w not in wa]
+                     + [f"after work: {w}" for w in wa if w not in wb])  # one characterization: said once
 
     verdict = _verdict(fp, line, limits, res_b, res_a)
     diagnosis = diagnose(fp, sh, line, limits, verdict)

@@ -256,10 +256,10 @@ def _between(bp) -> str:
                              f"between them, {bp.get('points_beyond', 0)} beyond the range"),
             ("Estimated error at the feedpoint", f"up to {_num(err, '.2g')} in |&Gamma;|{at}{pill}"
                                                  f"<br><span class='muted'>from {_e(bp.get('error_from', ''))}</span>"),
-            ("Characterization step", f"{_e(fmt_freq(bp.get('grid_step_hz')))} (this run needs "
-                                      f"{_e(fmt_freq(bp.get('needed_step_hz')))} or less: 1/(2 &times; "
-                                      f"{_num((bp.get('longest_two_way_delay_s') or 0) * 1e9, '.1f')} ns two-way delay) "
-                                      f"with a margin of {bp.get('grid_margin', 0):g})")]
+            ("Characterization step", f"{_e(fmt_freq(bp.get('grid_step_hz')))}; this run needs "
+                                      f"{_e(fmt_freq(bp.get('needed_step_hz')))} or less, that is 1/(2 &times; "
+                                      f"{_num((bp.get('longest_two_way_delay_s') or 0) * 1e9, '.1f')} ns) for its "
+                                      f"longest two-way delay, with a margin of {bp.get('grid_margin', 0):g}")]
     if _finite(bp.get("delay_removed_s")):
         rows.append(("Delay removed before interpolating", f"{bp['delay_removed_s'] * 1e9:.2f} ns one way"))
     body = "".join(f"<tr><th>{k}</th><td>{v}</td></tr>" for k, v in rows)

@@ -181,9 +181,11 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
     if ln["loss_change_db"] is not None:
         lines.append(f"\nline     {ln['before']}\n  now    {ln['after']}\n         matched loss change "
                      f"{ln['loss_change_db']['at_centre']:+.2f} dB at mid-band")
-    for which, bp in (ln.get("between_points") or {}).items():
-        if bp:
-            lines.append(f"line between points ({which}): {between_text(bp)}")
+    texts = {k: between_text(bp) for k, bp in (ln.get("between_points") or {}).items() if bp}
+    if len(set(texts.values())) == 1 and len(texts) == 2:
+        lines.append(f"line between points: {next(iter(texts.values()))}")
+    else:
+        lines += [f"line between points ({which}): {text}" for which, text in texts.items()]
     v = result["verdict"]
     lines.append("")
     if v["within_limits"]:
