@@ -11,7 +11,7 @@ $(VENV)/bin/python:
 	$(PY) -m pip install --quiet --upgrade pip
 
 $(STAMP): pyproject.toml | $(VENV)/bin/python
-	$(PY) -m pip install --quiet -e '.[test]'
+	$(PY) -m pip install --quiet -e '.[test,postgres]'
 	touch $(STAMP)
 
 demo: $(STAMP)

@@ -7,8 +7,10 @@ import sys
 
 sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 
+from deembed.jobs.sample_history import write_history  # noqa: E402
 from deembed.jobs.samples import write_samples  # noqa: E402
 
 if __name__ == "__main__":
-    for path in write_samples(os.path.dirname(os.path.abspath(__file__))):
+    here = os.path.dirname(os.path.abspath(__file__))
+    for path in write_samples(here) + write_history(os.path.join(here, "history")):
         print(path)

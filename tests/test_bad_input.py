@@ -782,6 +782,8 @@ def test_site_paths_resolve_relative_to_the_site_file(capsys, tmp_path, station,
     assert code in (0, 1), err  # 1 would be a verdict, not an error
     summary = json.loads((tmp_path / "out" / "site.json").read_text())
     assert [f["status"] for f in summary["feeds"]] != ["error"], summary["feeds"]
-    assert snapshot(*station.iterdir()) == before
+    # the inputs are unchanged; the only new file is the site's history store, which belongs beside it
+    assert snapshot(*[p for p in station.iterdir() if p.name != "s.history.sqlite"]) == before
+    assert sorted(p.name for p in station.iterdir()) == sorted([*(Path(p).name for p in before), "s.history.sqlite"])
     index = (tmp_path / "out" / "index.html").read_text(encoding="utf-8")
     assert "<b>40 m</b>" not in index and "&lt;b&gt;40 m&lt;/b&gt;" in index  # a name from a file is escaped

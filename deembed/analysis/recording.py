@@ -28,9 +28,11 @@ import math
 
 import numpy as np
 
+from ..physics.line import DB_PER_NP
+from .compare import fitted_resonance
 from ..io.history import Value
 
-DB_PER_NP = 20 / math.log(10)
+
 
 
 def _gamma_feedpoint(corr):
@@ -78,7 +80,6 @@ def line_loss_at_centre(corr) -> tuple[float, float]:
 
 def sweep_values(corr, summary: dict, comparison: dict | None = None) -> tuple:
     """The values to record for one corrected sweep (see the module notes)."""
-    from .compare import fitted_resonance
 
     fp = summary["feedpoint"]
     out = []

@@ -42,6 +42,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..base.errors import OptionError
+from ..base.units import fmt_freq, parse_frequency
 
 DAYS_PER_YEAR = 365.25
 INTERVAL_Z = 1.959963984540054
@@ -175,7 +176,6 @@ class TrendLimits:
 def parse_trend_limits(max_loss_rise: str | None = None, max_drift: str | None = None) -> TrendLimits:
     """Limits from option text: ``--max-loss-rise 0.2dB`` (per year) and ``--max-drift 0.2%`` or ``20kHz``
     (per year)."""
-    from ..base.units import parse_frequency
 
     out = {}
     if max_loss_rise is not None:
@@ -258,7 +258,6 @@ def fit_series(series: Series, origin: str) -> SlopeFit | None:
 
 
 def _fmt(q: str, v: float) -> str:
-    from ..base.units import fmt_freq
 
     if q == "resonance_hz":
         return fmt_freq(v, 6)
@@ -268,7 +267,6 @@ def _fmt(q: str, v: float) -> str:
 
 
 def _rate(q: str, v: float) -> str:
-    from ..base.units import fmt_freq
 
     if q == "resonance_hz":
         return ("+" if v >= 0 else "-") + fmt_freq(abs(v), 3) + "/yr"
@@ -316,7 +314,6 @@ def step_flags(series: Series, origin: str) -> list:
 
 
 def _sign(q: str, d: float) -> str:
-    from ..base.units import fmt_freq
 
     if q == "resonance_hz":
         return ("+" if d >= 0 else "-") + fmt_freq(abs(d), 3)

@@ -20,6 +20,7 @@ from .locate import locate_command
 from .options import OPTION_FOR_FIELD
 from .site import site_command
 from ..render.safety import safety_line
+from .trend import trend_command
 
 SAFETY = safety_line()
 
@@ -42,6 +43,7 @@ app.command("characterize")(characterize_command)
 app.command("compare")(compare_command)
 app.command("site")(site_command)
 app.command("locate")(locate_command)
+app.command("trend")(trend_command)
 
 
 def main(argv=None) -> int:

@@ -6,12 +6,13 @@ Exit status: 0 when everything is within its limits, 1 when a limit is exceeded,
 from __future__ import annotations
 
 import json
+import sys
 from typing import List, Optional
 
 import typer
 
-from .options import (CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, PortOpt, VfOpt,
-                      Z0Opt, OPTION_FOR_FIELD, build_line, check_port)
+from .options import (CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, NameOpt, PortOpt,
+                      RecordOpt, VfOpt, Z0Opt, OPTION_FOR_FIELD, build_line, check_port, record_options)
 
 MaxShiftOpt = typer.Option(None, "--max-shift", help="Largest acceptable move of the feedpoint resonance, "
                                                      "e.g. 50kHz (default 50kHz).")
@@ -49,6 +50,12 @@ def compare_command(
     out: Optional[str] = typer.Option(None, "--out", help="Folder for the overlay plot, the JSON and a small "
                                                           "HTML page."),
     as_json: bool = typer.Option(False, "--json", help="Print the comparison as JSON on standard output."),
+    record: Optional[str] = RecordOpt,
+    date: Optional[str] = typer.Option(None, "--date", help="The day the AFTER sweep was taken, YYYY-MM-DD, for "
+                                                            "--record (default: its file's modification day, flagged)."),
+    baseline_date: Optional[str] = typer.Option(None, "--baseline-date", help="The day the baseline was taken, "
+                                                "for --record (default: its file's modification day, flagged)."),
+    name: Optional[str] = NameOpt,
 ):
     """Compare an after-work sweep with a baseline through the same line: did the antenna or the line change?
 
@@ -56,22 +63,30 @@ def compare_command(
     """
     from ..analysis.limits import parse_limits
     from ..io.jsonfile import to_jsonable
-    from ..jobs.compare import compare_files
+    from ..jobs.compare import compare_files_with_corrections
     from ..render.text import compare_text
 
     check_port(port)
     limits = parse_limits({"max_shift": max_shift, "max_swr_rise": max_swr_rise,
                            "max_gamma_change": max_gamma_change, "max_bw_loss": max_bw_loss,
                            "max_loss_change": max_loss_change})
+    the_date, the_baseline_date = record_options(record, date, name, baseline_date=baseline_date)
     the_line, _ = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate)
-    result = compare_files(baseline, after, the_line, after_line=after_line, limits=limits, port=port, out=out,
-                           cables=cables, extrapolate=extrapolate, inputs=[line])
+    result, before, later = compare_files_with_corrections(baseline, after, the_line, after_line=after_line,
+                                                           limits=limits, port=port, out=out, cables=cables,
+                                                           extrapolate=extrapolate, inputs=[line])
     if as_json:
         print(json.dumps(to_jsonable(result), indent=2, allow_nan=False))
     else:
         print(compare_text(result, OPTION_FOR_FIELD))
         if out:
             print(f"\nresults in {out}/ (open the .compare.html)")
+    if record is not None:
+        from ..jobs.record import record_comparison, recorded_text
+
+        info = record_comparison(record, before, later, result, baseline, after, name=name, date=the_date,
+                                 baseline_date=the_baseline_date)
+        print(recorded_text(info), file=sys.stderr if as_json else sys.stdout)
     if not result["verdict"]["within_limits"]:
         raise typer.Exit(code=1)
 

@@ -2,12 +2,13 @@
 from __future__ import annotations
 
 import json
+import sys
 from typing import List, Optional
 
 import typer
 
-from .options import (CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, PortOpt, VfOpt,
-                      Z0Opt, build_line, check_port, parse_thresholds)
+from .options import (CableOpt, CablesOpt, DateOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, NameOpt,
+                      PortOpt, RecordOpt, VfOpt, Z0Opt, build_line, check_port, parse_thresholds, record_options)
 
 
 def correct_command(
@@ -30,6 +31,9 @@ def correct_command(
     bands_file: Optional[str] = typer.Option(None, "--bands-file", help="Check the bands in this TOML file."),
     no_plots: bool = typer.Option(False, "--no-plots", help="Skip the PNG plots and the HTML report."),
     as_json: bool = typer.Option(False, "--json", help="Print the summary as JSON on standard output."),
+    record: Optional[str] = RecordOpt,
+    date: Optional[str] = DateOpt,
+    name: Optional[str] = NameOpt,
 ):
     """Correct a sweep through a known line: feedpoint Touchstone, table, summary, plots and report."""
     from ..io.jsonfile import to_jsonable
@@ -37,6 +41,7 @@ def correct_command(
     from ..base.units import parse_frequency, parse_power
 
     check_port(port)
+    the_date, _ = record_options(record, date, name)
     the_line, notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate)
     opts = workflow.Options(
         port=port, thresholds=parse_thresholds(swr_limits),
@@ -44,10 +49,15 @@ def correct_command(
         power_w=parse_power(power) if power else None,
         bands=bands, bands_file=bands_file, plots=not no_plots, html=not no_plots, notes=notes,
     )
-    _, summary, _ = workflow.correct_file(sweep, the_line, out, opts, line_inputs=[line, cables])
+    corr, summary, _ = workflow.correct_file(sweep, the_line, out, opts, line_inputs=[line, cables])
     if as_json:
         print(json.dumps(to_jsonable(summary), indent=2))
     else:
         from ..render.text import correction_text
 
         print(correction_text(summary, out))
+    if record is not None:
+        from ..jobs.record import record_correction, recorded_text
+
+        info = record_correction(record, corr, summary, sweep, name=name, date=the_date)
+        print(recorded_text(info), file=sys.stderr if as_json else sys.stdout)

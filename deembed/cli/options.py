@@ -79,3 +79,30 @@ def parse_thresholds(text: str) -> tuple:
             raise OptionError("--swr-limits", f"{part.strip()!r}: an SWR threshold must be above 1")
         vals.append(v)
     return tuple(sorted(set(vals)))
+
+
+RecordOpt = typer.Option(None, "--record", help="Record this run into a history store: a SQLite file (created "
+                                                "if missing) or a postgresql:// URL.")
+DateOpt = typer.Option(None, "--date", help="The day the sweep was taken, YYYY-MM-DD, for --record (default: "
+                                            "the file's modification day, flagged as such).")
+NameOpt = typer.Option(None, "--name", help="The antenna's name in the history store (default: the sweep "
+                                            "file's name without its extension).")
+
+
+def record_options(record, date, name, *, baseline_date=None):
+    """Check --record/--date/--name together; returns the parsed dates (date, baseline_date)."""
+    from ..jobs.record import check_store, parse_date
+
+    if record is None:
+        for opt, v in (("--date", date), ("--name", name), ("--baseline-date", baseline_date)):
+            if v is not None:
+                raise OptionError(opt, "only means something with --record STORE; add it, or leave this out")
+        return None, None
+    if not record.strip():
+        raise OptionError("--record", "empty; give a file name (e.g. site.history.sqlite) or a postgresql:// URL")
+    if name is not None and not name.strip():
+        raise OptionError("--name", "empty name; give the antenna's name, e.g. --name \"2 m vertical\"")
+    d = parse_date(date, "--date") if date is not None else None
+    bd = parse_date(baseline_date, "--baseline-date") if baseline_date is not None else None
+    check_store(record)
+    return d, bd

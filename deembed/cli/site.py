@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+from typing import Optional
 
 import typer
 
@@ -14,15 +15,22 @@ def site_command(
                                                           "a folder per feed."),
     workers: int = typer.Option(2, "--workers", help="Processes to run feeds on (default 2: both cores)."),
     as_json: bool = typer.Option(False, "--json", help="Print the site summary as JSON on standard output."),
+    record: Optional[str] = typer.Option(None, "--record", help="Record into this history store (a SQLite file or "
+                                         "a postgresql:// URL) instead of the site's own (its history key, or "
+                                         "the .history.sqlite file beside the site file)."),
+    no_record: bool = typer.Option(False, "--no-record", help="Record nothing and write no trend pages."),
 ):
     """Check every feed of a site against its baseline; one index page. Exit 0 when all pass, 1 otherwise."""
     from ..io.jsonfile import to_jsonable
     from ..jobs.site import run_site
     from ..render.text import site_text, stderr_progress
 
+    if record is not None and no_record:
+        raise OptionError("--no-record", "give either --record STORE or --no-record, not both")
     if workers < 1:
         raise OptionError("--workers", f"{workers}: give 1 or more processes")
-    summary = run_site(site_file, out, workers=workers, progress=stderr_progress())
+    summary = run_site(site_file, out, workers=workers, progress=stderr_progress(),
+                       record=False if no_record else (record if record is not None else True))
     if as_json:
         print(json.dumps(to_jsonable(summary), indent=2, allow_nan=False))
     else:

@@ -69,7 +69,8 @@ import os
 from dataclasses import dataclass
 from urllib.parse import urlsplit, urlunsplit
 
-from ..base.errors import InputFileError
+from .. import __version__
+from ..base.errors import InputFileError, OptionError
 
 SCHEMA_VERSION = 1
 """The schema version this code reads and writes (see the module notes)."""
@@ -321,7 +322,6 @@ class HistoryStore:
 
     def _prepare(self, version: int | None) -> None:
         """Inside a write transaction: create, keep, upgrade or refuse (see the module notes)."""
-        from .. import __version__
 
         if version is None:
             for sql in _SCHEMA:
@@ -387,7 +387,6 @@ class HistoryStore:
     def record(self, records) -> RecordResult:
         """Record sweeps, all in one transaction; a sweep already there (same site, antenna and content
         hash) is left exactly as it was."""
-        from .. import __version__
 
         records = list(records)
         now = _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat()
@@ -495,6 +494,21 @@ def check_record(r: SweepRecord, store_name: str) -> None:
         seen.add((v.quantity, v.idx))
 
 
+def parse_date(text: str, option: str = "--date") -> str:
+    """A calendar date ``YYYY-MM-DD`` (returned as the same text); refuses anything else, and days in
+    the future. ``option`` names the option or site-file key in the message."""
+    t = str(text).strip()
+    try:
+        d = _dt.date.fromisoformat(t)
+    except ValueError:
+        raise OptionError(option, f"{text!r} is not a date; write it as YYYY-MM-DD, e.g. 2026-03-14") from None
+    if len(t) != 10:
+        raise OptionError(option, f"{text!r}: write the date as YYYY-MM-DD, e.g. 2026-03-14")
+    if d > _dt.date.today() + _dt.timedelta(days=1):
+        raise OptionError(option, f"{t} is in the future; give the day the sweep was taken")
+    return d.isoformat()
+
+
 def open_store(target: str, *, create: bool = True) -> HistoryStore:
     """Open a history store: a SQLite file name, or a ``postgresql://`` URL.
 
@@ -524,4 +538,4 @@ def file_sha256(path: str) -> str:
 
 
 __all__ = ["DATE_SOURCES", "HistoryStore", "MIGRATIONS", "RecordResult", "ROLES", "SCHEMA_VERSION", "SweepRecord",
-           "Value", "default_store_path", "display_name", "file_sha256", "is_url", "open_store"]
+           "Value", "default_store_path", "display_name", "file_sha256", "is_url", "open_store", "parse_date"]

@@ -25,6 +25,11 @@ The site file is TOML of our own design; paths in it are relative to the file::
     after_line = "dipole-40m-2026.s2p" # optional: a fresh characterization for the latest sweeps
     port = 1                           # optional: the port of a 2-port sweep file
 
+A sweep entry (``baseline``, or an item of ``latest``) may also be a table with the day it was taken,
+``{ file = "after.s1p", date = "2026-03-14" }``. ``history = "FILE"`` (relative to the site file) or
+``history = "postgresql://..."`` names the history store every run records into; without it the store
+is ``<site>.history.sqlite`` beside the site file (:func:`deembed.io.history.default_store_path`).
+
 This module reads the file and each feed's entry into plain objects (:class:`Site`, :class:`FeedJob`,
 :class:`FeedFiles`) and builds a feed's line; the limits' values are checked by
 :func:`deembed.analysis.limits.parse_limits` in the site job (:mod:`deembed.jobs.site`), which runs the feeds.
@@ -35,17 +40,18 @@ from __future__ import annotations
 
 import os
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from ..base.errors import InputFileError, OptionError
 from ..physics.line import Line
 from .atomic import stem_of
 from .cables import catalog
+from .history import default_store_path, is_url, parse_date
 from .linefile import SECTION_KEYS, read_line_file, section_from_table
 from .tomlfile import load_toml
 from .touchstone import check_port
 
-SITE_KEYS = ("name", "cables", "limits", "feed")
+SITE_KEYS = ("name", "cables", "limits", "history", "feed")
 """Keys of the site file's top level."""
 
 FEED_KEYS = ("name", "line", "cable", "length", "vf", "delay", "z0", "loss", "baseline", "latest", "after_line",
@@ -66,6 +72,8 @@ class FeedJob:
     out_dir: str
     cables: str | None = None
     site_limits: dict = field(default_factory=dict)
+    site_name: str = ""
+    record: bool = False
 
     @property
     def where(self) -> str:
@@ -80,6 +88,9 @@ class Site:
     name: str
     path: str
     jobs: tuple
+    history: str = ""
+    """Where runs are recorded: the ``history`` key (a file relative to the site file, or a
+    ``postgresql://`` URL), or else the SQLite file beside the site file."""
 
 
 @dataclass(frozen=True)
@@ -96,6 +107,8 @@ class FeedFiles:
     after_line_file: str | None
     port: int | None
     own_limits: dict
+    dates: dict = field(default_factory=dict)
+    """Sweep path -> the date the site file gives it (``YYYY-MM-DD``), or None."""
 
 
 def slugify(name: str) -> str:
@@ -135,7 +148,41 @@ def read_site(path, out_dir: str) -> Site:
             slug, k = f"{slugify(name)}-{k}", k + 1
         used.add(slug)
         jobs.append(FeedJob(i, name, slug, dict(entry), p, base, os.path.join(out_dir, slug), cables, dict(limits)))
-    return Site(str(data.get("name") or os.path.basename(p)), p, tuple(jobs))
+    site_name = str(data.get("name") or os.path.basename(p))
+    hist = data.get("history")
+    if hist is None:
+        history = default_store_path(p)
+    elif not isinstance(hist, str) or not hist.strip():
+        raise InputFileError(p, "history should be a file name or a postgresql:// URL, e.g. "
+                                "history = \"site.history.sqlite\"")
+    else:
+        history = hist if is_url(hist) else os.path.join(base, hist)
+    return Site(site_name, p, tuple(replace(j, site_name=site_name) for j in jobs), history)
+
+
+def _sweep(job: FeedJob, key: str, v) -> tuple[str, str | None]:
+    """A sweep entry: a file name, or a table ``{ file = "after.s1p", date = "2026-03-14" }``.
+    Returns (path, date or None)."""
+    where = f"{job.where}: '{key}'"
+    date = None
+    if isinstance(v, dict):
+        unknown = sorted(set(v) - {"file", "date"})
+        if unknown:
+            raise InputFileError(job.site_file, f"{where}: unknown key(s) {', '.join(unknown)} in a sweep table; "
+                                                "use file and date, e.g. { file = \"after.s1p\", date = \"2026-03-14\" }")
+        if "date" in v:
+            d = v["date"]
+            if hasattr(d, "isoformat") and not isinstance(d, str):  # a TOML date literal
+                d = d.isoformat()
+            try:
+                date = parse_date(str(d), f"{where} date")
+            except OptionError as exc:
+                raise InputFileError(job.site_file, str(exc)) from None
+        v = v.get("file")
+    if not isinstance(v, str) or not v.strip():
+        raise InputFileError(job.site_file, f"{where} should be a file name, or a table like "
+                                            "{ file = \"after.s1p\", date = \"2026-03-14\" }")
+    return os.path.join(job.base_dir, v), date
 
 
 def _path(job: FeedJob, key: str) -> str:
@@ -166,20 +213,22 @@ def read_feed(job: FeedJob) -> FeedFiles:
     except OptionError:
         raise InputFileError(job.site_file, f"{where}: port = {port!r}; use 1 or 2 (or leave it out for a .s1p)") \
             from None
-    baseline = _path(job, "baseline")
+    baseline, base_date = _sweep(job, "baseline", job.entry.get("baseline"))
     latest = job.entry.get("latest")
-    latest = [latest] if isinstance(latest, str) else latest
-    if not isinstance(latest, list) or not latest or not all(isinstance(x, str) and x.strip() for x in latest):
+    latest = [latest] if isinstance(latest, (str, dict)) else latest
+    if not isinstance(latest, list) or not latest:
         raise InputFileError(job.site_file, f"{where}: 'latest' should name one or more sweeps, "
                                             "e.g. latest = [\"after.s1p\"]")
-    latest = [os.path.join(job.base_dir, x) for x in latest]
+    dated = [_sweep(job, "latest", x) for x in latest]
+    latest = [p for p, _ in dated]
+    dates = {baseline: base_date, **dict(dated)}
     stems = [stem_of(x) for x in [baseline, *latest]]
     if len(set(stems)) != len(stems):
         raise InputFileError(job.site_file, f"{where}: two sweeps share a file name ({', '.join(stems)}); their "
                                             "outputs would collide, so give them different names")
     line_file = job.entry.get("line")
     line_file = os.path.join(job.base_dir, line_file) if isinstance(line_file, str) else None
-    return FeedFiles(baseline, tuple(latest), line_file, _maybe(job, "after_line"), port, dict(own))
+    return FeedFiles(baseline, tuple(latest), line_file, _maybe(job, "after_line"), port, dict(own), dates)
 
 
 def feed_line(job: FeedJob) -> tuple[Line, list]:

@@ -70,6 +70,17 @@ def compare_files(baseline: str, after: str, line, *, after_line: str | None = N
         written) when ``out`` is given.
     """
 
+    result, _, _ = compare_files_with_corrections(baseline, after, line, after_line=after_line, limits=limits,
+                                                  port=port, out=out, cables=cables, extrapolate=extrapolate,
+                                                  inputs=inputs, title=title)
+    return result
+
+
+def compare_files_with_corrections(baseline: str, after: str, line, *, after_line: str | None = None,
+                                   limits: Limits | None = None, port: int | None = None, out: str | None = None,
+                                   cables: str | None = None, extrapolate: bool = False, inputs=(),
+                                   title: str = "") -> tuple:
+    """:func:`compare_files`, also returning both corrections: ``(result, before, after)`` (for recording)."""
     other = line
     if after_line:
         other, _ = read_line_file(after_line, cables, extrapolate)
@@ -81,4 +92,4 @@ def compare_files(baseline: str, after: str, line, *, after_line: str | None = N
         written = write_compare_outputs(result, before, later, compare_paths(after, out),
                                         inputs=[baseline, after, after_line, cables, *inputs], title=title)
         result["outputs"] = written
-    return result
+    return result, before, later

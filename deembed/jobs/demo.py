@@ -9,6 +9,10 @@ from . import correct as workflow
 from .compare import compare_files
 from .samples import write_samples
 from .site import run_site
+from .compare import compare_files_with_corrections
+from .record import record_comparison
+from .sample_history import SWEEP_DATES, feeds, write_history
+from .trend import run_trend, trend_text
 from .locate import LocateOptions, line_view, locate_file
 from ..render.along import locate_text
 
@@ -21,7 +25,25 @@ def sample_folder(out_dir: str) -> str:
 
     folder = os.path.join(out_dir, "sample_sweeps")
     write_samples(folder)
+    write_history(os.path.join(folder, "history"))
     return folder
+
+
+def history_demo(folder: str, out_dir: str, echo=print) -> dict:
+    """Record the invented four-year history the way ``deembed compare --record`` does (each visit's sweep
+    against the feed's first one, dated), then write the trend pages. Returns the trend result."""
+    store = os.path.join(out_dir, "ridgeback-hill-years.history.sqlite")
+    for name, (prefix, _, _, _, line_file) in feeds().items():
+        line, _ = line_from_options(line_file=os.path.join(folder, line_file))
+        first = os.path.join(folder, f"{prefix}-{SWEEP_DATES[0]}.s1p")
+        for date in SWEEP_DATES[1:]:
+            path = os.path.join(folder, f"{prefix}-{date}.s1p")
+            res, base, later = compare_files_with_corrections(first, path, line)
+            record_comparison(store, base, later, res, first, path, name=name, date=date,
+                              baseline_date=SWEEP_DATES[0])
+    result = run_trend(store, os.path.join(out_dir, "trend"))
+    echo(trend_text(result, os.path.join(out_dir, "trend")))
+    return result
 
 
 def run_demo(out_dir: str, echo=print) -> dict:
@@ -68,9 +90,14 @@ def run_demo(out_dir: str, echo=print) -> dict:
     echo("== The whole site, every feed against its baseline (site file) ==")
 
     folder = os.path.join(out_dir, "site")
-    summary = run_site(s("ridgeback-hill.site.toml"), folder)
+    # the demo records into its own output folder, not beside the sample site file
+    summary = run_site(s("ridgeback-hill.site.toml"), folder,
+                       record=os.path.join(out_dir, "ridgeback-hill.history.sqlite"))
     echo(site_text(summary, folder))
     results["site"] = summary
+
+    echo("\n== Four years of the same feeds: recorded, then trended (one run slowly takes on water) ==")
+    results["trend"] = history_demo(os.path.join(samples, "history"), out_dir, echo)
 
     echo(f"\nDemo results are in {os.path.abspath(out_dir)}/ : one folder per antenna, each with a "
          "<name>.report.html to open in a browser.")

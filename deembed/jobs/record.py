@@ -10,22 +10,9 @@ import datetime as _dt
 import os
 
 from ..analysis.recording import sweep_values, verdict_of
-from ..base.errors import OptionError
-from ..io.history import SweepRecord, file_sha256, open_store
-
-
-def parse_date(text: str, option: str = "--date") -> str:
-    """A calendar date ``YYYY-MM-DD`` (returned as the same text); refuses anything else."""
-    t = str(text).strip()
-    try:
-        d = _dt.date.fromisoformat(t)
-    except ValueError:
-        raise OptionError(option, f"{text!r} is not a date; write it as YYYY-MM-DD, e.g. 2026-03-14") from None
-    if len(t) != 10:
-        raise OptionError(option, f"{text!r}: write the date as YYYY-MM-DD, e.g. 2026-03-14")
-    if d > _dt.date.today() + _dt.timedelta(days=1):
-        raise OptionError(option, f"{t} is in the future; give the day the sweep was taken")
-    return d.isoformat()
+from ..analysis.summary import summarise
+from ..io.history import SweepRecord, file_sha256, open_store, parse_date
+from .correct import stem_of
 
 
 def sweep_date(path: str, given: str | None, source: str = "option") -> tuple[str, str]:
@@ -57,4 +44,43 @@ def record(target: str, records) -> dict:
         return {"store": store.name, "added": res.added, "already": res.already}
 
 
-__all__ = ["build_record", "parse_date", "record", "sweep_date"]
+
+
+def check_store(target: str) -> None:
+    """Open the store and create, upgrade or refuse its schema now, before any output is written."""
+    with open_store(target) as store:
+        store.ensure_schema()
+
+
+def record_correction(target: str, corr, summary: dict, sweep_path: str, *, name: str | None = None,
+                      date: str | None = None) -> dict:
+    """``correct --record``: one sweep, named ``name`` or the file's stem, on its own (role "single")."""
+    d, src = sweep_date(sweep_path, date)
+    rec = build_record(site="", antenna=name or stem_of(sweep_path), sweep_path=sweep_path, date=d, date_source=src,
+                       role="single", corr=corr, summary=summary)
+    return {**record(target, [rec]), "date": d, "date_source": src, "antenna": rec.antenna}
+
+
+def record_comparison(target: str, before, after, result: dict, baseline_path: str, after_path: str, *,
+                      name: str | None = None, date: str | None = None, baseline_date: str | None = None) -> dict:
+    """``compare --record``: the baseline (if not there yet) and the after sweep with its comparison,
+    named ``name`` or the after sweep's stem."""
+    antenna = name or stem_of(after_path)
+    bd, bsrc = sweep_date(baseline_path, baseline_date)
+    base = build_record(site="", antenna=antenna, sweep_path=baseline_path, date=bd, date_source=bsrc,
+                        role="baseline", corr=before, summary=summarise(before))
+    d, src = sweep_date(after_path, date)
+    rec = build_record(site="", antenna=antenna, sweep_path=after_path, date=d, date_source=src, role="latest",
+                       corr=after, summary=summarise(after), comparison=result, baseline_sha256=base.sweep_sha256)
+    return {**record(target, [base, rec]), "date": d, "date_source": src, "antenna": antenna}
+
+
+def recorded_text(info: dict) -> str:
+    """One line saying what was recorded where."""
+    flag = " (date from the file's modification time: give --date)" if info.get("date_source") == "file-mtime" else ""
+    return (f"recorded {info['antenna']} {info['date']}{flag} into {info['store']}: {info['added']} new sweep(s), "
+            f"{info['already']} already there")
+
+
+__all__ = ["build_record", "check_store", "parse_date", "record", "record_comparison", "record_correction",
+           "recorded_text", "sweep_date"]

@@ -13,6 +13,13 @@ import os
 
 import numpy as np
 
+from ..io.atomic import write_text_atomic
+from ..io.cables import catalog
+from ..io.touchstone import write_touchstone
+from ..physics import rf
+from ..physics.deembedding import embed_gamma
+from ..physics.line import Line
+from .samples import DIPOLE_LINE_TOML, VERTICAL_LINE_TOML, series_antenna_z
 HISTORY_SEED = 20230318
 HISTORY_POINTS = 301
 SWEEP_DATES = ("2023-03-18", "2023-09-30", "2024-03-23", "2024-10-05", "2025-03-15", "2025-09-27",
@@ -21,6 +28,8 @@ WATER_LOSS_GROWTH_PER_YEAR = 0.10
 """The wet run's matched loss grows by this fraction of its dry loss each year."""
 
 SITE_FILE = "ridgeback-hill-years.site.toml"
+ENTRY_TABLE = "feed"
+"""The site file's table for one antenna and its line (renamed [[antenna]] by the vocabulary change)."""
 
 
 def _years(date: str) -> float:
@@ -33,9 +42,6 @@ def feeds():
     """The three feeds: name -> (file prefix, line builder(years), frequencies, antenna impedance, line file)."""
     from dataclasses import replace
 
-    from ..io.cables import catalog
-    from ..physics.line import Line
-    from .samples import series_antenna_z
 
     cat = catalog()
 
@@ -74,8 +80,6 @@ length = "28m"
 
 def history_sweeps(rng=None) -> dict:
     """(feed name, date) -> (file name, freq_hz, gamma at the analyzer end)."""
-    from ..physics import rf
-    from ..physics.deembedding import embed_gamma
 
     rng = rng or np.random.default_rng(HISTORY_SEED)
     out = {}
@@ -97,7 +101,7 @@ def site_toml() -> str:
              'name = "Ridgeback Hill"', ""]
     for name, (prefix, _, _, _, line_file) in feeds().items():
         first, *rest = SWEEP_DATES
-        lines += ["[[antenna]]", f'name = "{name}"', f'line = "{line_file}"',
+        lines += [f"[[{ENTRY_TABLE}]]", f'name = "{name}"', f'line = "{line_file}"',
                   f'baseline = {{ file = "{prefix}-{first}.s1p", date = "{first}" }}', "latest = ["]
         lines += [f'  {{ file = "{prefix}-{d}.s1p", date = "{d}" }},' for d in rest]
         lines += ["]"]
@@ -109,9 +113,6 @@ def site_toml() -> str:
 
 def write_history(folder: str) -> list[str]:
     """Write the dated sweeps, the line files and the site file into ``folder``; returns the paths."""
-    from ..io.atomic import write_text_atomic
-    from ..io.touchstone import write_touchstone
-    from .samples import DIPOLE_LINE_TOML, VERTICAL_LINE_TOML
 
     os.makedirs(folder, exist_ok=True)
     written = []

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import os
+from dataclasses import replace
 
 from ..analysis.compare import compare_corrections
 from ..analysis.limits import parse_limits
@@ -17,9 +18,12 @@ from ..base.errors import DeembedError, InputFileError, OptionError
 from ..io.atomic import write_text_atomic
 from ..io.jsonfile import to_jsonable
 from ..io.sitefile import FeedJob, Site, after_line, feed_line, read_feed, read_site
+from ..io.history import open_store
 from ..render.site_index import index_html
 from . import correct as workflow
 from .compare import compare_paths, write_compare_outputs
+from .record import build_record, sweep_date
+from .trend import compute_trends, write_trend_outputs
 
 DEFAULT_WORKERS = 2
 """Processes for the feeds: both cores of the ordinary two-core machine the tool is meant for."""
@@ -83,6 +87,11 @@ def _run_feed(job: FeedJob) -> dict:
                            "warnings": base_summary.get("warnings", []),
                            "between_points": base_summary["line"].get("between_points")},
               "comparisons": []}
+    records = []
+    if job.record:
+        d, src = sweep_date(baseline, files.dates.get(baseline), "site-file")
+        records.append(build_record(site=job.site_name, antenna=job.name, sweep_path=baseline, date=d,
+                                    date_source=src, role="baseline", corr=base_corr, summary=base_summary))
     for sweep in latest:
         a_opts = workflow.Options(port=port, notes=after_notes)
         corr, summary, written = workflow.correct_file(sweep, other, out, a_opts,
@@ -106,12 +115,19 @@ def _run_feed(job: FeedJob) -> dict:
         })
         if not res["verdict"]["within_limits"]:
             result["status"] = "exceeded"
+        if job.record:
+            d, src = sweep_date(sweep, files.dates.get(sweep), "site-file")
+            records.append(build_record(site=job.site_name, antenna=job.name, sweep_path=sweep, date=d,
+                                        date_source=src, role="latest", corr=corr, summary=summary, comparison=res,
+                                        baseline_sha256=records[0].sweep_sha256))
+    result["_records"] = records
     return result
 
 
 # ------------------------------------------------------------------------------------------- the site
 
-def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=None) -> dict:
+def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=None, record: str | bool = True,
+             trend_limits=None) -> dict:
     """Check every feed of a site file; write ``index.html`` and ``site.json`` into ``out_dir``.
 
     Parameters
@@ -124,6 +140,12 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
         Processes to run feeds on (default 2); 1 runs them one after another in this process.
     progress : callable, optional
         Called as ``progress(done, total, feed_result)`` after each feed.
+    record : str or bool
+        True (default): record every sweep into the site's history store (its ``history`` key, or the
+        SQLite file beside the site file) and write each feed's trend page into ``OUT/trend/``; a string:
+        that store (file or URL) instead; False: record nothing.
+    trend_limits : deembed.analysis.trend.TrendLimits, optional
+        Limits for the trend pages.
 
     Returns
     -------
@@ -134,6 +156,12 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
     if os.path.exists(out_dir) and not os.path.isdir(out_dir):
         raise OptionError("out", f"{out_dir} is a file; give a folder for the results")
     site = load_site(path, out_dir)
+    store = None
+    if record:
+        store = record if isinstance(record, str) else site.history
+        with open_store(store) as st:  # refuse a newer or foreign store before anything is written
+            st.ensure_schema()
+        site = replace(site, jobs=tuple(replace(j, record=True) for j in site.jobs))
     os.makedirs(out_dir, exist_ok=True)
     results = [None] * len(site.jobs)
     total = len(site.jobs)
@@ -155,11 +183,39 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
             results[i] = run_feed(job)
             if progress:
                 progress(i + 1, total, results[i])
+    records = [rec for r in results for rec in r.pop("_records", [])]
     counts = {s: sum(r["status"] == s for r in results) for s in ("passed", "exceeded", "error")}
     summary = {"site": site.name, "file": site.path, "all_passed": counts["passed"] == total, "counts": counts,
                "feeds": results, "outputs": {"index_html": "index.html", "site_json": "site.json"}}
+    if store is not None:
+        summary["history"] = _record_and_trend(store, site, records, results, out_dir, trend_limits)
     write_text_atomic(os.path.join(out_dir, "site.json"),
                       json.dumps(to_jsonable(summary), indent=2, allow_nan=False) + "\n")
     write_text_atomic(os.path.join(out_dir, "index.html"), index_html(summary))
     return summary
+
+
+def _record_and_trend(store: str, site: Site, records: list, results: list, out_dir: str, limits) -> dict:
+    """Record the run's sweeps (one transaction) and write every feed's trend page into ``OUT/trend/``;
+    each feed result gets ``trend`` (its page, relative to ``out_dir``, its run count and flags). A store
+    that fails now is reported in the summary, not raised: the index is still written."""
+    info = {"store": store, "added": 0, "already": 0, "error": None, "flagged": []}
+    try:
+        with open_store(store) as st:
+            info["store"] = st.name
+            res = st.record(records)
+        info.update(added=res.added, already=res.already)
+        trends = compute_trends(store, site=site.name, limits=limits)
+        written = write_trend_outputs(trends, os.path.join(out_dir, "trend"))
+    except DeembedError as exc:
+        info["error"] = str(exc)
+        return info
+    by_name = {e["antenna"]: e["trend"] for e in trends["entries"]}
+    for r in results:
+        tr = by_name.get(r["name"])
+        if tr is not None and r["name"] in written["entries"]:
+            r["trend"] = {"page": os.path.relpath(written["entries"][r["name"]]["trend_html"], out_dir),
+                          "runs": tr.runs, "flags": [f["reason"] for f in tr.flags]}
+    info["flagged"] = [e["antenna"] for e in trends["entries"] if e["trend"].flags]
+    return info
 

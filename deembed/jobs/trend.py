@@ -11,7 +11,13 @@ import os
 
 from ..analysis.trend import QUANTITIES, TrendLimits, entry_trend
 from ..base.errors import InputFileError, OptionError
-from ..io.history import default_store_path, is_url, open_store
+from ..io.history import is_url, open_store
+from ..base.units import fmt_freq
+from ..io.atomic import write_bytes_atomic, write_text_atomic
+from ..io.jsonfile import to_jsonable
+from ..io.sitefile import read_site
+from ..render.trend_page import QUANTITY_TEXT, trend_html
+from ..render.trend_plots import trend_figure
 
 SQLITE_MAGIC = b"SQLite format 3\x00"
 
@@ -36,26 +42,8 @@ def resolve_source(source: str) -> tuple[str, str | None]:
         head = fh.read(len(SQLITE_MAGIC))
     if head == SQLITE_MAGIC:
         return s, None
-    name, store = site_history(s)
-    return store, name
-
-
-def site_history(site_file: str) -> tuple[str, str]:
-    """(site name, store target) of a site file: its ``history`` key (a path relative to the file, or a
-    URL), else the SQLite file beside it."""
-    from ..io.tomlfile import load_toml
-
-    data = load_toml(site_file)
-    name = str(data.get("name") or os.path.basename(site_file))
-    hist = data.get("history")
-    if hist is None:
-        return name, default_store_path(site_file)
-    if not isinstance(hist, str) or not hist.strip():
-        raise InputFileError(site_file, "history should be a file name or a postgresql:// URL, e.g. "
-                                        "history = \"site.history.sqlite\"")
-    if is_url(hist):
-        return name, hist
-    return name, os.path.join(os.path.dirname(os.path.abspath(site_file)), hist)
+    site = read_site(s, "")
+    return site.history, site.name
 
 
 def _runs(records) -> list:
@@ -110,14 +98,10 @@ def trend_json(result: dict) -> dict:
 
 def write_trend_outputs(result: dict, out_dir: str, *, prefix: str = "") -> dict:
     """Per entry ``<slug>.trend.png`` and ``<slug>.trend.html``, and ``trend.json``; returns
-    ``{entry name: {"trend_html": path, "trend_png": path}}`` plus ``"trend_json"``."""
-    from ..io.atomic import write_bytes_atomic, write_text_atomic
-    from ..render.trend_page import trend_html
-    from ..render.trend_plots import trend_figure
-    from .correct import to_jsonable
+    ``{"entries": {entry name: {"trend_html": path, "trend_png": path}}, "trend_json": path}``."""
 
     os.makedirs(out_dir, exist_ok=True)
-    written, used = {}, set()
+    written, used = {"entries": {}}, set()
     detail = {"store": result["store"], "limits": result["limits"].as_dict(), "entries": []}
     for e in result["entries"]:
         tr = e["trend"]
@@ -137,7 +121,7 @@ def write_trend_outputs(result: dict, out_dir: str, *, prefix: str = "") -> dict
         write_bytes_atomic(png_path, png)
         write_text_atomic(html_path, trend_html(tr, e["runs"], site=e["site"], store=result["store"],
                                                 limits=result["limits"], png=png))
-        written[tr.name] = {"trend_html": html_path, "trend_png": png_path}
+        written["entries"][tr.name] = {"trend_html": html_path, "trend_png": png_path}
         d = tr.to_dict()
         d.update({"site": e["site"], "antenna": e["antenna"],
                   "slopes_detail": {q: (None if f is None else {"per_year": f.per_year, "stderr_per_year":
@@ -156,15 +140,13 @@ def write_trend_outputs(result: dict, out_dir: str, *, prefix: str = "") -> dict
 
 def trend_text(result: dict, out_dir: str | None) -> str:
     """One block per feed: runs, slopes with intervals, flags."""
-    from ..render.trend_page import QUANTITY_TEXT
-    from ..base.units import fmt_freq
 
     def rate(q, v):
         if v is None:
             return "n/a"
         if q == "resonance_hz":
             return ("+" if v >= 0 else "-") + fmt_freq(abs(v), 3) + "/yr"
-        return f"{v:+.3f}/yr" if q == "min_swr" else f"{v:+.2f} dB/yr"
+        return f"{v:+.3f}/yr" if q == "min_swr" else f"{v:+.3f} dB/yr"
 
     lines = [f"history {result['store']}"]
     for e in result["entries"]:
@@ -198,5 +180,5 @@ def run_trend(source: str, out_dir: str, *, antenna: str | None = None, limits: 
     return result
 
 
-__all__ = ["compute_trends", "resolve_source", "run_trend", "site_history", "trend_json", "trend_text",
+__all__ = ["compute_trends", "resolve_source", "run_trend", "trend_json", "trend_text",
            "write_trend_outputs"]

@@ -13,6 +13,29 @@ def _link(rel_path, text) -> str:
     return f'<a href="{html.escape(quote(rel_path.replace(os.sep, "/")), quote=True)}">{html.escape(text)}</a>'
 
 
+def _trend_cell(trend) -> str:
+    """A link to the feed's trend page, with its flags, for the feed's cell."""
+    if not trend:
+        return ""
+    flags = trend.get("flags") or []
+    mark = (f' <b class="flag" title="{html.escape("; ".join(flags), quote=True)}">trend flagged ({len(flags)})</b>'
+            if flags else "")
+    text = f"trend over {trend['runs']} run(s)"
+    return f'<br><small>{_link(trend["page"], text)}{mark}</small>'
+
+
+def _history_note(history) -> str:
+    if not history:
+        return ""
+    e = html.escape
+    if history.get("error"):
+        return f'<p class="flag">Not recorded: {e(history["error"])}</p>'
+    flagged = history.get("flagged") or []
+    more = f' Trend flagged for {e(", ".join(flagged))}.' if flagged else " No trend flagged."
+    return (f'<p>History: {history["added"]} new sweep(s) recorded, {history["already"]} already there, in '
+            f'<span style="font-family:monospace">{e(history["store"])}</span>.{more}</p>')
+
+
 def index_html(summary: dict) -> str:
     """The site's index: one self-contained page, a row per comparison, links to each feed's files.
 
@@ -28,6 +51,7 @@ def index_html(summary: dict) -> str:
                         f'<td colspan="4">{e(feed["error"])}</td></tr>')
             continue
         base = feed["baseline"]
+        trend = _trend_cell(feed.get("trend"))
         base_links = " ".join(_link(p, k.replace("_", " ")) for k, p in base["outputs"].items()
                               if k in ("report_html", "summary_json", "swr_png"))
         for cmp in feed["comparisons"]:
@@ -45,7 +69,7 @@ def index_html(summary: dict) -> str:
                        + (f", estimated error up to {err:.2g} in |&Gamma;|" if err is not None and
                           bp.get("method") != "exact" else "") + "</small>")
             rows.append(
-                f'<tr class="{st}"><td>{name}<br><small>{e(feed["line"] or "")}</small>{btw}</td>'
+                f'<tr class="{st}"><td>{name}<br><small>{e(feed["line"] or "")}</small>{btw}{trend}</td>'
                 f'<td class="st">{STATUS_TEXT[st]}</td>'
                 f'<td>{e(os.path.basename(cmp["file"]))}<br><small>baseline {e(os.path.basename(base["file"]))}: '
                 f'{base_links}</small></td>'
@@ -61,7 +85,7 @@ def index_html(summary: dict) -> str:
 <html lang="en"><head><meta charset="utf-8"><title>{head}: feeds against their baselines</title>
 <style>body{{font-family:system-ui,sans-serif;max-width:80em;margin:1.5em auto;padding:0 1.5em;color:#222;background:#fbfaf8}}
 table{{border-collapse:collapse;width:100%}} td,th{{border-bottom:1px solid #d9d4cc;padding:.4em;vertical-align:top;text-align:left}}
-tr.passed .st{{color:#1d6b3a}} tr.exceeded .st,tr.error .st{{color:#a3261d;font-weight:bold}} small{{color:#555}}</style>
+tr.passed .st{{color:#1d6b3a}} tr.exceeded .st,tr.error .st,.flag{{color:#a3261d;font-weight:bold}} small{{color:#555}}</style>
 </head><body>
 <h1>{head}</h1>
 <p>{e(overall)} ({len(summary['feeds'])} feed(s), site file {e(os.path.basename(summary['file']))}).</p>
@@ -69,6 +93,7 @@ tr.passed .st{{color:#1d6b3a}} tr.exceeded .st,tr.error .st{{color:#a3261d;font-
 <tbody>
 {chr(10).join(rows)}
 </tbody></table>
+{_history_note(summary.get("history"))}
 <p><small>Resonance shift: feedpoint, after minus baseline. Limits and the antenna-or-line rule: see
 the README. Sweeps compared through each feed's line description; nothing here replaces a look at the
 antenna by a qualified climber when the numbers say it changed.</small></p>

@@ -286,5 +286,14 @@ def site_text(summary: dict, out: str) -> str:
             extra = f" ({', '.join(cmp['exceeded'])})" if cmp["exceeded"] else ""
             lines.append(f"  {feed['name']}: {os.path.basename(cmp['file'])}: {st}{extra}; "
                          f"cause {cmp['diagnosis']['code']}")
+        for reason in (feed.get("trend") or {}).get("flags", []):
+            lines.append(f"  {feed['name']}: TREND {reason}")
+    hist = summary.get("history")
+    if hist:
+        if hist.get("error"):
+            lines.append(f"history: NOT RECORDED: {hist['error']}")
+        else:
+            lines.append(f"history: {hist['added']} new sweep(s), {hist['already']} already there, in {hist['store']}"
+                         f"; trend pages in {out}/trend/")
     lines.append(f"index: {out}/index.html")
     return "\n".join(lines)

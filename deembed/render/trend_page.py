@@ -8,10 +8,13 @@ URI; every string from a file, a site file or the store passes through :func:`ht
 from __future__ import annotations
 
 import base64
+import os
 import datetime as _dt
 from html import escape
 
 from . import report
+from .. import __version__
+from ..base.units import fmt_freq
 
 QUANTITY_TEXT = {"line_loss_db": "line loss", "resonance_hz": "feedpoint resonance", "min_swr": "lowest SWR"}
 
@@ -21,19 +24,17 @@ def _e(v) -> str:
 
 
 def _rate(q: str, v) -> str:
-    from ..base.units import fmt_freq
 
     if v is None:
         return "n/a"
     if q == "resonance_hz":
         return ("+" if v >= 0 else "&minus;") + _e(fmt_freq(abs(v), 3)) + "/yr"
     if q == "line_loss_db":
-        return f"{v:+.2f} dB/yr".replace("-", "&minus;")
+        return f"{v:+.3f} dB/yr".replace("-", "&minus;")
     return f"{v:+.3f}/yr".replace("-", "&minus;")
 
 
 def _value(q: str, v) -> str:
-    from ..base.units import fmt_freq
 
     if v is None:
         return "&ndash;"
@@ -81,7 +82,8 @@ def _runs_table(runs: list) -> str:
         cause = f'<br><span class="kind">{_e(r.get("diagnosis_code"))}</span>' if r.get("diagnosis_code") else ""
         v = r["values"]
         rows.append(
-            f'<tr><td class="n">{_e(r["date"])}{mark}</td><td><span class="mono">{_e(r["file"])}</span>'
+            f'<tr><td class="n">{_e(r["date"])}{mark}</td><td><span class="mono" title="{_e(r["file"])}">'
+            f'{_e(os.path.basename(r["file"]))}</span>'
             f'<br><span class="kind">{_e(r["role"])}</span></td>'
             f'<td class="n">{_value("resonance_hz", v.get("resonance_hz"))}</td>'
             f'<td class="n">{_value("min_swr", v.get("min_swr"))}</td>'
@@ -123,7 +125,6 @@ def trend_html(trend, runs: list, *, site: str, store: str, limits, png: bytes |
     png : bytes or None
         The trend figure.
     """
-    from .. import __version__
 
     run_time = run_time or _dt.datetime.now().astimezone()
     first, last = (runs[0]["date"], runs[-1]["date"]) if runs else ("", "")
@@ -153,7 +154,7 @@ def trend_html(trend, runs: list, *, site: str, store: str, limits, png: bytes |
   <h1>{_e(trend.name)}</h1>
   <p class="lede">{trend.runs} dated sweep(s) of this feed, {_e(first)} to {_e(last)}: is anything drifting
   before it becomes a fault?</p>
-  <dl class="facts"><div><dt>Site</dt><dd>{_e(site)}</dd></div><div><dt>Runs</dt><dd>{trend.runs}</dd></div>
+  <dl class="facts"><div><dt>Site</dt><dd>{_e(site) or "&ndash; (recorded by correct/compare)"}</dd></div><div><dt>Runs</dt><dd>{trend.runs}</dd></div>
   <div><dt>From</dt><dd>{_e(first)}</dd></div><div><dt>Store</dt><dd class="mono">{_e(store)}</dd></div></dl>
   {mtime_note}
 </header>

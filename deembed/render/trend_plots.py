@@ -11,6 +11,7 @@ import datetime as _dt
 import numpy as np
 
 from .plots import FEED_COLOUR, GRID_COLOUR
+from ..analysis.trend import years_since
 
 LOSS_COLOUR = "#8b6c3e"
 FLAG_COLOUR = "#b3261e"
@@ -33,7 +34,6 @@ def trend_figure(trend, date_sources: dict | None = None):
     from matplotlib.dates import AutoDateLocator, ConciseDateFormatter
     from matplotlib.figure import Figure
 
-    from ..analysis.trend import years_since
 
     date_sources = date_sources or {}
     fig = Figure(figsize=(8, 8.4), layout="constrained")
@@ -68,7 +68,7 @@ def trend_figure(trend, date_sources: dict | None = None):
             xx = [d0 + _dt.timedelta(days=float(v) * 365.25) for v in tt]
             ax.plot(xx, fit.predict(tt) * scale, "--", color="#444", lw=1.2, label="fitted trend")
         if q in flagged:
-            ax.set_title("flagged: see the list below the plots", color=FLAG_COLOUR, fontsize=10, loc="left")
+            ax.set_title("flagged: see the list above the plots", color=FLAG_COLOUR, fontsize=10, loc="left")
         ax.legend(loc="best", fontsize=8)
     loc = AutoDateLocator()
     axes[-1].xaxis.set_major_locator(loc)
