@@ -131,3 +131,14 @@ def test_assess_prefers_the_smaller_estimated_error():
     assert b.method == "model" and b.worst_feedpoint_error == 0.0
     b = bw.assess(g[::8], s[::8], tau, model[::8])  # step 800 kHz > 1/(16 x 100 ns) = 625 kHz
     assert b.grid_too_coarse and b.needed_step_hz == pytest.approx(625e3)
+
+
+def test_monte_carlo_offsets_fill_the_disk_uniformly():
+    # uniform over a disk of radius e: P(|z| <= r) = (r/e)^2, mean |z| = 2e/3 (elementary geometry)
+    e = np.array([0.0, 1e-3, 2e-3])
+    z = bw.draw_feedpoint_offsets(e, 20000, np.random.default_rng(1))
+    assert z.shape == (20000, 3)
+    assert np.all(z[:, 0] == 0) and np.all(np.abs(z[:, 2]) <= 2e-3 + 1e-18)
+    assert np.mean(np.abs(z[:, 2])) == pytest.approx(2 / 3 * 2e-3, rel=0.02)
+    assert np.mean(np.abs(z[:, 2]) <= 1e-3) == pytest.approx(0.25, abs=0.015)
+    np.testing.assert_allclose(z[:, 2], 2 * z[:, 1])  # one draw moves the whole sweep together

@@ -173,6 +173,10 @@ def test_cli_correct_and_compare_carry_between_points(tmp_path, capsys):
     summary = json.loads((out / "analyzer.summary.json").read_text())
     bp = summary["line"]["between_points"]
     assert bp["method"] == "interpolated" and bp["estimated_error"] < 0.01
+    import pandas as pd
+
+    table = pd.read_csv(out / "analyzer.table.csv")
+    assert table["feedpoint_between_points_error"].max() == pytest.approx(bp["estimated_error"], rel=1e-6)
     html = (out / "analyzer.report.html").read_text()
     assert "Between characterized points" in html and "leave-one-out" in html
     # compare: the after sweep detuned by 200 kHz, both through the same characterization
@@ -208,3 +212,29 @@ def test_site_carries_between_points(tmp_path):
     saved = json.loads((out / "site.json").read_text())
     assert saved["feeds"][0]["comparisons"][0]["between_points"]["points_between"] == 400
     assert "between characterized points: interpolated" in (out / "index.html").read_text()
+
+
+def test_characterize_says_the_grid_is_too_coarse(tmp_path, capsys):
+    from deembed.analysis.characterize import characterization_report
+    from deembed.cli.app import main
+    from deembed.io.touchstone import write_touchstone
+
+    for n, coarse in ((201, False), (41, True)):
+        grid = np.linspace(3e6, 30e6, n)
+        _, ch = _characterize_file(tmp_path, mixed_run(grid), grid, name=f"r{n}.s2p")
+        rep = characterization_report(ch)
+        bp = rep["between_points"]
+        assert bp["method"] == "interpolated" and bp["grid_too_coarse"] is coarse
+        assert bp["needed_step_hz"] == pytest.approx(1 / (16 * TAU_S), rel=1e-3)
+        assert any("too far for this run" in n_ for n_ in rep["notes"]) is coarse
+        assert (bp["estimated_error_worst"] > 0.01) is coarse
+    run = mixed_run(grid)
+    m = port50(grid)
+    paths = {}
+    for k, term in (("open", m.open()), ("short", m.short()), ("load", m.match())):
+        paths[k] = tmp_path / f"far-{k}.s1p"
+        write_touchstone(paths[k], grid, terminated(run, term))
+    rc = main(["characterize", "--open", str(paths["open"]), "--short", str(paths["short"]), "--load",
+               str(paths["load"]), "--out", str(tmp_path / "c41.s2p")])
+    assert rc == 0
+    assert "TOO COARSE" in capsys.readouterr().out

@@ -28,6 +28,11 @@ def _characterized_part(line):
     return parts[0], len(getattr(line, "parts", ()))
 
 
+def has_characterized_part(line) -> bool:
+    """Whether the line has a characterized part (one that can be evaluated between its points)."""
+    return _characterized_part(line)[0] is not None
+
+
 def between_points(line, freq_hz, gamma_feedpoint=None) -> dict | None:
     """The ``between_points`` block for a line used at ``freq_hz``; None for a line with no characterized part.
 
@@ -97,4 +102,5 @@ def between_text(bp: dict | None) -> str:
     return f"{text}{tail}{extra}"
 
 
-__all__ = ["METHOD_TEXT", "SHORT_TEXT", "between_error", "between_points", "between_text", "between_warnings"]
+__all__ = ["METHOD_TEXT", "SHORT_TEXT", "between_error", "between_points", "between_text", "between_warnings",
+           "has_characterized_part"]

@@ -35,6 +35,8 @@ from ..base.errors import CharacterizationError, OptionError
 from ..physics.grid import inside
 from ..physics.calibration import (error_terms_to_two_port, matched_loss_from_return_loss,
                                    open_short_line, osl_error_terms, standard_gammas, uniform_two_port)
+from ..base.units import fmt_freq
+from ..physics.between import FEEDPOINT_ERROR_WARN, GRID_MARGIN
 from ..physics.deembedding import embed_gamma
 from ..physics.line import C0_M_PER_S, DB_PER_NP, M_PER_100FT, Line, LossModel, Section, abcd_to_s
 from ..physics.rf import Z_REF_OHM, z_from_gamma
@@ -288,8 +290,9 @@ def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None,
         s = error_terms_to_two_port(e00, e11, e10e01, f)
         fit = fit_line_model(f, s=s, z0_ohm=z0_ohm, fit_z0=True, label="characterized run (equivalent uniform line)")
         if fit.residual_rms > 0.01:
-            notes.append(f"the run is not one uniform line (model misfit {fit.residual_rms:.3g} RMS): on its measured "
-                         "points it is used exactly, elsewhere through the equivalent uniform line only approximately")
+            notes.append(f"the run is not one uniform line (model misfit {fit.residual_rms:.3g} RMS): the fitted model "
+                         "describes it only roughly; on its measured points it is used exactly; for sweeps on "
+                         "other frequencies see the between-points figures")
         return Characterization("open-short-load", f, s, fit, None, offsets, tuple(notes))
     if have == (True, True, False):
         zoc, zsc = z_from_gamma(gamma_open), z_from_gamma(gamma_short)
@@ -301,8 +304,9 @@ def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None,
         s = uniform_two_port(zc, gl)
         fit = fit_line_model(f, s=s, z0_ohm=z0_ohm, fit_z0=True, label="characterized line")
         if fit.residual_rms > 0.01:
-            notes.append(f"the line departs from the physical model (misfit {fit.residual_rms:.3g} RMS): off its measured "
-                         "points it is evaluated only approximately")
+            notes.append(f"the line departs from the physical model (misfit {fit.residual_rms:.3g} RMS): the fitted "
+                         "model describes it only roughly; for sweeps on other frequencies see the between-points "
+                         "figures")
         return Characterization("open-short", f, s, fit, zc, offsets, tuple(notes))
     if have in ((True, False, False), (False, True, False)):
         which = "open" if have[0] else "short"
@@ -428,7 +432,50 @@ def characterization_report(ch: Characterization, *, at_hz=None, length_m=None, 
         est = matched_loss_from_return_loss(rl.get("open"), rl.get("short"))
         for row, e in zip(rows, np.atleast_1d(est)):
             row["loss_db_from_return_loss"] = float(e)
+    out["between_points"] = between_assessment(ch)
+    notes.extend(characterization_between_notes(out["between_points"]))
     out["notes"] = notes
+    return out
+
+
+def between_assessment(ch: Characterization) -> dict:
+    """How a later sweep on other frequencies will see this run between its points (JSON-ready).
+
+    Keys: ``method`` (interpolated or model), ``estimated_error_worst`` (largest estimated |dGamma| at the
+    feedpoint over the grid, for the worst antenna |Gamma_L| = 1; a sweep's own figure is usually smaller),
+    ``error_from``, ``grid_step_hz``, ``needed_step_hz``, ``grid_margin``, ``longest_two_way_delay_s``,
+    ``grid_too_coarse`` (see :mod:`deembed.physics.between`).
+    """
+    b = ch.line().parts[0].between
+    single = ch.method in ("open", "short")
+    return {
+        "method": b.method,
+        "estimated_error_worst": b.worst_feedpoint_error,
+        "error_from": ("leave-one-out interpolation on the characterization" if b.method == "interpolated" else
+                       "the one-standard model fit's RMS misfit" if single else
+                       "the model's misfit to the characterization's measured points"),
+        "grid_step_hz": b.step_hz,
+        "needed_step_hz": b.needed_step_hz,
+        "grid_margin": GRID_MARGIN,
+        "longest_two_way_delay_s": b.two_way_delay_s,
+        "grid_too_coarse": bool(b.grid_too_coarse),
+    }
+
+
+def characterization_between_notes(bp: dict) -> list[str]:
+    """Notes for the characterization report: a grid too coarse for the run, an error above the threshold."""
+    out = []
+    big = bp["estimated_error_worst"] > FEEDPOINT_ERROR_WARN
+    if bp["grid_too_coarse"] and (bp["method"] == "interpolated" or big):
+        out.append(f"the points are up to {fmt_freq(bp['grid_step_hz'])} apart, too far for this run: its longest "
+                   f"echo (two-way delay {bp['longest_two_way_delay_s'] * 1e9:.1f} ns) needs points at most "
+                   f"{fmt_freq(bp['needed_step_hz'])} apart (1/(2 x delay) with a margin of {GRID_MARGIN:g}) for "
+                   "sweeps on other frequencies; sweep the standards again with a step of "
+                   f"{fmt_freq(bp['needed_step_hz'])} or less")
+    if big:
+        out.append(f"a sweep on other frequencies may be off by up to {bp['estimated_error_worst']:.3f} in |Gamma| at "
+                   f"the feedpoint between these points (worst antenna; estimated from {bp['error_from']}); sweep the "
+                   "standards on a finer grid, or sweep the antenna on these same frequencies")
     return out
 
 

@@ -8,7 +8,7 @@ import numpy as np
 
 from ..physics import rf
 from ..base.units import fmt_freq
-from .between import between_points, between_warnings
+from .between import between_error, between_points, between_warnings, has_characterized_part
 from .findings import end_findings
 
 TWO_WAY_LOSS_WARN_DB = 10.0
@@ -42,6 +42,8 @@ def table_columns(corr, budget: dict | None = None) -> dict:
     for end, g in (("shack", corr.gamma_shack), ("feedpoint", corr.gamma_feed)):
         cols.update({f"{end}_{k}": v for k, v in end_columns(g).items()})
     cols["line_matched_loss_db"] = corr.matched_loss_db
+    if has_characterized_part(corr.line):  # estimated |dGamma| from evaluating the line between its points
+        cols["feedpoint_between_points_error"] = between_error(corr.line, corr.freq_hz, corr.gamma_feed)
     if budget:
         cols.update(budget)
     return cols

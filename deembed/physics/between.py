@@ -336,8 +336,33 @@ def sweep_error(between: Between, grid_hz, s_at_sweep, freq_hz, gamma_feedpoint=
     return feedpoint_error(s_at_sweep, ds, gamma_feedpoint)
 
 
+def draw_feedpoint_offsets(error, draws: int, rng):
+    """Monte Carlo draws (draws, m) of the feedpoint-reflection offset from evaluating a run between its points.
+
+    Parameters
+    ----------
+    error : float (m,): the estimated |dGamma| per frequency (e.g. :func:`sweep_error`; 0 on measured points).
+    draws : number of draws.
+    rng : numpy.random.Generator (seeded by the caller, so outputs are reproducible).
+
+    Notes
+    -----
+    The estimate is a bound, not a standard deviation, so each offset is drawn uniformly over the disk of
+    that radius (the rectangular distribution for a quantity known only by its bounds, JCGM 100:2008
+    sec. 4.3.7, taken to the complex plane; JCGM 101:2008 sec. 6.4.2 for drawing it). One radius fraction
+    and one phase per draw serve the whole sweep: the interpolation error changes slowly from one
+    frequency to the next, and a shift common to neighbouring points moves findings (a resonance, a span
+    edge) more than independent scatter would, so this is the cautious choice. Add the offsets to the
+    corrected reflection of each draw.
+    """
+    e = np.asarray(error, dtype=float)
+    r = np.sqrt(rng.uniform(0.0, 1.0, int(draws)))
+    ph = rng.uniform(0.0, 2 * np.pi, int(draws))
+    return (r * np.exp(1j * ph))[:, None] * e[None, :]
+
+
 __all__ = [
-    "Between", "FEEDPOINT_ERROR_WARN", "GRID_MARGIN", "METHODS", "assess", "cubic_stencil",
+    "Between", "FEEDPOINT_ERROR_WARN", "GRID_MARGIN", "METHODS", "assess", "cubic_stencil", "draw_feedpoint_offsets",
     "feedpoint_error", "interpolate", "largest_step_hz", "leave_one_out", "local_error", "needed_step_hz",
     "remove_delay", "restore_delay", "sweep_error", "two_way_delay_s",
 ]

@@ -266,6 +266,16 @@ def report_text(r: dict) -> str:
         verdict = (f"LOSS WELL ABOVE THE CATALOG (>{c['flag_ratio']:g}x)" if c["flagged"]
                    else f"within {c['flag_ratio']:g}x of the catalog")
         out.append(f"  compared with {c['name']} ({c['source']}): {verdict}")
+    bp = r.get("between_points")
+    if bp:
+        how = "interpolated with the run's delay removed" if bp["method"] == "interpolated" else "fitted line model"
+        out.append("")
+        out.append("Sweeps on other frequencies (between these points)")
+        out.append(f"  method           {how}")
+        out.append(f"  estimated error  up to {bp['estimated_error_worst']:.2g} in |Gamma| at the feedpoint "
+                   "(worst antenna)")
+        out.append(f"  step             {fmt_freq(bp['grid_step_hz'])}; this run needs {fmt_freq(bp['needed_step_hz'])} "
+                   f"or less{'  << TOO COARSE' if bp['grid_too_coarse'] and bp['method'] == 'interpolated' else ''}")
     if r.get("notes"):
         out.append("")
         out.append("Notes")
