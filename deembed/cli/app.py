@@ -31,6 +31,7 @@ app = typer.Typer(
          "resonance and bandwidth.\n\n" + SAFETY,
     context_settings={"help_option_names": ["-h", "--help"]},
     pretty_exceptions_enable=False,
+    rich_markup_mode=None,  # plain help: typer's rich formatter alone would cost more than typer itself
 )
 
 # One module per command; each command function imports the layers below it when it runs, so that

@@ -80,6 +80,17 @@ def write_text_atomic(path, text: str, encoding: str = "utf-8") -> None:
     write_bytes_atomic(path, text.encode(encoding))
 
 
+def write_text_chunks_atomic(path, chunks, encoding: str = "utf-8") -> None:
+    """Write the text pieces ``chunks`` (any iterable of str) to ``path`` atomically, one piece at a time,
+    so a large file never has to be held whole in memory; line endings are written exactly as given."""
+    with atomic_path(path) as tmp:
+        with open(tmp, "wb") as fh:
+            for piece in chunks:
+                fh.write(piece.encode(encoding))
+            fh.flush()
+            os.fsync(fh.fileno())
+
+
 def _same_file(a: Path, b: Path) -> bool:
     try:
         if a.exists() and b.exists():

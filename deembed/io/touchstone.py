@@ -42,7 +42,8 @@ from ..base.errors import InputFileError, OptionError
 from ..physics.network import renormalise_s, s_from_y, s_from_z
 from ..physics.rf import Z_REF_OHM
 from .sweep import Sweep
-from .atomic import write_text_atomic
+from .atomic import write_text_atomic, write_text_chunks_atomic
+from .numtext import CHUNK_ROWS, scale_decimal_tokens
 
 __all__ = ["read_sweep", "write_touchstone"]
 
@@ -60,6 +61,7 @@ _COMMENT_LINE = re.compile(r"^[ \t]*!(.*)$", re.M)
 _OPTION_IN_DATA = re.compile(r"^[ \t]*#.*$", re.M)
 _KEYWORD_IN_DATA = re.compile(r"^[ \t]*\[", re.M)
 _SNP = re.compile(r"\.s(\d+)p\Z", re.I)
+_FIRST_TOKEN = re.compile(r"^[ \t]*([^ \t\n]+)", re.M)
 
 _DEFAULTS_NOTE = "no option line: read with the Touchstone defaults GHz S MA R 50"
 
@@ -155,25 +157,16 @@ def read_sweep(path, *, port: int | None = None, expect_ports: int | None = 1) -
         p = hdr.nports = int(m.group(1))
     npairs = p * (p + 1) // 2 if hdr.matrix != "full" else p * p
     ncol = 1 + 2 * npairs
-    region = _clean_region(text[data_start:data_end], data_line, hdr, name)
-    if hdr.version == 1:
-        del text  # the data region is all that is needed from here: keep the peak memory down
     per_line = hdr.version == 1 and p <= 2
-    parsed = _parse_fast(region, ncol, per_line) if region.strip() else None
-    if parsed is not None:
-        vals, ftoks, rec_rel = parsed
-        rec_line = rec_rel + data_line
-    else:
-        vals, ftoks, rec_line = _parse_slow(region, data_line, ncol, per_line,
-                                            noise_ok=(hdr.version == 1 and p == 2), p=p, name=name, hdr=hdr)
-    del region
+    vals, freq_hz, rec_line = _parse_region(text, data_start, data_end, data_line, hdr, ncol, per_line, p, name)
+    if hdr.version == 1:
+        del text  # the data is all that is needed from here: keep the peak memory down
     if vals.shape[0] == 0:
         where = "after [Network Data]" if hdr.version == 2 else ""
         raise InputFileError(name, f"no data {where}: the file holds no frequency points; "
                                    f"export the sweep again".replace("  ", " "))
     if hdr.version == 2:
         _check_after_data(text, data_end, hdr, name, vals.shape[0])
-    freq_hz = _freq_hz(ftoks, hdr.opts.unit_exp)
     _check_values(vals, freq_hz, rec_line, name)
     n = _to_matrices(vals, p, hdr)
     z_ref = np.asarray(hdr.z_ref if hdr.z_ref is not None else [hdr.opts.r_ohm] * p, dtype=float)
@@ -489,6 +482,62 @@ def _clean_region(region: str, first_line: int, hdr: _Header, name: str) -> str:
     return region
 
 
+CHUNK_CHARS = 1 << 20
+"""Data text parsed per chunk (whole lines): the parse's temporaries stay a few megabytes at any size."""
+
+
+def _parse_region(text, start, end, first_line, hdr, ncol, per_line, p, name):
+    """Parse the data text ``text[start:end]`` chunk by chunk (one record per line) or at once (records over
+    several lines). Returns (values (n, ncol) in the file's units, frequencies in Hz, line of each record)."""
+    noise_ok = hdr.version == 1 and p == 2
+    exp = hdr.opts.unit_exp
+    if per_line:
+        cap = text.count("\n", start, end) + 1  # at most one record per line
+        bounds = []
+        a = start
+        while a < end:
+            b = text.find("\n", min(a + CHUNK_CHARS, end), end)
+            b = end if b < 0 else b + 1
+            bounds.append((a, b))
+            a = b
+    else:
+        cap = None
+        bounds = [(start, end)]
+    vals = freq = rec = None
+    k = 0
+    line = first_line
+    for a, b in bounds:
+        region = _clean_region(text[a:b], line, hdr, name)
+        if region.strip():
+            parsed = _parse_fast(region, ncol, per_line)
+            if parsed is not None:
+                v, ftoks, rec_rel = parsed
+                r = rec_rel + line
+                stopped = False
+            else:
+                prev = float(vals[k - 1, 0]) if k else None
+                v, ftoks, r, stopped = _parse_slow(region, line, ncol, per_line, noise_ok=noise_ok, p=p, name=name,
+                                                   hdr=hdr, prev_first=prev)
+            f = _freq_hz(ftoks, exp)
+            del ftoks
+            if cap is None:
+                vals, freq, rec, k = v, f, r, v.shape[0]
+            else:
+                if vals is None:
+                    vals = np.empty((cap, ncol))
+                    freq = np.empty(cap)
+                    rec = np.empty(cap, dtype=np.int64)
+                m = v.shape[0]
+                vals[k:k + m], freq[k:k + m], rec[k:k + m] = v, f, r
+                k += m
+            if stopped:
+                break
+        line += text.count("\n", a, b)
+    if vals is None:
+        return np.empty((0, ncol)), np.empty(0), np.empty(0, dtype=np.int64)
+    return vals[:k], freq[:k], rec[:k]
+
+
 def _parse_fast(region: str, ncol: int, per_line: bool):
     """Whole-array parse of clean data; None when anything is unusual (the slow pass then explains)."""
     if _FAST_BAD.search(region):
@@ -517,9 +566,9 @@ def _parse_fast(region: str, ncol: int, per_line: bool):
             return None
     elif np.any(rec_first[1:] <= rec_last[:-1]):
         return None
-    fs = starts[::ncol].tolist()
-    fe = ends[::ncol].tolist()
-    ftoks = [region[a:b] for a, b in zip(fs, fe)]
+    ftoks = _FIRST_TOKEN.findall(region) if per_line else None  # one record per line: its first token
+    if ftoks is None or len(ftoks) != rec_first.size:
+        ftoks = [region[a:b] for a, b in zip(starts[::ncol].tolist(), ends[::ncol].tolist())]
     return vals.reshape(-1, ncol), ftoks, rec_first
 
 
@@ -531,9 +580,13 @@ def _token_error(t: str, lineno: int, name: str):
                           line=lineno)
 
 
-def _parse_slow(region, first_line, ncol, per_line, *, noise_ok, p, name, hdr):
-    """Line-by-line parse that finds the line of any fault."""
+def _parse_slow(region, first_line, ncol, per_line, *, noise_ok, p, name, hdr, prev_first=None):
+    """Line-by-line parse that finds the line of any fault.
+
+    ``prev_first`` is the frequency (file units) of the record before this text, if any. Returns (values,
+    frequency tokens, record lines, whether a noise block ended the network data here)."""
     rows, ftoks, rec_lines = [], [], []
+    stopped = False
     cur, cur_line = [], None
     need = (f"{ncol} values for each frequency (the frequency and {ncol - 1} numbers, "
             f"i.e. {(ncol - 1) // 2} complex values as pairs)")
@@ -549,8 +602,10 @@ def _parse_slow(region, first_line, ncol, per_line, *, noise_ok, p, name, hdr):
                 raise _token_error(t, ln, name)
         if per_line:
             if len(toks) != ncol:
-                if noise_ok and len(toks) == 5 and rows and float(toks[0]) <= rows[-1][0]:
+                last = rows[-1][0] if rows else prev_first
+                if noise_ok and len(toks) == 5 and last is not None and float(toks[0]) <= last:
                     hdr.notes.append(f"line {ln}: noise parameters from here on were skipped")
+                    stopped = True
                     break
                 raise InputFileError(name, f"found {len(toks)} values but a {p}-port file needs {need} on each "
                                            f"line; check the file is complete and named .s{{N}}p for its "
@@ -577,7 +632,7 @@ def _parse_slow(region, first_line, ncol, per_line, *, noise_ok, p, name, hdr):
                                    f"values; a {p}-port file needs {need} (is the file truncated?)",
                              line=cur_line)
     vals = np.array(rows, dtype=float).reshape(-1, ncol)
-    return vals, ftoks, np.array(rec_lines, dtype=np.int64)
+    return vals, ftoks, np.array(rec_lines, dtype=np.int64), stopped
 
 
 def _scale_text(t: str, exp: int) -> str:
@@ -611,11 +666,7 @@ def _move_point(t: str, exp: int) -> str:
 
 def _freq_hz(ftoks: list, exp: int) -> np.ndarray:
     """Frequency tokens in the file's unit -> Hz, each the correctly rounded value of the decimal times 10**exp."""
-    if exp == 0:
-        return np.array(ftoks, dtype=float)
-    sfx = f"e{exp}"
-    return np.array([t + sfx if "e" not in t and "E" not in t else _scale_text(t, exp) for t in ftoks],
-                    dtype=float)
+    return scale_decimal_tokens(ftoks, exp)
 
 
 def _check_values(vals, freq_hz, rec_line, name):
@@ -807,31 +858,33 @@ def write_touchstone(path, freq_hz, s, *, comments=(), fmt: str = "RI", unit: st
     if unit.lower() not in _UNIT_EXP:
         raise ValueError(f"unit must be Hz, kHz, MHz or GHz, not {unit!r}")
     exp = _UNIT_EXP[unit.lower()]
-    if p == 2:
-        c = sa[:, [0, 1, 0, 1], [0, 0, 1, 1]]  # S11 S21 S12 S22
-    else:
-        c = sa[:, 0, 0][:, None]
-    if fmt_l == "ri":
-        a, b = c.real, c.imag
-    else:
-        mag = np.abs(c)
-        if fmt_l == "db":
-            if (mag == 0).any():
-                raise ValueError("a zero magnitude cannot be written in DB; use fmt='RI'")
-            a = 20.0 * np.log10(mag)
-        else:
-            a = mag
-        b = np.rad2deg(np.angle(c))
-    cols = np.empty((f.size, 1 + 2 * c.shape[1]), dtype=object)
-    cols[:, 0] = _freq_text(f, exp)
-    cols[:, 1::2] = a
-    cols[:, 2::2] = b
+    if fmt_l == "db" and (sa == 0).any():
+        raise ValueError("a zero magnitude cannot be written in DB; use fmt='RI'")
     head = [f"! {line}".rstrip() for text in comments for line in str(text).splitlines() or [""]]
     head.append(f"# {_UNIT_NAME[exp]} S {fmt_l.upper()} R 50")
-    row = "%s" + " %r" * (cols.shape[1] - 1) + "\n"
-    parts = ["\n".join(head) + "\n"]
-    chunk = 50_000
-    for i in range(0, f.size, chunk):
-        block = cols[i:i + chunk]
-        parts.append((row * block.shape[0]) % tuple(block.ravel().tolist()))
-    write_text_atomic(path, "".join(parts))
+    write_text_chunks_atomic(path, _data_chunks("\n".join(head) + "\n", f, sa, fmt_l, exp))
+
+
+def _data_chunks(head: str, f, sa, fmt_l: str, exp: int):
+    """The file's text in pieces: the head, then the data one chunk of rows at a time (one %-format each)."""
+    yield head
+    p = sa.shape[1]
+    ncol = 1 + 2 * p * p
+    row = "%s" + " %r" * (ncol - 1) + "\n"
+    for i in range(0, f.size, CHUNK_ROWS):
+        j = min(i + CHUNK_ROWS, f.size)
+        if p == 2:
+            c = sa[i:j, [0, 1, 0, 1], [0, 0, 1, 1]]  # S11 S21 S12 S22
+        else:
+            c = sa[i:j, 0, 0][:, None]
+        if fmt_l == "ri":
+            a, b = c.real, c.imag
+        else:
+            mag = np.abs(c)
+            a = 20.0 * np.log10(mag) if fmt_l == "db" else mag
+            b = np.rad2deg(np.angle(c))
+        block = np.empty((j - i, ncol), dtype=object)
+        block[:, 0] = _freq_text(f[i:j], exp)
+        block[:, 1::2] = a
+        block[:, 2::2] = b
+        yield (row * (j - i)) % tuple(block.ravel().tolist())

@@ -29,6 +29,7 @@ from ..io.atomic import atomic_path, stem_of
 from ..render import plots
 from ..io.touchstone import read_sweep
 from ..io.jsonfile import to_jsonable
+from ..io.numtext import is_float_table, table_blocks, write_csv_chunks
 
 
 @dataclass
@@ -181,12 +182,16 @@ def write_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options) 
 
 
 def write_table_csv(table: dict, path: str) -> None:
-    import pandas as pd
-
-
-    frame = pd.DataFrame(table)
+    """The per-frequency table as CSV (``%.9g``), written chunk by chunk; the bytes pandas'
+    ``to_csv(index=False, float_format="%.9g")`` writes, at several times its speed and without pandas."""
     with atomic_path(path) as tmp:
-        frame.to_csv(tmp, index=False, float_format="%.9g")
+        if not is_float_table(table):  # a column that is not float: let pandas decide its text
+            import pandas as pd
+
+            pd.DataFrame(table).to_csv(tmp, index=False, float_format="%.9g")
+            return
+        with open(tmp, "w", encoding="utf-8", newline="") as fh:
+            write_csv_chunks(fh, table.keys(), table_blocks(table), float_format="%.9g")
 
 
 def write_plots(corr, table: dict, paths: dict, opts: Options) -> dict:

@@ -75,20 +75,46 @@ class Correction:
                             s=self.gamma_feed.reshape(-1, 1, 1), z0=50.0, name=name)
 
 
+BLOCK_POINTS = 8192
+"""Frequencies evaluated per block in :func:`correct`: a block's temporaries (a few 128 kB arrays) stay in
+the processor's cache, and the memory a call needs beyond its inputs and results stays fixed."""
+
+
+def line_terms(line, freq_hz):
+    """(S11, S21*S12, S22, matched loss dB) of ``line`` at ``freq_hz``, each (n,).
+
+    Lines of this package give them in one pass (:meth:`deembed.physics.line.Line.deembed_terms`); any other
+    object with ``s_params`` and ``matched_loss_db`` is taken through its (n, 2, 2) S-parameters.
+    """
+    f = np.asarray(freq_hz, dtype=float)
+    if hasattr(line, "deembed_terms"):
+        return line.deembed_terms(f)
+    s = line.s_params(f)
+    return s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1], np.asarray(line.matched_loss_db(f), dtype=float)
+
+
 def correct(sweep, line) -> Correction:
     """De-embed ``line`` from a one-port ``sweep`` (a :class:`deembed.sweep.Sweep`).
 
     The line's 2-port is evaluated at exactly the sweep's frequencies through its physical model
-    (or taken as measured, when it was measured on the same points).
+    (or taken as measured, when it was measured on the same points), once per call: S11, S21*S12, S22
+    and the matched loss come from one evaluation of the propagation constant. A modelled line is taken
+    :data:`BLOCK_POINTS` frequencies at a time.
     """
     f = sweep.freq_hz
-    s = line.s_params(f)
     g_in = sweep.gamma
-    # where the line passes nothing the result is not finite; callers refuse it (workflow.check_finite)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        g_feed = feedpoint_gamma(g_in, s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1])
-    return Correction(freq_hz=f, gamma_shack=g_in, gamma_feed=g_feed,
-                      matched_loss_db=np.asarray(line.matched_loss_db(f), dtype=float),
+    n = f.shape[0]
+    step = BLOCK_POINTS if getattr(line, "blockwise", False) else max(n, 1)
+    g_feed = np.empty(n, dtype=complex)
+    loss = np.empty(n, dtype=float)
+    # where the line passes nothing the result is not finite; callers refuse it (jobs.correct.check_finite)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
+        for i in range(0, n, step):
+            j = min(i + step, n)
+            s11, s21s12, s22, loss_db = line_terms(line, f[i:j])
+            feedpoint_gamma(g_in[i:j], s11, s21s12, s22, out=g_feed[i:j])
+            loss[i:j] = loss_db
+    return Correction(freq_hz=f, gamma_shack=g_in, gamma_feed=g_feed, matched_loss_db=loss,
                       line=line, source=sweep.source)
 
 
@@ -100,8 +126,8 @@ def deembed_network(network, line):
     import skrf
 
     f = network.frequency.f
-    s = line.s_params(f)
+    s11, s21s12, s22, _ = line_terms(line, f)
     with np.errstate(divide="ignore", invalid="ignore"):  # a line that passes nothing gives inf/nan, not warnings
-        g_feed = feedpoint_gamma(network.s[:, 0, 0], s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1])
+        g_feed = feedpoint_gamma(network.s[:, 0, 0], s11, s21s12, s22)
     return skrf.Network(frequency=network.frequency, s=g_feed.reshape(-1, 1, 1), z0=50.0,
                         name=(network.name or "sweep") + " at feedpoint")

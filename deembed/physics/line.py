@@ -149,9 +149,17 @@ class Section:
             zc = zs / gl
         return gl, np.where(np.isfinite(zc), zc, self.z0_ohm)
 
+    def abcd_parts_and_loss(self, freq_hz):
+        """((A, B, C, D), matched loss dB) from one evaluation of the propagation constant."""
+        gl, zc = self.propagation(freq_hz)
+        return self._abcd_from(gl, zc), DB_PER_NP * gl.real
+
     def abcd_parts(self, freq_hz):
         """(A, B, C, D), each shaped like ``freq_hz``: A = D = cosh(gl), B = Zc sinh(gl), C = sinh(gl)/Zc."""
-        gl, zc = self.propagation(freq_hz)
+        return self._abcd_from(*self.propagation(freq_hz))
+
+    @staticmethod
+    def _abcd_from(gl, zc):
         e = np.exp(gl)
         ei = 1 / e
         ch = (e + ei) * 0.5
@@ -161,6 +169,57 @@ class Section:
     def abcd(self, freq_hz):
         """ABCD matrix of the section, shape (n, 2, 2)."""
         return _abcd_matrix(*self.abcd_parts(freq_hz))
+
+    def deembed_terms(self, freq_hz, z_ref_ohm: float = Z_REF_OHM):
+        """(S11, S21*S12, S22, matched loss dB), each (n,), in one pass: one sqrt and one exp per point.
+
+        Notes
+        -----
+        With gl = sqrt(Z'Y') l (as in :meth:`propagation`), the reflection of Zc = Z'l/gl against the reference,
+        rho = (Zc - z_ref)/(Zc + z_ref) = (Z'l - z_ref gl)/(Z'l + z_ref gl), and P^2 = exp(-2 gl), a uniform
+        line is S11 = S22 = rho (1 - P^2)/(1 - rho^2 P^2) and S21 S12 = P^2 (1 - rho^2)^2/(1 - rho^2 P^2)^2
+        (the ABCD form cosh/sinh of Pozar 4th ed. sec. 2.1 through Table 4.2, multiplied out; from memory,
+        checked against scikit-rf's DistributedCircuit in tests/test_line_terms.py). The matched loss is
+        Re(gl) in dB, from the same root. At 0 Hz Zc is taken as its limit, the nominal Z0.
+        """
+        f = np.asarray(freq_hz, dtype=float)
+        if self.delay_s <= 0 or f.ndim != 1:
+            return _terms_from_abcd(*self.abcd_parts(f), z_ref_ohm) + (self.matched_loss_db(f),)
+        z0, tau = self.z0_ohm, self.delay_s
+        w = (2 * np.pi) * f
+        zs = np.empty(f.shape, dtype=complex)  # series impedance of the whole section, R + jwL
+        zs.real = (2 * z0 * self.loss.c_np) * np.sqrt(f)
+        zs.imag = (z0 * tau) * w
+        gl = np.empty(f.shape, dtype=complex)  # shunt admittance G + jwC, then gamma*l
+        gl.real = 2 * self.loss.d_np * f / z0
+        gl.imag = (tau / z0) * w
+        del w
+        gl *= zs
+        np.sqrt(gl, out=gl)
+        loss_db = gl.real * DB_PER_NP
+        t = gl * z_ref_ohm
+        rho = zs - t
+        zs += t
+        with np.errstate(divide="ignore", invalid="ignore"):  # 0/0 at 0 Hz, set just below
+            rho /= zs
+        zero = f == 0
+        if zero.any():
+            rho[zero] = (z0 - z_ref_ohm) / (z0 + z_ref_ohm)
+        p2 = np.multiply(gl, -2.0, out=zs)
+        np.exp(p2, out=p2)
+        del gl
+        r2 = np.multiply(rho, rho, out=t)
+        inv = r2 * p2
+        np.subtract(1.0, inv, out=inv)
+        np.divide(1.0, inv, out=inv)
+        np.subtract(1.0, r2, out=r2)
+        r2 *= inv
+        r2 *= r2
+        r2 *= p2  # S21 S12
+        np.subtract(1.0, p2, out=p2)
+        p2 *= rho
+        p2 *= inv  # S11 = S22
+        return p2, r2, p2, loss_db
 
     def matched_loss_db(self, freq_hz):
         """One-way matched loss, dB: Re(gamma l) in dB from the full RLGC propagation constant."""
@@ -245,6 +304,43 @@ class Line:
             return self.parts[0].s_params(freq_hz)
         return _abcd_parts_to_s(*self.abcd_parts(freq_hz), z_ref_ohm)
 
+    def deembed_terms(self, freq_hz, z_ref_ohm: float = Z_REF_OHM):
+        """(S11, S21*S12, S22, matched loss dB) of the whole line, each (n,): all de-embedding needs.
+
+        One section: :meth:`Section.deembed_terms` (one sqrt, one exp per point). A measured or characterized
+        2-port alone: its own S. A cascade: the sections' ABCD, each from one sqrt and one exp, multiplied out.
+        """
+        f = np.asarray(freq_hz, dtype=float)
+        if len(self.parts) == 1:
+            part = self.parts[0]
+            if hasattr(part, "deembed_terms"):
+                return part.deembed_terms(f, z_ref_ohm) if isinstance(part, Section) else part.deembed_terms(f)
+            if hasattr(part, "s_params"):
+                s = part.s_params(f)
+                return s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1], np.asarray(part.matched_loss_db(f), dtype=float)
+        total = None
+        loss = np.zeros(f.shape)
+        for part in self.parts:
+            if isinstance(part, Section):
+                p, part_loss = part.abcd_parts_and_loss(f)
+            else:
+                m = part.abcd(f)
+                p = (m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1])
+                part_loss = part.matched_loss_db(f)
+            loss += part_loss
+            if total is None:
+                total = p
+            else:
+                a1, b1, c1, d1 = total
+                a2, b2, c2, d2 = p
+                total = (a1 * a2 + b1 * c2, a1 * b2 + b1 * d2, c1 * a2 + d1 * c2, c1 * b2 + d1 * d2)
+        return _terms_from_abcd(*total, z_ref_ohm) + (loss,)
+
+    @property
+    def blockwise(self) -> bool:
+        """True when the line can be evaluated on any subset of frequencies (a model, no measured grid)."""
+        return all(isinstance(p, Section) for p in self.parts)
+
     def matched_loss_db(self, freq_hz):
         """One-way matched loss of the whole run, dB: the sum of the parts' matched losses."""
         return sum(p.matched_loss_db(freq_hz) for p in self.parts)
@@ -275,6 +371,17 @@ def _abcd_parts_to_s(a, b, c, d, z_ref_ohm: float = Z_REF_OHM):
     s[..., 0, 1] = 2 * (a * d - b * c) * inv
     s[..., 1, 1] = (-a + b - c + d) * inv
     return s
+
+
+def _terms_from_abcd(a, b, c, d, z_ref_ohm: float = Z_REF_OHM):
+    """(S11, S21*S12, S22) from ABCD parts at a real reference (Pozar 4th ed. Table 4.2):
+    S21 S12 = 4 (AD - BC) / (A + B/Z + CZ + D)^2."""
+    b, c = b / z_ref_ohm, c * z_ref_ohm
+    inv = 1 / (a + b + c + d)
+    s11 = (a + b - c - d) * inv
+    s22 = (-a + b - c + d) * inv
+    s21s12 = 4 * (a * d - b * c) * inv * inv
+    return s11, s21s12, s22
 
 
 def _abcd_matrix(a, b, c, d):

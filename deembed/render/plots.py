@@ -1,6 +1,11 @@
 """Plots of a correction. Each function takes ``ax=None`` and returns the matplotlib Figure.
 
 Figures are built without pyplot (no global state, no GUI backend); nothing calls ``show()``.
+Every figure has a fixed layout (set margins, the legend in a set place; no layout solver, no search for the
+emptiest corner), and a trace with more points than the image can show is thinned first: a frequency trace
+to its min/max envelope, two runs of points per pixel column (:func:`envelope`), a Smith chart trace to one
+point per 2-pixel cell it passes through (:func:`path_cells`). Every peak and dip survives; the picture is
+the same, and its cost no longer grows with the sweep.
 Colours: the analyzer-end trace in slate, the feedpoint trace in copper.
 """
 from __future__ import annotations
@@ -16,22 +21,114 @@ GRID_COLOUR = "#d9d4cc"
 LABELS = {"shack": "at the analyzer (measured)", "feedpoint": "at the feedpoint (corrected)"}
 
 
-def _axes(ax, figsize=(8, 4.5)):
+DPI = 110
+"""Resolution of every saved figure, dots per inch."""
+FREQ_FIGSIZE = (8, 4.5)
+FREQ_MARGINS = {"left": 0.095, "right": 0.975, "bottom": 0.115, "top": 0.83}
+"""Fixed layout of the frequency plots (fractions of the figure): room for the title and the legend above."""
+
+
+RUNS_PER_COLUMN = 2
+"""Runs of points per pixel column in :func:`envelope`: with two, a run's edge falls within half a pixel of
+where the full trace would turn, and the drawing matches the unthinned one to antialiasing shades."""
+
+
+def envelope(n: int, width: int, *ys):
+    """Indices that keep the min/max envelope of the traces ``ys`` (each (n,)) in ``width`` runs.
+
+    With ``n`` at most twice ``width`` all points are kept. Otherwise the points are split into ``width``
+    runs of consecutive indices (for an evenly spaced sweep, a run is a fixed share of a pixel column) and
+    each run keeps the index of its smallest and its largest value of every trace, in order, plus the
+    first and last point: every peak and dip of the drawn line survives, and a column never shows more than
+    the line's vertical extent. A run with a NaN keeps one NaN point, so a gap in the trace stays a gap.
+    """
+    if n <= 2 * width or width < 1:
+        return np.arange(n)
+    per = -(-n // width)  # points per run, rounded up
+    runs = -(-n // per)
+    keep = np.zeros(n, dtype=bool)
+    keep[0] = keep[-1] = True
+    base = np.arange(runs) * per
+    for y in ys:
+        y = np.asarray(y, dtype=float)
+        blocks = np.full(runs * per, np.nan)
+        blocks[:n] = y
+        blocks = blocks.reshape(runs, per)
+        nan = np.isnan(blocks)
+        lo = np.argmin(np.where(nan, np.inf, blocks), axis=1) + base
+        hi = np.argmax(np.where(nan, -np.inf, blocks), axis=1) + base
+        keep[np.minimum(lo, n - 1)] = True
+        keep[np.minimum(hi, n - 1)] = True
+        nan_at = np.flatnonzero(np.isnan(y))
+        if nan_at.size:
+            first = np.unique(nan_at // per, return_index=True)[1]
+            keep[nan_at[first]] = True
+    return np.flatnonzero(keep)
+
+
+def path_cells(x, y, lims, size_px, cell_px: float = 2.0):
+    """Indices that keep a 2-D path (a Smith chart trace) to within ``cell_px`` pixels.
+
+    The plane ``lims`` = (x0, x1, y0, y1) drawn over ``size_px`` = (width, height) pixels is cut into cells of
+    ``cell_px`` pixels; a point is kept when it lies in another cell than the point before it (and the
+    first and last points always). Every cell the path passes through keeps a point, so the drawn line is
+    the same to the eye; a sweep that crawls within a cell costs one point there instead of thousands.
+    Non-finite points are kept (they break the line, as they would unthinned).
+    """
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    n = x.shape[0]
+    if n < 3:
+        return np.arange(n)
+    x0, x1, y0, y1 = lims
+    with np.errstate(invalid="ignore"):
+        cx = np.floor((x - x0) * (size_px[0] / cell_px / (x1 - x0)))
+        cy = np.floor((y - y0) * (size_px[1] / cell_px / (y1 - y0)))
+    keep = np.empty(n, dtype=bool)
+    keep[0] = True
+    np.not_equal(cx[1:], cx[:-1], out=keep[1:])
+    keep[1:] |= cy[1:] != cy[:-1]
+    keep[-1] = True
+    return np.flatnonzero(keep)
+
+
+def _width_px(ax) -> int:
+    """Pixel columns of the axes (the figure's width in pixels times the axes' share of it)."""
+    fig = ax.figure
+    return max(int(fig.get_figwidth() * DPI * ax.get_position().width), 1)
+
+
+def _trace(ax, x, y, **kw):
+    """``ax.plot(x, y, **kw)``, thinned to the min/max envelope the axes' pixel width can show."""
+    x = np.asarray(x)
+    y = np.asarray(y)
+    idx = envelope(x.shape[0], RUNS_PER_COLUMN * _width_px(ax), y)
+    if idx.shape[0] < x.shape[0]:
+        x, y = x[idx], y[idx]
+    return ax.plot(x, y, **kw)
+
+
+def _axes(ax, figsize=FREQ_FIGSIZE):
     if ax is not None:
         return ax.figure, ax
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=figsize, layout="constrained")
+    fig = Figure(figsize=figsize)
+    fig.subplots_adjust(**FREQ_MARGINS)
     return fig, fig.add_subplot()
 
 
 def finish(ax, ylabel: str, title: str) -> None:
-    """The frequency axis, labels, grid and legend every frequency plot shares."""
+    """The frequency axis, labels, grid and legend every frequency plot shares.
+
+    The legend sits in a row above the axes, under the title, so it never hides a trace and needs no
+    search of the data for an empty corner."""
     ax.set_xlabel("Frequency (MHz)")
     ax.set_ylabel(ylabel)
-    ax.set_title(title)
+    ax.set_title(title, pad=26)
     ax.grid(True, color=GRID_COLOUR, lw=0.6)
-    ax.legend(loc="best", fontsize=9)
+    ax.legend(loc="lower left", bbox_to_anchor=(0.0, 1.005), ncol=3, fontsize=9, frameon=False,
+              borderaxespad=0.0, handlelength=2.6)
 
 
 def _mhz(freq_hz):
@@ -73,8 +170,8 @@ def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends"):
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
     s_sh, s_fp = rf.swr(corr.gamma_shack), rf.swr(corr.gamma_feed)
-    ax.plot(f, s_sh, color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"], **_marks(f))
-    ax.plot(f, s_fp, color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    _trace(ax, f, s_sh, color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"], **_marks(f))
+    _trace(ax, f, s_fp, color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
     swr_scale(ax, [s_sh, s_fp], limits, label_at=f[0])
     finish(ax, "SWR", title)
@@ -85,9 +182,9 @@ def return_loss_plot(corr, ax=None):
     """Return loss (positive dB) at both ends."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
-    ax.plot(f, rf.return_loss_db(corr.gamma_shack), color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"],
-            **_marks(f))
-    ax.plot(f, rf.return_loss_db(corr.gamma_feed), color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    _trace(ax, f, rf.return_loss_db(corr.gamma_shack), color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"],
+           **_marks(f))
+    _trace(ax, f, rf.return_loss_db(corr.gamma_feed), color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
     ax.invert_yaxis()
     finish(ax, "Return loss (dB, larger is better)", "Return loss at both ends")
@@ -99,8 +196,8 @@ def impedance_plot(corr, ax=None):
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
     z = rf.z_from_gamma(corr.gamma_feed)
-    ax.plot(f, z.real, color=FEED_COLOUR, lw=2.0, label="R (resistance)", **_marks(f))
-    ax.plot(f, z.imag, color="#2f7d6d", lw=2.0, ls="-.", label="X (reactance)", **_marks(f))
+    _trace(ax, f, z.real, color=FEED_COLOUR, lw=2.0, label="R (resistance)", **_marks(f))
+    _trace(ax, f, z.imag, color="#2f7d6d", lw=2.0, ls="-.", label="X (reactance)", **_marks(f))
     _xrange(ax, f)
     ax.axhline(0, color="#444444", lw=0.8)
     ax.axhline(50, color="#8a8a8a", lw=0.8, ls=":")
@@ -119,7 +216,7 @@ def smith_grid(ax):
     for r in (0.2, 0.5, 1.0, 2.0, 5.0):  # constant-resistance circles: centre r/(1+r), radius 1/(1+r)
         c, rad = r / (1 + r), 1 / (1 + r)
         ax.plot(c + rad * np.cos(t), rad * np.sin(t), color=GRID_COLOUR, lw=0.7)
-    xs = np.linspace(0, 200, 4000)
+    xs = np.concatenate(([0.0], np.geomspace(1e-3, 200, 600)))  # dense near r = 0, where the arcs bend most
     for x in (0.2, 0.5, 1.0, 2.0, 5.0):  # constant-reactance arcs, drawn as images of the line z = r + jx
         for sign in (1, -1):
             g = rf.gamma_from_z(xs + 1j * sign * x, 1.0)
@@ -130,8 +227,11 @@ def smith_grid(ax):
 
 
 def smith_trace(ax, gamma, colour, ls="-", label=None, lw=1.8, ms=5) -> None:
-    """One reflection trace on a Smith chart, with a dot at the sweep's lowest frequency."""
-    ax.plot(gamma.real, gamma.imag, color=colour, lw=lw, ls=ls, label=label)
+    """One reflection trace on a Smith chart, with a dot at the sweep's lowest frequency (thinned to what the
+    axes' pixels can show, :func:`path_cells`)."""
+    side = _width_px(ax)
+    idx = path_cells(gamma.real, gamma.imag, (-1.08, 1.08, -1.08, 1.08), (side, side))
+    ax.plot(gamma.real[idx], gamma.imag[idx], color=colour, lw=lw, ls=ls, label=label)
     ax.plot(gamma.real[:1], gamma.imag[:1], "o", color=colour, ms=ms)
 
 
@@ -146,7 +246,13 @@ def smith_frame(ax, title: str, fontsize=None) -> None:
 
 def smith_plot(corr, ax=None):
     """Smith chart (50 ohm) with the measured and corrected traces; circles mark the sweep's start."""
-    fig, ax = _axes(ax, figsize=(6.2, 6.2))
+    if ax is None:
+        from matplotlib.figure import Figure
+
+        fig = Figure(figsize=(6.2, 6.2))
+        fig.subplots_adjust(left=0.02, right=0.98, bottom=0.02, top=0.93)
+        ax = fig.add_subplot()
+    fig = ax.figure
     smith_grid(ax)
     for g, colour, ls, key in ((corr.gamma_shack, SHACK_COLOUR, "--", "shack"),
                                (corr.gamma_feed, FEED_COLOUR, "-", "feedpoint")):
@@ -160,12 +266,12 @@ def budget_plot(freq_hz, budget: dict, ax=None):
     """Power budget against frequency: delivered into the antenna, lost in the line, returned."""
     fig, ax = _axes(ax)
     f = _mhz(freq_hz)
-    ax.plot(f, budget["budget_delivered_w"], color=FEED_COLOUR, lw=2.0, label="radiated or lost in the antenna",
-            **_marks(f))
-    ax.plot(f, budget["budget_line_dissipated_w"], color="#8b6c3e", lw=1.6, ls="-.", label="lost in the line",
-            **_marks(f))
-    ax.plot(f, budget["budget_reflected_at_tx_w"], color=SHACK_COLOUR, lw=1.6, ls="--",
-            label="reflected back to the transmitter", **_marks(f))
+    _trace(ax, f, budget["budget_delivered_w"], color=FEED_COLOUR, lw=2.0, label="radiated or lost in the antenna",
+           **_marks(f))
+    _trace(ax, f, budget["budget_line_dissipated_w"], color="#8b6c3e", lw=1.6, ls="-.", label="lost in the line",
+           **_marks(f))
+    _trace(ax, f, budget["budget_reflected_at_tx_w"], color=SHACK_COLOUR, lw=1.6, ls="--",
+           label="reflected back to the transmitter", **_marks(f))
     _xrange(ax, f)
     finish(ax, "Watts", "Where the transmitter's power goes")
     return fig
@@ -197,7 +303,7 @@ def correction_plots(corr, table: dict | None = None, thresholds=(2.0,)) -> dict
     return {k: f for k, f in figs.items() if f is not None}
 
 
-def save(fig, path, dpi: int = 110) -> None:
+def save(fig, path, dpi: int = DPI) -> None:
     """Save a figure atomically (temporary file in the same folder, then rename)."""
 
     with atomic_path(path) as tmp:
