@@ -172,7 +172,7 @@ def bench_kernel(n: int, repeats: int):
     small = skrf.Frequency.from_f(f[:1000], unit="Hz")  # warm scikit-rf's own first-call costs on a small job
     skrf.media.DistributedCircuit(small, C=c, L=l, R=r[:1000], G=g[:1000], z0_port=50).line(1.0, "m")
     theirs = median_time(skrf_job, 3 if repeats > 3 else 1, warmup=0)
-    err = float(np.max(np.abs(deembed.correct(sweep, line).gamma_feed - skrf_job().s[:, 0, 0])))
+    err = float(np.max(np.abs(deembed.correct(sweep, line).gamma_feedpoint - skrf_job().s[:, 0, 0])))
     return ours, theirs, err
 
 

@@ -6,7 +6,7 @@ The library in a few names::
 
     sweep = read_sweep("sample_sweeps/dipole-40m.s1p")
     line = Line((catalog()["rg213"].section(30.0),))
-    result = correct(sweep, line)          # result.gamma_feed: the feedpoint's reflection
+    result = correct(sweep, line)          # result.gamma_feedpoint: the feedpoint's reflection
     net = result.feedpoint_network()       # the same as a scikit-rf Network
 
 The package is layered (see DEVELOPERS.md): ``base`` < ``physics`` < ``io`` < ``analysis`` < ``render``

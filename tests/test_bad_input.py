@@ -756,10 +756,10 @@ def test_compare_bad_input(capsys, tmp_path, station, case):
 
 @pytest.mark.parametrize("text, needles, line", [
     ("[[feed]\n", ["not valid TOML"], 1),
-    ('colour = "red"\n[[feed]]\nname = "a"\n', ["unknown key(s) colour"], None),
-    ('name = "x"\n', ["no [[feed]]"], None),
-    ("feed = 5\n", ["no [[feed]]"], None),
-    ('[limits]\nmax_shift = "50"\n[[feed]]\nname = "a"\nline = "l.toml"\nbaseline = "a.s1p"\nlatest = "b.s1p"\n',
+    ('colour = "red"\n[[antenna]]\nname = "a"\n', ["unknown key(s) colour"], None),
+    ('name = "x"\n', ["no [[antenna]]"], None),
+    ("antenna = 5\n", ["no [[antenna]]"], None),
+    ('[limits]\nmax_shift = "50"\n[[antenna]]\nname = "a"\nline = "l.toml"\nbaseline = "a.s1p"\nlatest = "b.s1p"\n',
      ["max_shift", "no unit"], None),
 ], ids=["syntax", "unknown key", "no feeds", "feed not a table", "limit without unit"])
 def test_bad_site_file(capsys, tmp_path, text, needles, line):
@@ -771,7 +771,7 @@ def test_bad_site_file(capsys, tmp_path, text, needles, line):
 
 
 def test_site_paths_resolve_relative_to_the_site_file(capsys, tmp_path, station, monkeypatch):
-    (station / "s.site.toml").write_text('name = "x"\n[[feed]]\nname = "<b>40 m</b>"\nline = "dipole-40m.line.toml"\n'
+    (station / "s.site.toml").write_text('name = "x"\n[[antenna]]\nname = "<b>40 m</b>"\nline = "dipole-40m.line.toml"\n'
                                          'baseline = "dipole-40m.s1p"\nlatest = "dipole-40m-after.s1p"\n')
     elsewhere = tmp_path / "elsewhere"
     elsewhere.mkdir()
@@ -781,7 +781,7 @@ def test_site_paths_resolve_relative_to_the_site_file(capsys, tmp_path, station,
                        "--json")
     assert code in (0, 1), err  # 1 would be a verdict, not an error
     summary = json.loads((tmp_path / "out" / "site.json").read_text())
-    assert [f["status"] for f in summary["feeds"]] != ["error"], summary["feeds"]
+    assert [f["verdict"] for f in summary["antennas"]] != ["error"], summary["antennas"]
     # the inputs are unchanged; the only new file is the site's history store, which belongs beside it
     assert snapshot(*[p for p in station.iterdir() if p.name != "s.history.sqlite"]) == before
     assert sorted(p.name for p in station.iterdir()) == sorted([*(Path(p).name for p in before), "s.history.sqlite"])

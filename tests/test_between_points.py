@@ -61,19 +61,19 @@ def _sweep(run_fn, f, f0_ant=14e6):
 def test_mixed_run_between_points_within_5e_3(tmp_path):
     grid = np.linspace(3e6, 30e6, 201)  # the issue's 201-point characterization over 3-30 MHz
     path, ch = _characterize_file(tmp_path, mixed_run(grid), grid)
-    assert ch.fit.residual_rms > 0.1  # one uniform line cannot describe this run (the issue's 0.18-ish misfit)
+    assert ch.fit.rms_residual > 0.1  # one uniform line cannot describe this run (the issue's 0.18-ish misfit)
     f2 = _other_points()
     sweep, truth = _sweep(mixed_run, f2)
     line = line_from_characterization(path)
     res = correct(sweep, line)
-    err = np.abs(res.gamma_feed - truth)
+    err = np.abs(res.gamma_feedpoint - truth)
     assert err.max() <= 5e-3  # issue 15 acceptance figure
-    bp = between_points(line, f2, res.gamma_feed)
+    bp = between_points(line, f2, res.gamma_feedpoint)
     assert bp["method"] == "interpolated"
     assert bp["points_between"] == 400 and bp["points_on_grid"] == 0 and bp["points_beyond"] == 0
     assert not bp["grid_too_coarse"]
     assert bp["delay_removed_s"] == pytest.approx(TAU_S, rel=1e-3)  # the fitted delay is the run's
-    est = between_error(line, f2, res.gamma_feed)
+    est = between_error(line, f2, res.gamma_feedpoint)
     assert np.all(est >= err)  # the leave-one-out figure errs on the high side, point by point
     assert bp["estimated_error"] == pytest.approx(est.max()) and bp["estimated_error"] < 0.01
 
@@ -84,8 +84,8 @@ def test_mixed_run_on_its_own_points_is_exact(tmp_path):
     sweep, truth = _sweep(mixed_run, grid)
     line = line_from_characterization(path)
     res = correct(sweep, line)
-    assert np.max(np.abs(res.gamma_feed - truth)) < 1e-9
-    bp = between_points(line, grid, res.gamma_feed)
+    assert np.max(np.abs(res.gamma_feedpoint - truth)) < 1e-9
+    bp = between_points(line, grid, res.gamma_feedpoint)
     assert bp["method"] == "exact" and bp["estimated_error"] == 0.0 and bp["points_on_grid"] == 201
 
 
@@ -108,7 +108,7 @@ def test_grid_too_coarse_warns_with_the_needed_step(tmp_path):
     # the leave-one-out figure is above 0.01 and is said with its number
     assert bp["estimated_error"] > 0.01
     assert f"{bp['estimated_error']:.3f} in |Gamma|" in text
-    assert np.max(np.abs(res.gamma_feed - truth)) <= bp["estimated_error"]  # and it was not an overstatement
+    assert np.max(np.abs(res.gamma_feedpoint - truth)) <= bp["estimated_error"]  # and it was not an overstatement
 
 
 def test_fine_grid_gives_no_between_warning(tmp_path):
@@ -129,8 +129,8 @@ def test_uniform_line_keeps_its_model_and_accuracy(tmp_path, standards):
     sweep, truth = _sweep(uniform_run, f2)
     line = line_from_characterization(path)
     res = correct(sweep, line)
-    assert np.max(np.abs(res.gamma_feed - truth)) <= 2e-3  # issue 15: unchanged accuracy
-    bp = between_points(line, f2, res.gamma_feed)
+    assert np.max(np.abs(res.gamma_feedpoint - truth)) <= 2e-3  # issue 15: unchanged accuracy
+    bp = between_points(line, f2, res.gamma_feedpoint)
     assert bp["method"] == "model"
     assert bp["estimated_error"] < 1e-6  # the model fits a uniform run to rounding
 
@@ -141,7 +141,7 @@ def test_single_standard_reports_model_with_its_fit_misfit(tmp_path):
     line = line_from_characterization(path)
     bp = between_points(line, grid)
     assert bp["method"] == "model" and "misfit" in bp["error_from"]
-    assert line.parts[0].fit_misfit == pytest.approx(ch.fit.residual_rms)
+    assert line.parts[0].fit_misfit == pytest.approx(ch.fit.rms_residual)
 
 
 def test_extrapolated_points_use_the_model(tmp_path):
@@ -201,16 +201,16 @@ def test_site_carries_between_points(tmp_path):
         sweep, _ = _sweep(mixed_run, f2, f0_ant=f0)
         write_touchstone(tmp_path / name, f2, sweep.gamma)
     site = tmp_path / "hill.site.toml"
-    site.write_text('name = "Invented hill"\n\n[[feed]]\nname = "20 m dipole"\nline = "run.s2p"\n'
+    site.write_text('name = "Invented hill"\n\n[[antenna]]\nname = "20 m dipole"\nline = "run.s2p"\n'
                     'baseline = "base.s1p"\nlatest = "after.s1p"\n')
     out = tmp_path / "site-out"
     summary = run_site(str(site), str(out), workers=1)
-    feed = summary["feeds"][0]
+    feed = summary["antennas"][0]
     assert feed["baseline"]["between_points"]["method"] == "interpolated"
     cmp = feed["comparisons"][0]
     assert cmp["between_points"]["method"] == "interpolated" and cmp["between_points"]["estimated_error"] < 0.01
     saved = json.loads((out / "site.json").read_text())
-    assert saved["feeds"][0]["comparisons"][0]["between_points"]["points_between"] == 400
+    assert saved["antennas"][0]["comparisons"][0]["between_points"]["points_between"] == 400
     assert "between characterized points: interpolated" in (out / "index.html").read_text()
 
 

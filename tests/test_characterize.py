@@ -129,9 +129,9 @@ def test_osl_mixed_run_reproduces_skrf_cascade_and_recovers_antenna():
     assert any("not one uniform line" in n for n in ch.notes)
 
     ant = antenna(F)
-    shack = one_port(F, (run ** ant).s[:, 0, 0])
-    res = correct(shack, ch.line())
-    np.testing.assert_allclose(res.gamma_feed, ant.s[:, 0, 0], rtol=0, atol=1e-9)  # the antenna built in skrf
+    at_analyzer = one_port(F, (run ** ant).s[:, 0, 0])
+    res = correct(at_analyzer, ch.line())
+    np.testing.assert_allclose(res.gamma_feedpoint, ant.s[:, 0, 0], rtol=0, atol=1e-9)  # the antenna built in skrf
 
 
 def test_osl_with_noise_recovers_antenna_within_noise():
@@ -149,7 +149,7 @@ def test_osl_with_noise_recovers_antenna_within_noise():
     ant = antenna(F)
     g_true = ant.s[:, 0, 0]
     res = correct(one_port(F, noisy((run ** ant).s[:, 0, 0])), ch.line())
-    err = np.abs(res.gamma_feed - g_true)
+    err = np.abs(res.gamma_feedpoint - g_true)
     # first-order propagation (F16 inverted): each of the four measured values moves Gamma_a by at most
     # |dGm| (1 + |e11|)^2 (1 + |Gamma_a|)^2 / |e10e01|; their noise is independent, so the RMS error is at most
     # 2 sqrt(2) sigma (1 + |e11|)^2 (1 + |Gamma_a|)^2 / |e10e01|  (a bound, not an estimate)
@@ -277,7 +277,7 @@ def test_single_standard_fit_noise_free(which):
     rep = characterization_report(ch, at_hz=[10e6], length_m=25.0)
     assert rep["k1_db_per_100ft"] == pytest.approx(0.3437, rel=1e-6)
     assert rep["k2_db_per_100ft"] == pytest.approx(0.002632, rel=1e-5)
-    assert ch.fit.residual_rms < 1e-12
+    assert ch.fit.rms_residual < 1e-12
     np.testing.assert_allclose(ch.s, line.s, rtol=0, atol=1e-9)
 
 
@@ -299,7 +299,7 @@ def test_single_standard_fit_with_noise():
     ml_true = -20 * np.log10(np.abs(line.s[-1, 1, 0]))
     tol_ml = 5 * DB_PER_NP * (sig_phi / 2) * 2 / np.sqrt(n)
     assert float(ch.section.matched_loss_db(F[-1])) == pytest.approx(ml_true, abs=tol_ml)
-    assert ch.fit.residual_rms == pytest.approx(np.sqrt(2) * sigma, rel=0.1)  # misfit = the noise, no more
+    assert ch.fit.rms_residual == pytest.approx(np.sqrt(2) * sigma, rel=0.1)  # misfit = the noise, no more
 
 
 def test_fit_that_does_not_converge_is_refused():
@@ -351,7 +351,7 @@ def test_off_grid_correction_through_model(tmp_path):
     run2 = skrf_line(f2, 50, 0.66, 45.0, 0.1755, 0.00245)
     ant = antenna(f2)
     res = correct(one_port(f2, (run2 ** ant).s[:, 0, 0]), line_from_characterization(path))
-    np.testing.assert_allclose(res.gamma_feed, ant.s[:, 0, 0], rtol=0, atol=1e-7)  # skrf antenna
+    np.testing.assert_allclose(res.gamma_feedpoint, ant.s[:, 0, 0], rtol=0, atol=1e-7)  # skrf antenna
     # what the model avoids: linear interpolation of the raw complex 2-port across its phase turns
     s_lin = np.stack([np.interp(f2, F, ch.s[:, i, j].real) + 1j * np.interp(f2, F, ch.s[:, i, j].imag)
                       for i, j in ((0, 0), (1, 0), (1, 1))], axis=1)
@@ -375,7 +375,7 @@ def test_extrapolation_refused_unless_asked(tmp_path):
     for line in (line_from_characterization(path, allow_extrapolation=True),
                  with_extrapolation(line_from_characterization(path))):
         res = correct(sweep, line)
-        np.testing.assert_allclose(res.gamma_feed, ant.s[:, 0, 0], rtol=0, atol=1e-7)  # the model is exact here
+        np.testing.assert_allclose(res.gamma_feedpoint, ant.s[:, 0, 0], rtol=0, atol=1e-7)  # the model is exact here
 
 
 def test_linespec_reads_characterization(tmp_path):

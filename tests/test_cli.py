@@ -30,7 +30,7 @@ def series_rlc_z(f, r=50.0, f0=14e6, q=20.0):
 
 
 @pytest.fixture
-def shack_sweep(tmp_path):
+def analyzer_sweep(tmp_path):
     """A series-RLC antenna (E10) behind 30 m of 50 ohm line with 1.25 dB at 14 MHz, written as .s1p."""
     f = np.linspace(13e6, 15e6, 401)
     line = Line((Section.from_length(50.0, 0.66, 30.0, LossModel.fit([(1.25, 14e6)])),))
@@ -40,8 +40,8 @@ def shack_sweep(tmp_path):
     return path, f, g_ant
 
 
-def test_correct_writes_every_output_and_recovers_the_antenna(capsys, tmp_path, shack_sweep):
-    path, f, g_ant = shack_sweep
+def test_correct_writes_every_output_and_recovers_the_antenna(capsys, tmp_path, analyzer_sweep):
+    path, f, g_ant = analyzer_sweep
     out = tmp_path / "res"
     code, text, err = run(capsys, "correct", path, "--length", "30m", "--vf", "0.66", "--loss", "1.25dB@14MHz",
                           "--out", out, "--target", "14.2MHz", "--power", "100W")
@@ -58,31 +58,31 @@ def test_correct_writes_every_output_and_recovers_the_antenna(capsys, tmp_path, 
     assert summary["feedpoint"]["min_swr"]["freq_hz"] == pytest.approx(14e6, abs=2e3)
     assert summary["feedpoint"]["min_swr"]["swr"] == pytest.approx(1.0, abs=1e-3)
     assert summary["feedpoint"]["resonances_hz"] == [pytest.approx(14e6, abs=100)]
-    (lo, hi), = summary["feedpoint"]["bandwidth_hz"]["2"]
+    (lo, hi), = summary["feedpoint"]["swr_spans_hz"]["2"]
     assert lo == pytest.approx(13.7547e6, abs=2e3) and hi == pytest.approx(14.249675e6, abs=2e3)
     assert summary["feedpoint"]["q"] == pytest.approx(20.0, rel=0.01)  # Yaghjian-Best Q of the E10 model
     # The line hides the match: behind 1.25 dB the analyzer's 2:1 span is wider (F8)
-    (slo, shi), = summary["shack"]["bandwidth_hz"]["2"]
+    (slo, shi), = summary["analyzer"]["swr_spans_hz"]["2"]
     assert shi - slo > hi - lo
-    assert summary["line"]["matched_loss_db"]["at_start"] == pytest.approx(1.25 * np.sqrt(13 / 14), rel=1e-3)
+    assert summary["line"]["matched_loss_db"]["at_low"] == pytest.approx(1.25 * np.sqrt(13 / 14), rel=1e-3)
     # trim: resonance 14.0, target 14.2 -> shorten by (14.0/14.2 - 1) = -1.408 % (f ~ 1/L, common practice)
     assert summary["feedpoint"]["trim"]["length_change_percent"] == pytest.approx(-1.408, abs=0.01)
     assert "feedpoint" in text and "lowest SWR" in text
     table = (out / "mast.table.csv").read_text().splitlines()
     head = table[0].split(",")
-    for col in ("freq_hz", "shack_swr", "feedpoint_swr", "feedpoint_return_loss_db", "feedpoint_r_ohm",
+    for col in ("freq_hz", "analyzer_swr", "feedpoint_swr", "feedpoint_return_loss_db", "feedpoint_r_ohm",
                 "feedpoint_x_ohm", "line_matched_loss_db", "budget_delivered_w"):
         assert col in head
     assert len(table) == 402
 
 
-def test_correct_json_on_stdout(capsys, tmp_path, shack_sweep):
-    path, _, _ = shack_sweep
+def test_correct_json_on_stdout(capsys, tmp_path, analyzer_sweep):
+    path, _, _ = analyzer_sweep
     code, text, _ = run(capsys, "correct", path, "--length", "30m", "--vf", "0.66", "--loss", "1.25dB@14MHz",
                         "--out", tmp_path / "o", "--json", "--no-plots")
     assert code == 0
     data = json.loads(text)
-    assert set(data) >= {"sweep", "line", "feedpoint", "shack", "warnings"}
+    assert set(data) >= {"sweep", "line", "feedpoint", "analyzer", "warnings"}
 
 
 def test_budget_json_matches_handbook_example(capsys):
@@ -115,8 +115,8 @@ def test_budget_trade_figure_from_measured_swr(capsys):
     (["correct", "{sweep}"], "--line"),
     (["budget", "--power", "100W", "--loss", "3", "--measured-swr", "6"], "--measured-swr"),
 ])
-def test_bad_input_is_one_line_and_exit_2(capsys, tmp_path, shack_sweep, args, needle):
-    path, _, _ = shack_sweep
+def test_bad_input_is_one_line_and_exit_2(capsys, tmp_path, analyzer_sweep, args, needle):
+    path, _, _ = analyzer_sweep
     args = [a.format(sweep=path, missing=tmp_path / "nope.s1p") for a in args] + ["--out", tmp_path / "o"] \
         if args[0] == "correct" else args
     code, out, err = run(capsys, *args)

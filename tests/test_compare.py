@@ -65,22 +65,22 @@ def test_detuned_antenna_gives_known_shift_library_and_cli(tmp_path, capsys):
     # the 20 kHz grid step: noiseless, the quadratic fit of X(f) over +/-1 % errs only by the model's cubic term.
     assert res["resonance_shift_hz"] == pytest.approx(-400e3, abs=2e3)
     assert res["resonance_before_hz"] == pytest.approx(145.6e6, abs=2e3)
-    assert res["verdict"]["within_limits"] is False and "max_shift" in res["verdict"]["exceeded"]
-    assert res["diagnosis"]["code"] == "antenna"
+    assert res["verdict"]["status"] == "outside_limits" and "max_shift_hz" in res["verdict"]["limits_exceeded"]
+    assert res["cause"]["code"] == "antenna"
 
     rc, out, err = run_cli(["compare", base, after, *ARGS_LINE, "--json", "--out", str(tmp_path / "cmp")], capsys)
     assert rc == 1, err
     data = json.loads(out)
     assert data["resonance_shift_hz"] == pytest.approx(-400e3, abs=2e3)  # after minus before, as above
-    for key in ("min_swr_change", "bandwidth_2_change_hz", "max_gamma_change_feedpoint", "max_gamma_change_shack",
-                "feedpoint", "shack", "verdict", "diagnosis"):
+    for key in ("min_swr_change", "swr_2_width_change_hz", "largest_gamma_change_feedpoint", "largest_gamma_change_analyzer",
+                "feedpoint", "analyzer", "verdict", "cause"):
         assert key in data
-    assert data["verdict"]["exceeded"][0] == "max_shift"
+    assert data["verdict"]["limits_exceeded"][0] == "max_shift_hz"
     for suffix in (".compare.json", ".compare.png", ".compare.html"):
         assert (tmp_path / "cmp" / f"after{suffix}").stat().st_size > 100
     # Text output names the limit exceeded.
     rc, out, _ = run_cli(["compare", base, after, *ARGS_LINE], capsys)
-    assert rc == 1 and "--max-shift" in out and "OUTSIDE LIMITS" in out
+    assert rc == 1 and "--max-shift" in out and "outside limits" in out
     # A looser limit passes: the exit status follows the limit given (shift 400 kHz < 500 kHz).
     rc, out, _ = run_cli(["compare", base, after, *ARGS_LINE, "--max-shift", "500kHz", "--max-gamma-change", "0.5",
                           "--max-swr-rise", "5", "--max-bw-loss", "100"], capsys)
@@ -94,12 +94,12 @@ def test_unchanged_antenna_passes_with_noise(tmp_path, capsys):
     rc, out, err = run_cli(["compare", base, again, *ARGS_LINE, "--json"], capsys)
     assert rc == 0, out + err
     data = json.loads(out)
-    assert data["verdict"] == {"within_limits": True, "exceeded": [], "reasons": []}
-    assert data["diagnosis"]["code"] == "unchanged"
+    assert data["verdict"] == {"status": "within_limits", "limits_exceeded": [], "reasons": []}
+    assert data["cause"]["code"] == "unchanged"
     # Same antenna: zero shift. Trace noise moves the fitted resonance by about 20 kHz rms here (five other
     # seeds gave 10-28 kHz), so the check is the 50 kHz default limit itself.
     assert abs(data["resonance_shift_hz"]) < 50e3
-    assert data["max_gamma_change_feedpoint"] < 0.05  # noise only: well under the 0.1 default
+    assert data["largest_gamma_change_feedpoint"] < 0.05  # noise only: well under the 0.1 default
 
 
 def test_wet_line_with_unchanged_antenna_is_a_line_change(tmp_path, capsys):
@@ -108,8 +108,8 @@ def test_wet_line_with_unchanged_antenna_is_a_line_change(tmp_path, capsys):
     rc, out, err = run_cli(["compare", base, soaked, *ARGS_LINE, "--json"], capsys)
     assert rc == 1, err  # |Gamma| at the feedpoint drops by up to 0.9 * (1 - 10^(-4/20)) = 0.33 > 0.1
     data = json.loads(out)
-    assert "max_gamma_change" in data["verdict"]["exceeded"]
-    assert data["diagnosis"]["code"] == "line"
+    assert "max_gamma_change" in data["verdict"]["limits_exceeded"]
+    assert data["cause"]["code"] == "line"
     # The fit reads back the 2 dB added one way at 146 MHz (the grid centre); 0.15 dB for noise and sqrt(f) spread.
     assert data["line"]["fitted_change"]["loss_change_db"]["at_centre"] == pytest.approx(2.0, abs=0.15)
     assert abs(data["resonance_shift_hz"]) < 50e3  # loss alone does not move the resonance (Im Gamma = 0 kept)
@@ -124,8 +124,8 @@ def test_wet_line_with_unchanged_antenna_is_a_line_change(tmp_path, capsys):
                             "--json"], capsys)
     data = json.loads(out)
     assert rc == 1, err
-    assert data["verdict"]["exceeded"] == ["max_loss_change"]
-    assert data["diagnosis"]["code"] == "line"
+    assert data["verdict"]["limits_exceeded"] == ["max_loss_change_db"]
+    assert data["cause"]["code"] == "line"
     assert data["line"]["loss_change_db"]["at_centre"] == pytest.approx(2.0, abs=0.02)  # 2 dB at 146 MHz, as built
 
 
@@ -137,8 +137,8 @@ def test_longer_run_with_unchanged_antenna_is_a_line_change(tmp_path):
     after = skrf_sweep(tmp_path / "after.s1p", longer, 145.6e6, noise=0.001, seed=32)
     line = Line((RG213_45M,))
     res = compare_corrections(correct(read_sweep(base), line), correct(read_sweep(after), line))
-    assert not res["verdict"]["within_limits"]
-    assert res["diagnosis"]["code"] == "line"
+    assert res["verdict"]["status"] == "outside_limits"
+    assert res["cause"]["code"] == "line"
     # 0.3 m at VF 0.66 is 0.3 / (0.66 c) = 1516 ps one way; 5 % for noise and the fit.
     assert res["line"]["fitted_change"]["delay_change_ps"] == pytest.approx(0.3 / (0.66 * 299792458) * 1e12, rel=0.05)
 
@@ -153,7 +153,7 @@ def test_different_grids_interpolate_the_feedpoint(tmp_path):
     assert res["resonance_shift_hz"] == pytest.approx(-400e3, abs=2e3)  # as in the first test
     # Analyzer ends rebuilt through the line model: an unchanged antenna would give zero; here it is the
     # detuning seen through 3.6 dB of line, smaller than at the feedpoint (F8: |Gin| = |GL| 10^(-2 ML/20)).
-    assert 0 < res["max_gamma_change_shack"] < res["max_gamma_change_feedpoint"]
+    assert 0 < res["largest_gamma_change_analyzer"] < res["largest_gamma_change_feedpoint"]
 
 
 def test_fitted_resonance_of_series_rlc():
@@ -177,13 +177,13 @@ def test_site_with_a_bad_feed_continues_and_exits_1(tmp_path, capsys):
     skrf_sweep(tmp_path / "v-later.s1p", RG213_45M, 145.6e6, noise=0.001, seed=42)
     (tmp_path / "site.toml").write_text("""
 name = "Test <Hill> & Co"
-[[feed]]
+[[antenna]]
 name = "good <b>vertical</b>"
 cable = "rg213"
 length = "45m"
 baseline = "v-base.s1p"
 latest = "v-later.s1p"
-[[feed]]
+[[antenna]]
 name = "broken <script>alert(1)</script>"
 cable = "rg213"
 length = "45m"
@@ -194,15 +194,15 @@ latest = ["v-later.s1p"]
     rc, text, err = run_cli(["site", str(tmp_path / "site.toml"), "--out", str(out)], capsys)
     assert rc == 1, text + err
     summary = json.loads((out / "site.json").read_text())
-    assert [f["status"] for f in summary["feeds"]] == ["passed", "error"]
-    assert "no-such-file.s1p" in summary["feeds"][1]["error"]
+    assert [f["verdict"] for f in summary["antennas"]] == ["within_limits", "error"]
+    assert "no-such-file.s1p" in summary["antennas"][1]["error"]
     page = (out / "index.html").read_text()
     assert "<script>" not in page and "&lt;script&gt;" in page
     assert "Test &lt;Hill&gt; &amp; Co" in page
-    link = summary["feeds"][0]["comparisons"][0]["outputs"]["compare_html"]
+    link = summary["antennas"][0]["comparisons"][0]["outputs"]["compare_html"]
     assert (out / link).is_file() and link in page
 
     # The good feed alone passes: exit status 0.
-    (tmp_path / "ok.toml").write_text((tmp_path / "site.toml").read_text().split("[[feed]]\nname = \"broken")[0])
+    (tmp_path / "ok.toml").write_text((tmp_path / "site.toml").read_text().split("[[antenna]]\nname = \"broken")[0])
     rc, text, err = run_cli(["site", str(tmp_path / "ok.toml"), "--out", str(tmp_path / "out2")], capsys)
     assert rc == 0, text + err

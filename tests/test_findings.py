@@ -47,7 +47,7 @@ FINE = np.arange(13.0e6, 15.0e6 + 1, 1e3)  # 1 kHz steps
 
 def test_e10_swr2_edges_bandwidth_and_q():
     g = gamma_from_z(series_rlc_z(FINE))
-    spans = fd.bandwidth_spans(FINE, g, 2.0)
+    spans = fd.swr_spans(FINE, g, 2.0)
     assert len(spans) == 1
     lo, hi = spans[0]
     assert lo == pytest.approx(13.754700e6, abs=1e3)  # [D] check-values E10
@@ -55,16 +55,16 @@ def test_e10_swr2_edges_bandwidth_and_q():
     fbw = (hi - lo) / math.sqrt(lo * hi)
     assert fbw == pytest.approx(1 / (20 * math.sqrt(2)), rel=1e-3)  # [D] E10: FBW = 1/(20 sqrt 2)
     assert not fd.span_cut_by_sweep_edge(spans[0], FINE)
-    assert fd.q_from_bandwidth(lo, hi, 2.0) == pytest.approx(20.0, abs=0.1)  # [D] E10 via F19
+    assert fd.q_from_span(lo, hi, 2.0) == pytest.approx(20.0, abs=0.1)  # [D] E10 via F19
     assert fd.q_impedance(FINE, series_rlc_z(FINE), 14e6) == pytest.approx(20.0, abs=0.05)  # [D] E10 via F18
 
 
 def test_q_from_bandwidth_on_exact_e10_edges():
     # F19 is exact for a series RLC matched at centre: the E10 edges give Q = 20 ([D] check-values E10/F19)
-    assert fd.q_from_bandwidth(13.754700e6, 14.249675e6, 2.0) == pytest.approx(20.0, abs=2e-3)
-    assert math.isnan(fd.q_from_bandwidth(14e6, 14e6, 2.0))
+    assert fd.q_from_span(13.754700e6, 14.249675e6, 2.0) == pytest.approx(20.0, abs=2e-3)
+    assert math.isnan(fd.q_from_span(14e6, 14e6, 2.0))
     with pytest.raises(OptionError):
-        fd.q_from_bandwidth(13e6, 14e6, 1.0)
+        fd.q_from_span(13e6, 14e6, 1.0)
 
 
 def test_e10_resonance_is_series_at_14_mhz():
@@ -180,14 +180,14 @@ def test_min_swr_at_the_sweep_edge_falls_back_to_the_sample():
 def test_span_cut_by_the_sweep_edge_is_flagged():
     f = np.arange(13.9e6, 14.6e6 + 1, 1e3)  # starts inside the 2:1 span (13.7547-14.2497 MHz, [D] E10)
     g = gamma_from_z(series_rlc_z(f))
-    spans = fd.bandwidth_spans(f, g, 2.0)
+    spans = fd.swr_spans(f, g, 2.0)
     assert len(spans) == 1
     assert spans[0][0] == f[0]
     assert spans[0][1] == pytest.approx(14.249675e6, abs=1e3)  # [D] check-values E10
     assert fd.span_cut_by_sweep_edge(spans[0], f)
     out = fd.end_findings(f, g)
-    assert out["bandwidth_cut_by_sweep_edge"]["2"] == [True]
-    assert out["q_bandwidth"] is None  # the true bandwidth is unknown
+    assert out["swr_spans_cut_by_sweep_edge"]["2"] == [True]
+    assert out["q_from_span"] is None  # the true bandwidth is unknown
     assert out["q"] == pytest.approx(20.0, abs=0.05)  # Q_Z needs only the resonance ([D] E10)
 
 
@@ -196,7 +196,7 @@ def test_bandwidths_keys_and_two_separate_spans():
     f = np.arange(13e6, 22e6 + 1, 2e3)
     g = np.where(f < 17.5e6, gamma_from_z(series_rlc_z(f)),
                  gamma_from_z(series_rlc_z(f, l_h=E10_L * 14 / 21, c_f=E10_C * 14 / 21)))
-    bw = fd.bandwidths(f, g, thresholds=(1.5, 2, 3))
+    bw = fd.swr_spans_by_threshold(f, g, thresholds=(1.5, 2, 3))
     assert sorted(bw) == ["1.5", "2", "3"]
     assert len(bw["2"]) == 2
     # same Q at 21 MHz: edges scale with f0 ([D] E10 scaled by 21/14)
@@ -206,7 +206,7 @@ def test_bandwidths_keys_and_two_separate_spans():
 
 def test_threshold_at_or_below_one_is_refused():
     with pytest.raises(OptionError):
-        fd.bandwidth_spans([1e6, 2e6], [0, 0], 1.0)
+        fd.swr_spans([1e6, 2e6], [0, 0], 1.0)
 
 
 # ----------------------------------------------------------------------------- trim advice
@@ -241,11 +241,11 @@ def test_end_findings_e10_is_json_ready():
     assert out["min_swr"]["swr"] == pytest.approx(1.0, abs=1e-6)  # [D] E10 matched at f0
     assert out["resonances_hz"] == [pytest.approx(14e6, abs=10.0)]
     assert out["resonances"][0]["kind"] == "series"
-    assert out["bandwidth_hz"]["2"][0] == [pytest.approx(13.754700e6, abs=1e3),  # [D] E10
+    assert out["swr_spans_hz"]["2"][0] == [pytest.approx(13.754700e6, abs=1e3),  # [D] E10
                                            pytest.approx(14.249675e6, abs=1e3)]
-    assert out["bandwidth_cut_by_sweep_edge"]["2"] == [False]
+    assert out["swr_spans_cut_by_sweep_edge"]["2"] == [False]
     assert out["q"] == pytest.approx(20.0, abs=0.05)  # [D] E10, F18
-    assert out["q_bandwidth"] == pytest.approx(20.0, abs=0.1)  # [D] E10, F19
+    assert out["q_from_span"] == pytest.approx(20.0, abs=0.1)  # [D] E10, F19
 
 
 @pytest.mark.parametrize("n", [0, 1, 2])
@@ -254,7 +254,7 @@ def test_end_findings_tiny_sweeps_do_not_crash(n):
     g = np.array([0.2, 0.1 + 0.05j])[:n]
     out = fd.end_findings(f, g)
     json.dumps(out, allow_nan=False)
-    assert out["q"] is None and out["q_bandwidth"] is None and out["resonances"] == []
+    assert out["q"] is None and out["q_from_span"] is None and out["resonances"] == []
     if n == 1:
         assert out["min_swr"] == {"freq_hz": 14.0e6, "swr": pytest.approx(1.5, abs=1e-12)}  # [D] F2: |G| 0.2
     if n == 0:
@@ -266,7 +266,7 @@ def test_end_findings_open_circuit_gives_none_not_inf():
     out = fd.end_findings(f, np.ones(5, dtype=complex))  # Gamma = 1: SWR infinite everywhere
     json.dumps(out, allow_nan=False)
     assert out["min_swr"]["swr"] is None
-    assert out["bandwidth_hz"]["2"] == []
+    assert out["swr_spans_hz"]["2"] == []
 
 
 # ----------------------------------------------------------------------------- bands
@@ -293,9 +293,9 @@ def test_band_check_e10_on_20_m():
     s_expected = float(swr(gamma_from_z(series_rlc_z(14.3e6))))
     assert b["worst_swr"] == pytest.approx(s_expected, rel=1e-4)
     assert b["worst_swr_freq_hz"] == pytest.approx(14.3e6, abs=1.0)
-    assert b["ok"] is False  # 14.3 MHz is past the 2:1 edge 14.2497 MHz ([D] E10)
+    assert b["verdict"] == "outside_limits"  # 14.3 MHz is past the 2:1 edge 14.2497 MHz ([D] E10)
     ok = band_check(f, g, [Band("test", 13.9e6, 14.1e6)], 2.0)[0]
-    assert ok["ok"] is True and ok["covered_fraction"] == 1.0
+    assert ok["verdict"] == "within_limits" and ok["covered_fraction"] == 1.0
 
 
 def test_band_check_interpolates_at_band_edges():
@@ -304,7 +304,7 @@ def test_band_check_interpolates_at_band_edges():
     g = gamma_from_z(np.array([50.0, 50.0, 150.0]))  # SWR 1, 1, 3 ([D] F2)
     b = band_check(f, g, [Band("x", 10.2e6, 11.5e6)], 1.5)[0]
     assert b["worst_swr"] == pytest.approx(2.0, abs=1e-12)  # halfway from 1 to 3
-    assert b["ok"] is False
+    assert b["verdict"] == "outside_limits"
 
 
 @pytest.mark.parametrize("text, fragment", [

@@ -68,8 +68,8 @@ def test_correct_equals_scikit_rf_inverse_cascade_blockwise():
     corr = correct(one_port(f, meas), line)
     ref = _skrf_line(sec, f).inv ** skrf.Network(frequency=skrf.Frequency.from_f(f, unit="Hz"),
                                                  s=meas.reshape(-1, 1, 1), z0=50)
-    assert np.max(np.abs(corr.gamma_feed - ref.s[:, 0, 0])) < 1e-12
-    assert np.max(np.abs(corr.gamma_feed - g_load)) < 1e-12
+    assert np.max(np.abs(corr.gamma_feedpoint - ref.s[:, 0, 0])) < 1e-12
+    assert np.max(np.abs(corr.gamma_feedpoint - g_load)) < 1e-12
     assert np.allclose(corr.matched_loss_db, line.matched_loss_db(f), rtol=1e-14, atol=0)
 
 
@@ -80,7 +80,7 @@ def test_blocks_do_not_change_the_answer(monkeypatch):
     whole = correct(sweep, line)
     monkeypatch.setattr(deembedding, "BLOCK_POINTS", 7)
     parts = correct(sweep, line)
-    assert np.array_equal(whole.gamma_feed, parts.gamma_feed)
+    assert np.array_equal(whole.gamma_feedpoint, parts.gamma_feedpoint)
     assert np.array_equal(whole.matched_loss_db, parts.matched_loss_db)
 
 

@@ -109,10 +109,10 @@ def test_report_has_every_section(plain):
         assert bit in text, bit
     # the numbers shown are the summary's (2 decimals for SWR), not something else
     assert f"{summary['feedpoint']['min_swr']['swr']:.2f}" in text
-    assert f"{summary['line']['matched_loss_db']['at_stop']:.2f} dB" in text
+    assert f"{summary['line']['matched_loss_db']['at_high']:.2f} dB" in text
     # the colours of plots.py: slate for the analyzer end, copper for the feedpoint
-    from deembed.render.plots import FEED_COLOUR, SHACK_COLOUR
-    assert SHACK_COLOUR in text and FEED_COLOUR in text
+    from deembed.render.plots import FEEDPOINT_COLOUR, ANALYZER_COLOUR
+    assert ANALYZER_COLOUR in text and FEEDPOINT_COLOUR in text
 
 
 def test_report_says_how_the_line_was_removed(plain):
@@ -124,7 +124,7 @@ def test_a_span_cut_by_the_sweep_edge_is_marked(tmp_path):
     # a 300 m run of RG-58 (about 5 dB one way at 7 MHz) makes the analyzer end look matched everywhere:
     # its 3:1 span reaches both ends of the sweep, so the report must say the sweep cut it
     text, summary, _ = _run(tmp_path, length="300m", power=None)
-    assert any(summary["shack"]["bandwidth_cut_by_sweep_edge"]["3"])
+    assert any(summary["analyzer"]["swr_spans_cut_by_sweep_edge"]["3"])
     assert "cut by sweep edge" in text
 
 

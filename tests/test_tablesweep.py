@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 import skrf
 
-from deembed.errors import InputFileError, OptionError
+from deembed.base.errors import InputFileError, OptionError
 from deembed.io.tablesweep import MagnitudeSweep, parse_columns, read_table_sweep
 
 
@@ -120,7 +120,7 @@ def test_trailing_delimiter_crlf_bom_latin1(tmp_path):
 
 def test_same_sweep_as_touchstone(tmp_path):
     # the same numbers written as Touchstone RI and as a table give the same reflection
-    from deembed.touchstone import read_sweep
+    from deembed.io.touchstone import read_sweep
 
     rng = np.random.default_rng(12)
     f = np.linspace(1, 30, 59)

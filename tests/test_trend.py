@@ -159,7 +159,7 @@ def test_invented_history_flags_the_wet_line_only():
 
     sweeps = sh.history_sweeps()
     trends = {}
-    for name, (prefix, line_of, f, z, _) in sh.feeds().items():
+    for name, (prefix, line_of, f, z, _) in sh.antennas().items():
         line = line_of(0.0)
         base = None
         runs = []
@@ -177,6 +177,6 @@ def test_invented_history_flags_the_wet_line_only():
         trends[name] = entry_trend(name, runs)
     assert {n: [f["quantity"] for f in t.flags] for n, t in trends.items()} == {
         "2 m vertical": ["line_loss_db"], "40 m dipole": [], "20 m ground plane": []}
-    dry_db = float(sh.feeds()["2 m vertical"][1](0.0).matched_loss_db(np.array([146e6]))[0])
+    dry_db = float(sh.antennas()["2 m vertical"][1](0.0).matched_loss_db(np.array([146e6]))[0])
     rise = trends["2 m vertical"].slopes["line_loss_db"]
     assert rise["interval"][0] <= sh.WATER_LOSS_GROWTH_PER_YEAR * dry_db <= rise["interval"][1]

@@ -5,6 +5,7 @@ import math
 
 import numpy as np
 
+from ..base.verdicts import verdict_of
 from ..io.bands import Band
 from ..physics.rf import swr
 from .findings import check_swr_threshold
@@ -27,16 +28,16 @@ def band_check(freq_hz, gamma, bands, threshold) -> list[dict]:
     -------
     list of dict
         One per band that overlaps the sweep, in the order given: ``name``, ``low_hz``,
-        ``high_hz``, ``worst_swr``, ``worst_swr_freq_hz``, ``ok`` (worst_swr <= threshold, over the
+        ``high_hz``, ``worst_swr``, ``worst_swr_freq_hz``, ``verdict`` (``within_limits`` when worst_swr <= threshold, over the
         covered part only), ``covered_fraction`` (share of the band's width inside the sweep, 0..1).
         Bands that the sweep does not reach are left out. Non-finite SWR gives ``worst_swr`` None
-        and ``ok`` False.
+        and ``verdict`` ``outside_limits``.
 
     Notes
     -----
     The worst SWR is the maximum over the sweep points inside the covered part of the band and
     the SWR at the covered part's two edges, interpolated linearly in SWR between neighbouring
-    points (the same interpolation as :func:`deembed.findings.bandwidth_spans`).
+    points (the same interpolation as :func:`deembed.findings.swr_spans`).
     """
     t = check_swr_threshold(threshold)
     f = np.asarray(freq_hz, dtype=float).reshape(-1)
@@ -64,7 +65,7 @@ def band_check(freq_hz, gamma, bands, threshold) -> list[dict]:
             "high_hz": float(b.high_hz),
             "worst_swr": worst if finite else None,
             "worst_swr_freq_hz": float(f_pts[k]),
-            "ok": bool(finite and worst <= t),
+            "verdict": verdict_of(finite and worst <= t),
             "covered_fraction": float((hi - lo) / (b.high_hz - b.low_hz)),
         })
     return out

@@ -66,7 +66,7 @@ class ModelFit:
     ----------
     section : Section
         The fitted uniform section (Z0, one-way delay, loss c*sqrt(f) + d*f).
-    residual_rms, residual_max : float
+    rms_residual, max_residual : float
         RMS and largest misfit of the fitted quantities (linear reflection / S-parameter units).
     n_points : int
     z0_fitted : bool
@@ -74,8 +74,8 @@ class ModelFit:
     """
 
     section: Section
-    residual_rms: float
-    residual_max: float
+    rms_residual: float
+    max_residual: float
     n_points: int
     z0_fitted: bool
 
@@ -243,17 +243,17 @@ class Characterization:
         return self.fit.section
 
     @property
-    def f_min_hz(self) -> float:
+    def low_hz(self) -> float:
         return float(self.freq_hz[0])
 
     @property
-    def f_max_hz(self) -> float:
+    def high_hz(self) -> float:
         return float(self.freq_hz[-1])
 
     def line(self, source: str = "<memory>", allow_extrapolation: bool = False) -> Line:
         """The characterized run as a :class:`~deembed.line.Line`."""
-        return Line((CharacterizedLine(self.freq_hz, self.s, self.section, self.f_min_hz, self.f_max_hz,
-                                       self.method, source, allow_extrapolation, self.fit.residual_rms),))
+        return Line((CharacterizedLine(self.freq_hz, self.s, self.section, self.low_hz, self.high_hz,
+                                       self.method, source, allow_extrapolation, self.fit.rms_residual),))
 
 
 def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None, z0_ohm=Z_REF_OHM,
@@ -289,8 +289,8 @@ def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None,
                                            short_l_h=short_l_h, load_r_ohm=load_r_ohm)
         s = error_terms_to_two_port(e00, e11, e10e01, f)
         fit = fit_line_model(f, s=s, z0_ohm=z0_ohm, fit_z0=True, label="characterized run (equivalent uniform line)")
-        if fit.residual_rms > 0.01:
-            notes.append(f"the run is not one uniform line (model misfit {fit.residual_rms:.3g} RMS): the fitted model "
+        if fit.rms_residual > 0.01:
+            notes.append(f"the run is not one uniform line (model misfit {fit.rms_residual:.3g} RMS): the fitted model "
                          "describes it only roughly; on its measured points it is used exactly; for sweeps on "
                          "other frequencies see the between-points figures")
         return Characterization("open-short-load", f, s, fit, None, offsets, tuple(notes))
@@ -303,8 +303,8 @@ def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None,
                                  approx_delay_s=approx_delay_s)
         s = uniform_two_port(zc, gl)
         fit = fit_line_model(f, s=s, z0_ohm=z0_ohm, fit_z0=True, label="characterized line")
-        if fit.residual_rms > 0.01:
-            notes.append(f"the line departs from the physical model (misfit {fit.residual_rms:.3g} RMS): the fitted "
+        if fit.rms_residual > 0.01:
+            notes.append(f"the line departs from the physical model (misfit {fit.rms_residual:.3g} RMS): the fitted "
                          "model describes it only roughly; for sweeps on other frequencies see the between-points "
                          "figures")
         return Characterization("open-short", f, s, fit, zc, offsets, tuple(notes))
@@ -324,9 +324,9 @@ def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None,
 # --------------------------------------------------------------------------------------------------
 # Report numbers
 # --------------------------------------------------------------------------------------------------
-def default_report_frequencies(f_min_hz, f_max_hz, most=6):
+def default_report_frequencies(low_hz, high_hz, most=6):
     """Round frequencies (1-2-5 steps) inside the range, at most ``most`` of them, Hz."""
-    lo, hi = float(f_min_hz), float(f_max_hz)
+    lo, hi = float(low_hz), float(high_hz)
     decades = range(int(math.floor(math.log10(lo))), int(math.ceil(math.log10(hi))) + 1)
     vals = [m * 10.0 ** d for d in decades for m in (1, 2, 5) if lo <= m * 10.0 ** d <= hi]
     if not vals:
@@ -360,17 +360,17 @@ def characterization_report(ch: Characterization, *, at_hz=None, length_m=None, 
     :meth:`LossModel.from_k`. Loss at a frequency is Re(gamma l) of the full RLGC model, in dB.
     """
     sec = ch.section
-    at = list(at_hz) if at_hz else default_report_frequencies(ch.f_min_hz, ch.f_max_hz)
+    at = list(at_hz) if at_hz else default_report_frequencies(ch.low_hz, ch.high_hz)
     at_arr = np.asarray(at, dtype=float)
     loss_db = np.atleast_1d(sec.matched_loss_db(at_arr))
     notes = list(ch.notes)
     out = {
         "method": ch.method,
-        "f_min_hz": ch.f_min_hz, "f_max_hz": ch.f_max_hz, "points": int(ch.freq_hz.size),
+        "low_hz": ch.low_hz, "high_hz": ch.high_hz, "points": int(ch.freq_hz.size),
         "standards": dict(ch.standards),
         "model": {"z0_ohm": sec.z0_ohm, "z0_fitted": ch.fit.z0_fitted, "delay_s": sec.delay_s,
-                  "electrical_length_m": sec.delay_s * C0_M_PER_S, "c_np": sec.loss.c_np, "d_np": sec.loss.d_np,
-                  "residual_rms": ch.fit.residual_rms, "residual_max": ch.fit.residual_max},
+                  "free_space_length_m": sec.delay_s * C0_M_PER_S, "c_np": sec.loss.c_np, "d_np": sec.loss.d_np,
+                  "rms_residual": ch.fit.rms_residual, "max_residual": ch.fit.max_residual},
     }
     length_used, length_note = length_m, None
     if length_m is None and cable is not None:
@@ -397,7 +397,7 @@ def characterization_report(ch: Characterization, *, at_hz=None, length_m=None, 
     flagged = False
     for fa, ldb in zip(at_arr, loss_db):
         row = {"freq_hz": float(fa), "loss_db": float(ldb)}
-        if not inside(fa, fa, ch.f_min_hz, ch.f_max_hz):
+        if not inside(fa, fa, ch.low_hz, ch.high_hz):
             row["outside_range"] = True
         if length_used:
             row["loss_db_per_100m"] = float(ldb) * 100.0 / length_used

@@ -4,7 +4,7 @@ antenna or the line?
 Both sweeps are de-embedded (normally through the same line description) and compared at both ends:
 the feedpoint resonance shift, the change in lowest SWR and in the 2:1 bandwidth, the largest change in
 |Gamma| across the band. :func:`compare_corrections` returns a JSON-ready dict with a verdict against
-:class:`Limits` and a plain-language diagnosis. Pure functions of arrays and small objects; nothing here
+:class:`Limits` and a plain-language cause. Pure functions of arrays and small objects; nothing here
 reads or writes files (see :mod:`deembed.compare_report` and :mod:`deembed.site`).
 
 Frequency grids
@@ -31,7 +31,7 @@ feedpoint reflection near its resonance and not in that form. So the after feedp
 conductor-like loss change c and a one-way delay change dtau). If that fit leaves no more
 than the trace noise (estimated from the sweeps themselves, :func:`trace_noise`) the change is called
 the line's; otherwise the antenna's (or its connection at the feedpoint). When the trace noise at the
-feedpoint is itself above the |Gamma| limit the sweeps cannot tell, and the diagnosis says so.
+feedpoint is itself above the |Gamma| limit the sweeps cannot tell, and the cause says so.
 
 *A fresh line description for the after sweep* (``after_line``, e.g. a new far-end characterization).
 Each sweep is de-embedded through its own line, so the feedpoint comparison is the antenna's alone and
@@ -55,6 +55,7 @@ from ..physics.grid import nearest_points
 from ..physics.line import DB_PER_NP
 from ..base.units import fmt_freq
 from .between import between_points, between_warnings
+from ..base.verdicts import verdict_of
 from .findings import resonances
 from .findings import end_findings
 from .limits import Limits
@@ -85,14 +86,14 @@ room for the noise estimate's own error. Our choice."""
 class Aligned:
     """Both corrections on one frequency grid (see the module notes for how it is chosen).
 
-    ``gamma_shack_before`` is None when the baseline's analyzer-end values could not be placed on the grid.
+    ``gamma_analyzer_before`` is None when the baseline's analyzer-end values could not be placed on the grid.
     """
 
     freq_hz: np.ndarray
     gamma_feed_before: np.ndarray
     gamma_feed_after: np.ndarray
-    gamma_shack_before: np.ndarray | None
-    gamma_shack_after: np.ndarray
+    gamma_analyzer_before: np.ndarray | None
+    gamma_analyzer_after: np.ndarray
     loss_before_db: np.ndarray
     loss_after_db: np.ndarray
     method: str
@@ -103,7 +104,7 @@ def align(before: Correction, after: Correction) -> Aligned:
     """Put two corrections on one frequency grid without interpolating analyzer-end values."""
     fb, fa = np.asarray(before.freq_hz, float), np.asarray(after.freq_hz, float)
     if fb.shape == fa.shape and np.array_equal(fb, fa):
-        return Aligned(fa, before.gamma_feed, after.gamma_feed, before.gamma_shack, after.gamma_shack,
+        return Aligned(fa, before.gamma_feedpoint, after.gamma_feedpoint, before.gamma_analyzer, after.gamma_analyzer,
                        np.asarray(before.matched_loss_db, float), np.asarray(after.matched_loss_db, float),
                        "same frequencies")
     ib, hit = nearest_points(fb, fa)
@@ -111,8 +112,8 @@ def align(before: Correction, after: Correction) -> Aligned:
         ia, ib = np.flatnonzero(hit), ib[hit]
         note = (f"the sweeps share {ia.size} frequencies (baseline {fb.size} points, after {fa.size}); "
                 "compared on those only")
-        return Aligned(fa[ia], before.gamma_feed[ib], after.gamma_feed[ia], before.gamma_shack[ib],
-                       after.gamma_shack[ia], np.asarray(before.matched_loss_db, float)[ib],
+        return Aligned(fa[ia], before.gamma_feedpoint[ib], after.gamma_feedpoint[ia], before.gamma_analyzer[ib],
+                       after.gamma_analyzer[ia], np.asarray(before.matched_loss_db, float)[ib],
                        np.asarray(after.matched_loss_db, float)[ia], "common frequencies", (note,))
     inside = (fa >= fb[0]) & (fa <= fb[-1])
     if inside.sum() < MIN_COMMON_POINTS:
@@ -123,18 +124,18 @@ def align(before: Correction, after: Correction) -> Aligned:
     from scipy.interpolate import CubicSpline
 
     grid = fa[inside]
-    g_feed_b = CubicSpline(fb, before.gamma_feed)(grid)
+    g_feed_b = CubicSpline(fb, before.gamma_feedpoint)(grid)
     loss_b = np.interp(grid, fb, np.asarray(before.matched_loss_db, float))
     notes = [f"the sweeps share no frequencies: the baseline's feedpoint reflection was interpolated (cubic "
              f"spline, after de-embedding) onto {grid.size} of the after sweep's frequencies"]
     try:
-        g_shack_b = embed_gamma(g_feed_b, before.line.s_params(grid))
+        g_analyzer_b = embed_gamma(g_feed_b, before.line.s_params(grid))
         notes.append("the baseline's analyzer-end values there were rebuilt through its line model")
     except DeembedError:
-        g_shack_b = None
+        g_analyzer_b = None
         notes.append("the baseline's line is known only at its measured points, so the analyzer ends are not "
                      "compared; sweep the same frequencies as the baseline to compare them")
-    return Aligned(grid, g_feed_b, after.gamma_feed[inside], g_shack_b, after.gamma_shack[inside], loss_b,
+    return Aligned(grid, g_feed_b, after.gamma_feedpoint[inside], g_analyzer_b, after.gamma_analyzer[inside], loss_b,
                    np.asarray(after.matched_loss_db, float)[inside], "interpolated", tuple(notes))
 
 
@@ -205,8 +206,8 @@ def _end_numbers(freq_hz, g_before, g_after) -> dict:
 
     fb = end_findings(freq_hz, g_before, thresholds=(2.0,))
     fa = end_findings(freq_hz, g_after, thresholds=(2.0,))
-    bw_b = _span_total(fb["bandwidth_hz"]["2"])
-    bw_a = _span_total(fa["bandwidth_hz"]["2"])
+    bw_b = _span_total(fb["swr_spans_hz"]["2"])
+    bw_a = _span_total(fa["swr_spans_hz"]["2"])
     dmag = np.abs(np.abs(g_after) - np.abs(g_before))
     dc = np.abs(g_after - g_before)
     ok = np.isfinite(dmag)
@@ -218,12 +219,12 @@ def _end_numbers(freq_hz, g_before, g_after) -> dict:
         "min_swr_change": _diff(s_a, s_b),
         "min_swr_freq_before_hz": fm_b, "min_swr_freq_after_hz": fm_a,
         "min_swr_freq_shift_hz": _diff(fm_a, fm_b),
-        "bandwidth_2_before_hz": bw_b, "bandwidth_2_after_hz": bw_a,
-        "bandwidth_2_change_hz": bw_a - bw_b,
-        "bandwidth_2_change_percent": (100.0 * (bw_a - bw_b) / bw_b) if bw_b > 0 else None,
-        "max_gamma_mag_change": float(dmag[i]) if i is not None else None,
-        "max_gamma_mag_change_at_hz": float(freq_hz[i]) if i is not None else None,
-        "max_gamma_change": float(np.max(dc[np.isfinite(dc)])) if np.isfinite(dc).any() else None,
+        "swr_2_width_before_hz": bw_b, "swr_2_width_after_hz": bw_a,
+        "swr_2_width_change_hz": bw_a - bw_b,
+        "swr_2_width_change_percent": (100.0 * (bw_a - bw_b) / bw_b) if bw_b > 0 else None,
+        "largest_gamma_change": float(dmag[i]) if i is not None else None,
+        "largest_gamma_change_at_hz": float(freq_hz[i]) if i is not None else None,
+        "largest_gamma_vector_change": float(np.max(dc[np.isfinite(dc)])) if np.isfinite(dc).any() else None,
         "rms_gamma_change": float(np.sqrt(np.mean(dc[np.isfinite(dc)] ** 2))) if np.isfinite(dc).any() else None,
         "trace_noise_before": trace_noise(g_before), "trace_noise_after": trace_noise(g_after),
         "_findings_before": fb,
@@ -300,7 +301,7 @@ def fit_line_change(freq_hz, gamma_before, gamma_after) -> dict:
     fc = float(np.mean(f))
     return {
         "c_np_per_sqrt_hz": float(c),
-        "loss_change_db": {"at_centre": float(DB_PER_NP * c * np.sqrt(fc)), "at_stop": float(DB_PER_NP * c * sf[-1])},
+        "loss_change_db": {"at_centre": float(DB_PER_NP * c * np.sqrt(fc)), "at_high": float(DB_PER_NP * c * sf[-1])},
         "delay_change_ps": float(t * 1e12),
         "rms_residual": float(np.sqrt(np.sum(r ** 2) / n)),
         "rms_change": float(np.sqrt(np.mean(np.abs(ga - gb) ** 2))) if f.size else 0.0,
@@ -334,11 +335,12 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
     dict
         ``resonance_shift_hz`` (after minus before: the feedpoint resonance nearest the baseline's SWR
         minimum in each, placed by :func:`fitted_resonance`; None when either has none),
-        ``resonance_before_hz``, ``resonance_after_hz``, ``min_swr_change``, ``bandwidth_2_change_hz``,
-        ``max_gamma_change_feedpoint``, ``max_gamma_change_shack`` (largest change in |Gamma|);
-        ``feedpoint`` and ``shack`` blocks with the details of each end; ``line`` (same line or not, the
+        ``resonance_before_hz``, ``resonance_after_hz``, ``min_swr_change``, ``swr_2_width_change_hz``,
+        ``largest_gamma_change_feedpoint``, ``largest_gamma_change_analyzer`` (largest change in |Gamma|);
+        ``feedpoint`` and ``analyzer`` blocks with the details of each end; ``line`` (same line or not, the
         matched-loss change, the fitted line change); ``grid``; ``limits``; ``verdict``
-        ``{"within_limits", "exceeded": [limit names], "reasons": [...]}``; ``diagnosis``
+        ``{"status": "within_limits" | "outside_limits", "limits_exceeded": [JSON limit names], "reasons"}``;
+        ``cause``
         ``{"code", "text"}``; ``notes``.
     """
     limits = limits or Limits()
@@ -350,8 +352,8 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
     res_b = fitted_resonance(f, al.gamma_feed_before, near)
     res_a = fitted_resonance(f, al.gamma_feed_after, near)
     fp.update({"resonance_before_hz": res_b, "resonance_after_hz": res_a, "resonance_shift_hz": _diff(res_a, res_b)})
-    if al.gamma_shack_before is not None:
-        sh = _end_numbers(f, al.gamma_shack_before, al.gamma_shack_after)
+    if al.gamma_analyzer_before is not None:
+        sh = _end_numbers(f, al.gamma_analyzer_before, al.gamma_analyzer_after)
         sh.pop("_findings_before")
     else:
         sh = None
@@ -372,8 +374,8 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         line["delay_change_ps"] = float((da - db) * 1e12)
     if same:
         line["fitted_change"] = fit_line_change(f, al.gamma_feed_before, al.gamma_feed_after)
-    bp_before = between_points(before.line, before.freq_hz, before.gamma_feed)
-    bp_after = between_points(after.line, after.freq_hz, after.gamma_feed)
+    bp_before = between_points(before.line, before.freq_hz, before.gamma_feedpoint)
+    bp_after = between_points(after.line, after.freq_hz, after.gamma_feedpoint)
     if bp_before or bp_after:
         line["between_points"] = {"before": bp_before, "after": bp_after}
     wb, wa = between_warnings(bp_before), between_warnings(bp_after)
@@ -381,26 +383,26 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
                      + [f"after work: {w}" for w in wa if w not in wb])  # one characterization: said once
 
     verdict = _verdict(fp, line, limits, res_b, res_a)
-    diagnosis = diagnose(fp, sh, line, limits, verdict)
+    cause = diagnose(fp, sh, line, limits, verdict)
     return {
         "baseline": {"file": before.source, "points": int(before.freq_hz.size)},
         "after": {"file": after.source, "points": int(after.freq_hz.size)},
-        "grid": {"method": al.method, "points": int(f.size), "f_start_hz": float(f[0]), "f_stop_hz": float(f[-1])},
+        "grid": {"method": al.method, "points": int(f.size), "low_hz": float(f[0]), "high_hz": float(f[-1])},
         "resonance_shift_hz": fp["resonance_shift_hz"],
         "resonance_before_hz": res_b,
         "resonance_after_hz": res_a,
         "min_swr_change": fp["min_swr_change"],
-        "bandwidth_2_change_hz": fp["bandwidth_2_change_hz"],
-        "max_gamma_change_feedpoint": fp["max_gamma_mag_change"],
-        "max_gamma_change_shack": sh["max_gamma_mag_change"] if sh else None,
+        "swr_2_width_change_hz": fp["swr_2_width_change_hz"],
+        "largest_gamma_change_feedpoint": fp["largest_gamma_change"],
+        "largest_gamma_change_analyzer": sh["largest_gamma_change"] if sh else None,
         "feedpoint": fp,
-        "shack": sh,
+        "analyzer": sh,
         "line": line,
         "limits": limits.as_dict(),
         "verdict": verdict,
-        "diagnosis": diagnosis,
+        "cause": cause,
         "notes": list(al.notes) + between_notes + ([f"only {al.freq_hz.size} common frequencies: resonance, bandwidth and the "
-                                    "antenna-or-line diagnosis need a sweep, so this verdict says little"]
+                                    "antenna-or-line cause need a sweep, so this verdict says little"]
                                    if al.freq_hz.size < 3 else []),
     }
 
@@ -410,41 +412,41 @@ def _verdict(fp: dict, line: dict, limits: Limits, res_b, res_a) -> dict:
     exceeded, reasons = [], []
     shift = fp["resonance_shift_hz"]
     if shift is not None and abs(shift) > limits.max_shift_hz:
-        exceeded.append("max_shift")
+        exceeded.append("max_shift_hz")
         reasons.append(f"the feedpoint resonance moved {shift / 1e3:+.1f} kHz (limit {fmt_freq(limits.max_shift_hz)})")
     elif res_b is not None and res_a is None:
-        exceeded.append("max_shift")
+        exceeded.append("max_shift_hz")
         reasons.append(f"the feedpoint resonance at {fmt_freq(res_b, 6)} is no longer inside the sweep")
     rise = fp["min_swr_change"]
     if rise is not None and rise > limits.max_swr_rise:
         exceeded.append("max_swr_rise")
         reasons.append(f"the lowest feedpoint SWR rose by {rise:.2f} (limit {limits.max_swr_rise:g})")
-    dg = fp["max_gamma_mag_change"]
+    dg = fp["largest_gamma_change"]
     if dg is not None and dg > limits.max_gamma_change:
         exceeded.append("max_gamma_change")
-        reasons.append(f"the feedpoint |Gamma| changed by up to {dg:.3f} at {fmt_freq(fp['max_gamma_mag_change_at_hz'], 6)} "
+        reasons.append(f"the feedpoint |Gamma| changed by up to {dg:.3f} at {fmt_freq(fp['largest_gamma_change_at_hz'], 6)} "
                        f"(limit {limits.max_gamma_change:g})")
-    pct = fp["bandwidth_2_change_percent"]
+    pct = fp["swr_2_width_change_percent"]
     if pct is not None and -pct > limits.max_bw_loss_percent:
-        exceeded.append("max_bw_loss")
+        exceeded.append("max_bw_loss_percent")
         reasons.append(f"the feedpoint 2:1 bandwidth shrank by {-pct:.1f} % (limit {limits.max_bw_loss_percent:g} %)")
     lc = line["loss_change_db"]
     if lc is not None and lc["max_abs"] > limits.max_loss_change_db:
-        exceeded.append("max_loss_change")
+        exceeded.append("max_loss_change_db")
         reasons.append(f"the line's matched loss changed by up to {lc['max_abs']:.2f} dB "
                        f"(limit {limits.max_loss_change_db:g} dB)")
-    return {"within_limits": not exceeded, "exceeded": exceeded, "reasons": reasons}
+    return {"status": verdict_of(not exceeded), "limits_exceeded": exceeded, "reasons": reasons}
 
 
-FEEDPOINT_LIMITS = ("max_shift", "max_swr_rise", "max_gamma_change", "max_bw_loss")
+FEEDPOINT_LIMITS = ("max_shift_hz", "max_swr_rise", "max_gamma_change", "max_bw_loss_percent")
 
 
 def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dict) -> dict:
     """Antenna or line: the rule in the module notes, as ``{"code", "text"}``."""
-    fp_out = any(k in verdict["exceeded"] for k in FEEDPOINT_LIMITS)
+    fp_out = any(k in verdict["limits_exceeded"] for k in FEEDPOINT_LIMITS)
     if not line["same_line"]:
-        line_out = "max_loss_change" in verdict["exceeded"]
-        shack_moved = sh is not None and (sh["max_gamma_change"] or 0.0) > limits.max_gamma_change
+        line_out = "max_loss_change_db" in verdict["limits_exceeded"]
+        analyzer_moved = sh is not None and (sh["largest_gamma_vector_change"] or 0.0) > limits.max_gamma_change
         lc = line["loss_change_db"]["at_centre"]
         if fp_out and line_out:
             return {"code": "both", "text": f"both changed: the feedpoint (each sweep through its own line) is beyond "
@@ -452,7 +454,7 @@ def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dic
         if fp_out:
             return {"code": "antenna", "text": "the antenna changed: with each sweep corrected through its own line "
                                                "the feedpoint is beyond the limits while the line's loss held"}
-        if line_out or shack_moved:
+        if line_out or analyzer_moved:
             what = f"its matched loss changed by {lc:+.2f} dB" if line_out else \
                 "the analyzer-end sweep changed while the corrected feedpoint did not"
             return {"code": "line", "text": f"the line changed, not the antenna: {what}"}

@@ -23,7 +23,7 @@ RESOLVED_GAMMA_LIMIT = 0.99
 
 NOISE_MERGE_STEPS = 4
 """Crossings (or span gaps) closer together than this many sweep steps are measurement noise
-around one event and are merged (see :func:`resonances` and :func:`bandwidth_spans`). Our choice
+around one event and are merged (see :func:`resonances` and :func:`swr_spans`). Our choice
 (common practice, no source): analyzer noise makes X or the SWR dither around a level for a few
 points; a real second resonance or a real notch is wider than that on any sensible sweep."""
 
@@ -258,7 +258,7 @@ def min_swr(freq_hz, gamma) -> tuple[float | None, float | None]:
 
 # ----------------------------------------------------------------------------------------- bandwidth
 
-def bandwidth_spans(freq_hz, gamma, threshold, *, merge_steps: int = NOISE_MERGE_STEPS) -> list[tuple[float, float]]:
+def swr_spans(freq_hz, gamma, threshold, *, merge_steps: int = NOISE_MERGE_STEPS) -> list[tuple[float, float]]:
     """Contiguous frequency spans where SWR <= ``threshold``.
 
     Parameters
@@ -317,7 +317,7 @@ def bandwidth_spans(freq_hz, gamma, threshold, *, merge_steps: int = NOISE_MERGE
 
 
 def span_cut_by_sweep_edge(span, freq_hz) -> bool:
-    """True when a span from :func:`bandwidth_spans` reaches the sweep's first or last frequency.
+    """True when a span from :func:`swr_spans` reaches the sweep's first or last frequency.
 
     Such a span is cut by the sweep: the antenna's true bandwidth there is larger than the span.
     An interpolated edge always lies strictly inside the sweep, so the test is exact.
@@ -328,15 +328,15 @@ def span_cut_by_sweep_edge(span, freq_hz) -> bool:
     return bool(span[0] <= f[0] or span[1] >= f[-1])
 
 
-def bandwidths(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict[str, list[list[float]]]:
+def swr_spans_by_threshold(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict[str, list[list[float]]]:
     """Spans of SWR <= each threshold, keyed by :func:`threshold_key` (``"1.5"``, ``"2"``, ``"3"``).
 
     Returns
     -------
     dict
-        ``{key: [[low_hz, high_hz], ...]}``, plain floats (see :func:`bandwidth_spans`).
+        ``{key: [[low_hz, high_hz], ...]}``, plain floats (see :func:`swr_spans`).
     """
-    return {threshold_key(t): [[lo, hi] for lo, hi in bandwidth_spans(freq_hz, gamma, t)]
+    return {threshold_key(t): [[lo, hi] for lo, hi in swr_spans(freq_hz, gamma, t)]
             for t in thresholds}
 
 
@@ -408,7 +408,7 @@ def q_impedance(freq_hz, z_ohm, f0_hz, *, half_window_hz: float | None = None) -
     return q if math.isfinite(q) else math.nan
 
 
-def q_from_bandwidth(f_lo, f_hi, threshold_swr) -> float:
+def q_from_span(f_lo, f_hi, threshold_swr) -> float:
     """Q from the fractional bandwidth between two SWR = ``threshold_swr`` edges.
 
     Parameters
@@ -486,11 +486,11 @@ def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
         ``min_swr``: ``{"freq_hz", "swr"}``;
         ``resonances_hz``: list of float;
         ``resonances``: list of ``{"freq_hz", "r_ohm", "kind", "swr"}``;
-        ``bandwidth_hz``: ``{key: [[low_hz, high_hz], ...]}`` (see :func:`bandwidths`);
-        ``bandwidth_cut_by_sweep_edge``: ``{key: [bool per span]}``;
+        ``swr_spans_hz``: ``{key: [[low_hz, high_hz], ...]}`` (see :func:`bandwidths`);
+        ``swr_spans_cut_by_sweep_edge``: ``{key: [bool per span]}``;
         ``q``: Yaghjian-Best Q at the resonance nearest the SWR minimum (None without one);
         ``q_freq_hz``: that resonance's frequency (None without one);
-        ``q_bandwidth``: Q from the 2:1 span that contains the SWR minimum (None when there is
+        ``q_from_span``: Q from the 2:1 span that contains the SWR minimum (None when there is
         none or the sweep cuts it); valid only if the antenna is matched near the centre.
         Every number is a Python float; NaN and inf become None.
     """
@@ -498,16 +498,16 @@ def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
     z = z_from_gamma(g)
     f_min, s_min = min_swr(f, g)
     res = resonances(f, z)
-    spans = {threshold_key(t): bandwidth_spans(f, g, t) for t in thresholds}
+    spans = {threshold_key(t): swr_spans(f, g, t) for t in thresholds}
 
     q_bw = None
     span2 = None
     if f_min is not None:
-        for lo, hi in bandwidth_spans(f, g, 2.0):
+        for lo, hi in swr_spans(f, g, 2.0):
             if lo <= f_min <= hi:
                 span2 = (lo, hi)
                 if not span_cut_by_sweep_edge((lo, hi), f):
-                    q_bw = _num(q_from_bandwidth(lo, hi, 2.0))
+                    q_bw = _num(q_from_span(lo, hi, 2.0))
                 break
 
     q = q_freq = None
@@ -526,10 +526,10 @@ def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
         "resonances_hz": [_num(r.freq_hz) for r in res],
         "resonances": [{"freq_hz": _num(r.freq_hz), "r_ohm": _num(r.r_ohm), "kind": r.kind,
                         "swr": _num(r.swr)} for r in res],
-        "bandwidth_hz": {k: [[_num(lo), _num(hi)] for lo, hi in v] for k, v in spans.items()},
-        "bandwidth_cut_by_sweep_edge": {k: [span_cut_by_sweep_edge(sp, f) for sp in v]
+        "swr_spans_hz": {k: [[_num(lo), _num(hi)] for lo, hi in v] for k, v in spans.items()},
+        "swr_spans_cut_by_sweep_edge": {k: [span_cut_by_sweep_edge(sp, f) for sp in v]
                                         for k, v in spans.items()},
         "q": q,
         "q_freq_hz": _num(q_freq),
-        "q_bandwidth": q_bw,
+        "q_from_span": q_bw,
     }

@@ -11,6 +11,19 @@ from ..base.units import parse_frequency
 LIMIT_NAMES = {k: k for k in ("max_shift", "max_swr_rise", "max_gamma_change", "max_bw_loss", "max_loss_change")}
 """Each limit's name in JSON and site files (and in error messages)."""
 
+JSON_NAMES = {
+    "max_shift": "max_shift_hz",
+    "max_swr_rise": "max_swr_rise",
+    "max_gamma_change": "max_gamma_change",
+    "max_bw_loss": "max_bw_loss_percent",
+    "max_loss_change": "max_loss_change_db",
+}
+"""Each limit's name in JSON output: the same words as in a site file, with the unit as a suffix (JSON numbers
+carry no unit). On the command line the same words are kebab-case options (``--max-shift``)."""
+
+FIELD_OF_JSON = {v: k for k, v in JSON_NAMES.items()}
+"""JSON name -> site-file name (``max_shift_hz`` -> ``max_shift``), for text that names a limit."""
+
 
 @dataclass(frozen=True)
 class Limits:

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..findings import (DEFAULT_THRESHOLDS, _num, bandwidth_spans, min_swr, q_from_bandwidth,
+from .findings import (DEFAULT_THRESHOLDS, _num, swr_spans, min_swr, q_from_span,
                         span_cut_by_sweep_edge, threshold_key)
 
 NO_PHASE_REASON = ("not available without phase: a resonance is where the feedpoint reactance crosses zero and "
@@ -19,7 +19,7 @@ NO_PHASE_REASON = ("not available without phase: a resonance is where the feedpo
 
 
 def _spans(f, mag, thresholds):
-    return {threshold_key(t): [[_num(lo), _num(hi)] for lo, hi in bandwidth_spans(f, mag, t)] for t in thresholds}
+    return {threshold_key(t): [[_num(lo), _num(hi)] for lo, hi in swr_spans(f, mag, t)] for t in thresholds}
 
 
 def magnitude_findings(freq_hz, gamma_mag, thresholds=DEFAULT_THRESHOLDS, *, gamma_mag_low=None,
@@ -52,13 +52,13 @@ def magnitude_findings(freq_hz, gamma_mag, thresholds=DEFAULT_THRESHOLDS, *, gam
     f = np.asarray(freq_hz, dtype=float).reshape(-1)
     m = np.asarray(gamma_mag, dtype=float).reshape(-1)
     f_min, s_min = min_swr(f, m)
-    spans = {threshold_key(t): bandwidth_spans(f, m, t) for t in thresholds}
+    spans = {threshold_key(t): swr_spans(f, m, t) for t in thresholds}
     q_span = None
     if f_min is not None:
-        for lo, hi in bandwidth_spans(f, m, 2.0):
+        for lo, hi in swr_spans(f, m, 2.0):
             if lo <= f_min <= hi:
                 if not span_cut_by_sweep_edge((lo, hi), f):
-                    q_span = _num(q_from_bandwidth(lo, hi, 2.0))
+                    q_span = _num(q_from_span(lo, hi, 2.0))
                 break
     out = {
         "phase": False,

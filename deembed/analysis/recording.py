@@ -37,7 +37,7 @@ from ..io.history import Value
 
 def _gamma_feedpoint(corr):
     g = getattr(corr, "gamma_feedpoint", None)
-    return corr.gamma_feed if g is None else g
+    return corr.gamma_feedpoint if g is None else g
 
 
 def _num(x):
@@ -94,15 +94,15 @@ def sweep_values(corr, summary: dict, comparison: dict | None = None) -> tuple:
     ms = fp.get("min_swr") or {}
     out.append(_v("min_swr", ms.get("swr"), "", "findings", block=ms, key="swr"))
     out.append(_v("min_swr_freq_hz", ms.get("freq_hz"), "Hz", "findings", block=ms, key="freq_hz"))
-    spans = fp.get("swr_spans_hz", fp.get("bandwidth_hz")) or {}
+    spans = fp.get("swr_spans_hz", fp.get("swr_spans_hz")) or {}
     for k, lst in spans.items():
         for i, (lo, hi) in enumerate(lst):
             out.append(_v(f"swr_span_{k}_low_hz", lo, "Hz", "findings", idx=i))
             out.append(_v(f"swr_span_{k}_high_hz", hi, "Hz", "findings", idx=i))
     out.append(_v("q", fp.get("q"), "", "from the impedance (Yaghjian-Best)", block=fp, key="q"))
-    q_span = fp.get("q_from_span", fp.get("q_bandwidth"))
+    q_span = fp.get("q_from_span", fp.get("q_from_span"))
     out.append(_v("q_from_span", q_span, "", "from the 2:1 span", block=fp,
-                  key="q_from_span" if "q_from_span" in fp else "q_bandwidth"))
+                  key="q_from_span" if "q_from_span" in fp else "q_from_span"))
 
     fc, loss = line_loss_at_centre(corr)
     method = "the line's description at the band centre"
@@ -110,7 +110,7 @@ def sweep_values(corr, summary: dict, comparison: dict | None = None) -> tuple:
         ln = comparison.get("line") or {}
         if ln.get("same_line"):
             fit = ln.get("fitted_change") or {}
-            code = (comparison.get("diagnosis") or {}).get("code")
+            code = (comparison.get("cause") or {}).get("code")
             c = fit.get("c_np_per_sqrt_hz")
             if code in ("line", "unchanged") and c is not None:
                 loss = loss + DB_PER_NP * float(c) * math.sqrt(fc)
@@ -123,8 +123,8 @@ def sweep_values(corr, summary: dict, comparison: dict | None = None) -> tuple:
                       block=comparison, key="resonance_shift_hz"))
         out.append(_v("min_swr_change", comparison.get("min_swr_change"), "", "against the baseline",
                       block=comparison, key="min_swr_change"))
-        out.append(_v("max_gamma_change", comparison.get("max_gamma_change_feedpoint"), "",
-                      "against the baseline", block=comparison, key="max_gamma_change_feedpoint"))
+        out.append(_v("max_gamma_change", comparison.get("largest_gamma_change_feedpoint"), "",
+                      "against the baseline", block=comparison, key="largest_gamma_change_feedpoint"))
     if loss is not None:
         out.append(_v("line_loss_db", loss, "dB", method, block=summary.get("line") or {}, key="loss_at_centre_db"))
         out.append(_v("line_loss_freq_hz", fc, "Hz", "middle of the sweep"))
@@ -137,7 +137,7 @@ def verdict_of(comparison: dict | None):
         return None, None, None
     v = comparison.get("verdict") or {}
     verdict = "within-limits" if v.get("within_limits") else "outside-limits"
-    d = comparison.get("diagnosis") or {}
+    d = comparison.get("cause") or {}
     return verdict, d.get("code"), d.get("text")
 
 

@@ -39,11 +39,11 @@ def end_columns(gamma) -> dict:
 def table_columns(corr, budget: dict | None = None) -> dict:
     """All columns of the per-frequency table, in order (a dict of equal-length arrays)."""
     cols = {"freq_hz": corr.freq_hz}
-    for end, g in (("shack", corr.gamma_shack), ("feedpoint", corr.gamma_feed)):
+    for end, g in (("analyzer", corr.gamma_analyzer), ("feedpoint", corr.gamma_feedpoint)):
         cols.update({f"{end}_{k}": v for k, v in end_columns(g).items()})
     cols["line_matched_loss_db"] = corr.matched_loss_db
     if has_characterized_part(corr.line):  # estimated |dGamma| from evaluating the line between its points
-        cols["feedpoint_between_points_error"] = between_error(corr.line, corr.freq_hz, corr.gamma_feed)
+        cols["feedpoint_between_points_error"] = between_error(corr.line, corr.freq_hz, corr.gamma_feedpoint)
     if budget:
         cols.update(budget)
     return cols
@@ -68,12 +68,12 @@ def warnings_for(corr) -> list[str]:
     """Plain-language warnings about a correction, each saying at which frequencies."""
     out = []
     f = corr.freq_hz
-    g_in = np.abs(corr.gamma_shack)
+    g_in = np.abs(corr.gamma_analyzer)
     bad_in = g_in > 1
     if bad_in.any():
         out.append(f"the sweep itself shows |Gamma| above 1 at {int(bad_in.sum())} of {f.size} points "
                    f"({ranges_text(f, bad_in)}): check the analyzer's calibration and reference plane")
-    bad = ~(np.abs(corr.gamma_feed) <= 1 + 1e-9)
+    bad = ~(np.abs(corr.gamma_feedpoint) <= 1 + 1e-9)
     if bad.any():
         out.append(f"the corrected feedpoint |Gamma| comes out above 1 at {int(bad.sum())} of {f.size} points "
                    f"({ranges_text(f, bad)}): the line description (loss, length, velocity factor) or the sweep "
@@ -97,19 +97,19 @@ def line_summary(line, freq_hz) -> dict:
     ml = np.asarray(line.matched_loss_db(f), dtype=float)
     out = {
         "description": line.describe(),
-        "f_start_hz": float(edges[0]),
-        "f_stop_hz": float(edges[1]),
-        "matched_loss_db": {"at_start": float(ml[0]), "at_stop": float(ml[-1])},
+        "low_hz": float(edges[0]),
+        "high_hz": float(edges[1]),
+        "matched_loss_db": {"at_low": float(ml[0]), "at_high": float(ml[-1])},
     }
     delay = getattr(line, "delay_s", None)
     if delay is not None:
         out["delay_ns"] = float(delay * 1e9)
-        out["electrical_length_deg"] = {"at_start": float(360 * edges[0] * delay),
-                                        "at_stop": float(360 * edges[1] * delay)}
+        out["electrical_length_deg"] = {"at_low": float(360 * edges[0] * delay),
+                                        "at_high": float(360 * edges[1] * delay)}
     else:  # measured 2-port: read the electrical length off the unwrapped transmission phase
         s21 = line.s_params(f)[:, 1, 0]
         ph = -np.degrees(np.unwrap(np.angle(s21)))
-        out["electrical_length_deg"] = {"at_start": float(ph[0]), "at_stop": float(ph[-1])}
+        out["electrical_length_deg"] = {"at_low": float(ph[0]), "at_high": float(ph[-1])}
     return out
 
 
@@ -118,13 +118,13 @@ def summarise(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | 
 
     summary = {
         "sweep": {"file": corr.source, "points": int(corr.freq_hz.size),
-                  "f_start_hz": float(corr.freq_hz[0]), "f_stop_hz": float(corr.freq_hz[-1])},
+                  "low_hz": float(corr.freq_hz[0]), "high_hz": float(corr.freq_hz[-1])},
         "line": line_summary(corr.line, corr.freq_hz),
-        "feedpoint": end_findings(corr.freq_hz, corr.gamma_feed, thresholds=thresholds),
-        "shack": end_findings(corr.freq_hz, corr.gamma_shack, thresholds=thresholds),
+        "feedpoint": end_findings(corr.freq_hz, corr.gamma_feedpoint, thresholds=thresholds),
+        "analyzer": end_findings(corr.freq_hz, corr.gamma_analyzer, thresholds=thresholds),
         "warnings": list(notes) + warnings_for(corr),
     }
-    bp = between_points(corr.line, corr.freq_hz, corr.gamma_feed)
+    bp = between_points(corr.line, corr.freq_hz, corr.gamma_feedpoint)
     if bp is not None:
         summary["line"]["between_points"] = bp
         summary["warnings"].extend(between_warnings(bp))

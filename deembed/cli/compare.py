@@ -13,6 +13,7 @@ import typer
 
 from .options import (CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, NameOpt, PortOpt,
                       RecordOpt, VfOpt, Z0Opt, OPTION_FOR_FIELD, build_line, check_port, record_options)
+from ..base.verdicts import WITHIN
 
 MaxShiftOpt = typer.Option(None, "--max-shift", help="Largest acceptable move of the feedpoint resonance, "
                                                      "e.g. 50kHz (default 50kHz).")
@@ -87,7 +88,7 @@ def compare_command(
         info = record_comparison(record, before, later, result, baseline, after, name=name, date=the_date,
                                  baseline_date=the_baseline_date)
         print(recorded_text(info), file=sys.stderr if as_json else sys.stdout)
-    if not result["verdict"]["within_limits"]:
+    if result["verdict"]["status"] != WITHIN:
         raise typer.Exit(code=1)
 
 

@@ -7,20 +7,21 @@ from typing import Optional
 import typer
 
 from ..base.errors import OptionError
+from ..base.verdicts import WITHIN
 
 
 def site_command(
-    site_file: str = typer.Argument(..., help="Site file (TOML): the feeds, their lines, baselines and latest sweeps."),
+    site_file: str = typer.Argument(..., help="Site file (TOML): the antennas, their lines, baselines and latest sweeps."),
     out: str = typer.Option("deembed-site", "--out", help="Folder for the results: index.html, site.json and "
-                                                          "a folder per feed."),
-    workers: int = typer.Option(2, "--workers", help="Processes to run feeds on (default 2: both cores)."),
+                                                          "a folder per antenna."),
+    workers: int = typer.Option(2, "--workers", help="Processes to run antennas on (default 2: both cores)."),
     as_json: bool = typer.Option(False, "--json", help="Print the site summary as JSON on standard output."),
     record: Optional[str] = typer.Option(None, "--record", help="Record into this history store (a SQLite file or "
                                          "a postgresql:// URL) instead of the site's own (its history key, or "
                                          "the .history.sqlite file beside the site file)."),
     no_record: bool = typer.Option(False, "--no-record", help="Record nothing and write no trend pages."),
 ):
-    """Check every feed of a site against its baseline; one index page. Exit 0 when all pass, 1 otherwise."""
+    """Check every antenna of a site against its baseline; one index page. Exit 0 when all are within limits, 1 otherwise."""
     from ..io.jsonfile import to_jsonable
     from ..jobs.site import run_site
     from ..render.text import site_text, stderr_progress
@@ -35,5 +36,5 @@ def site_command(
         print(json.dumps(to_jsonable(summary), indent=2, allow_nan=False))
     else:
         print(site_text(summary, out))
-    if not summary["all_passed"]:
+    if summary["verdict"] != WITHIN:
         raise typer.Exit(code=1)

@@ -31,8 +31,8 @@ def model_record(ch) -> dict:
     """The fitted model as stored in a characterization file's comment."""
     sec = ch.section
     return {"version": 1, "method": ch.method, "z0_ohm": sec.z0_ohm, "delay_s": sec.delay_s,
-            "c_np": sec.loss.c_np, "d_np": sec.loss.d_np, "f_min_hz": ch.f_min_hz, "f_max_hz": ch.f_max_hz,
-            "residual_rms": ch.fit.residual_rms}
+            "c_np": sec.loss.c_np, "d_np": sec.loss.d_np, "low_hz": ch.low_hz, "high_hz": ch.high_hz,
+            "rms_residual": ch.fit.rms_residual}
 
 
 def write_characterization(path, ch, comments=()) -> None:
@@ -48,7 +48,7 @@ def write_characterization(path, ch, comments=()) -> None:
     write_touchstone(path, ch.freq_hz, ch.s, comments=tuple(lines), fmt="RI", unit="MHz")
 
 
-_REQUIRED = ("method", "z0_ohm", "delay_s", "c_np", "d_np", "f_min_hz", "f_max_hz")
+_REQUIRED = ("method", "z0_ohm", "delay_s", "c_np", "d_np", "low_hz", "high_hz")
 
 
 def _find_model(path: str):
@@ -92,17 +92,17 @@ def line_from_characterization(path, allow_extrapolation: bool = False):
         raise InputFileError(p, "the line-model comment is damaged; run deembed characterize again to rewrite "
                                 "the file", line=num) from None
     if not (vals["z0_ohm"] > 0 and vals["delay_s"] >= 0 and vals["c_np"] >= 0 and vals["d_np"] >= 0
-            and 0 < vals["f_min_hz"] <= vals["f_max_hz"]):
+            and 0 < vals["low_hz"] <= vals["high_hz"]):
         raise InputFileError(p, "the line-model comment holds values no line can have; run deembed characterize "
                                 "again to rewrite the file", line=num)
 
     sw = read_sweep(p, expect_ports=2)
     sec = Section(vals["z0_ohm"], vals["delay_s"], LossModel(vals["c_np"], vals["d_np"]),
                   label=f"characterized line ({vals['method']})")
-    misfit = rec.get("residual_rms", 0.0)
+    misfit = rec.get("rms_residual", 0.0)
     misfit = float(misfit) if isinstance(misfit, (int, float)) and math.isfinite(misfit) and misfit >= 0 else 0.0
     part = CharacterizedLine(np.asarray(sw.freq_hz, dtype=float), np.asarray(sw.s, dtype=complex), sec,
-                             vals["f_min_hz"], vals["f_max_hz"], str(vals["method"]), p, bool(allow_extrapolation),
+                             vals["low_hz"], vals["high_hz"], str(vals["method"]), p, bool(allow_extrapolation),
                              misfit)
     return Line((part,))
 
@@ -122,7 +122,7 @@ class CharacterizedLine:
     ----------
     freq_hz, s : the characterization's frequencies (Hz) and 2-port (n, 2, 2) at 50 ohm.
     section : the fitted physical model.
-    f_min_hz, f_max_hz : the characterized range.
+    low_hz, high_hz : the characterized range.
     method, source : how and from which file.
     allow_extrapolation : evaluate the model beyond the range (otherwise refuse).
     fit_misfit : the model fit's RMS misfit as stored in the file (used as the error of a one-standard
@@ -143,8 +143,8 @@ class CharacterizedLine:
     freq_hz: np.ndarray
     s: np.ndarray
     section: Section
-    f_min_hz: float
-    f_max_hz: float
+    low_hz: float
+    high_hz: float
     method: str = ""
     source: str = "<memory>"
     allow_extrapolation: bool = False
@@ -167,16 +167,16 @@ class CharacterizedLine:
         return best if np.all(hit) else None
 
     def _inside(self, f):
-        return (f >= self.f_min_hz * (1 - FREQ_MATCH_RTOL)) & (f <= self.f_max_hz * (1 + FREQ_MATCH_RTOL))
+        return (f >= self.low_hz * (1 - FREQ_MATCH_RTOL)) & (f <= self.high_hz * (1 + FREQ_MATCH_RTOL))
 
     def _check_range(self, f):
         if self.allow_extrapolation or f.size == 0:
             return
         lo, hi = float(np.min(f)), float(np.max(f))
-        if not inside(lo, hi, self.f_min_hz, self.f_max_hz):
+        if not inside(lo, hi, self.low_hz, self.high_hz):
 
-            raise OptionError("line", f"{self.source} characterizes the line from {fmt_freq(self.f_min_hz)} to "
-                                        f"{fmt_freq(self.f_max_hz)}, but the sweep runs from {fmt_freq(lo)} to "
+            raise OptionError("line", f"{self.source} characterizes the line from {fmt_freq(self.low_hz)} to "
+                                        f"{fmt_freq(self.high_hz)}, but the sweep runs from {fmt_freq(lo)} to "
                                         f"{fmt_freq(hi)}; characterize the line over the sweep's range, or pass "
                                         "`extrapolate` to use its fitted model beyond it")
 
@@ -278,6 +278,6 @@ class CharacterizedLine:
     def describe(self) -> str:
 
         sec = self.section
-        return (f"characterized line ({self.method}, {fmt_freq(self.f_min_hz)}-{fmt_freq(self.f_max_hz)}"
+        return (f"characterized line ({self.method}, {fmt_freq(self.low_hz)}-{fmt_freq(self.high_hz)}"
                 f"{', ' + self.source if self.source else ''}): model Z0 {sec.z0_ohm:.4g} ohm, "
                 f"delay {sec.delay_s * 1e9:.4f} ns")

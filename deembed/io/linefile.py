@@ -5,7 +5,7 @@ A line file is TOML of our own design (documented in the README)::
     name = "Tower run, 20 m beam"
 
     [[section]]                 # from the analyzer toward the antenna
-    label = "shack jumper"
+    label = "indoor jumper"
     cable = "rg58"
     length = "1.5m"
 

@@ -5,18 +5,18 @@ The site file is TOML of our own design; paths in it are relative to the file::
     name = "Ridgeback Hill"            # the site's name, for the index page
     cables = "my-cables.toml"          # optional: your own cable catalog for every feed
 
-    [limits]                           # optional: limits for every feed (defaults: deembed.analysis.limits.Limits)
+    [limits]                           # optional: limits for every antenna (defaults: deembed.analysis.limits.Limits)
     max_shift = "50kHz"
     max_swr_rise = 0.2
 
-    [[feed]]
+    [[antenna]]
     name = "2 m vertical"
     line = "vertical-2m.line.toml"     # a line description (.toml) or a measured/characterized .s2p ...
-    baseline = "vertical-2m.s1p"       # the sweep taken when the feed was known good
+    baseline = "vertical-2m.s1p"       # the sweep taken when the antenna was known good
     latest = ["vertical-2m-after.s1p"] # one or more later sweeps (a single string is fine too)
-    limits = { max_shift = "100kHz" }  # optional: this feed's own limits, over the site's
+    limits = { max_shift = "100kHz" }  # optional: this antenna's own limits, over the site's
 
-    [[feed]]
+    [[antenna]]
     name = "40 m dipole"
     cable = "rg8x"                     # ... or one section inline: cable, length, vf, delay, z0, loss
     length = "38m"
@@ -30,11 +30,11 @@ A sweep entry (``baseline``, or an item of ``latest``) may also be a table with 
 ``history = "postgresql://..."`` names the history store every run records into; without it the store
 is ``<site>.history.sqlite`` beside the site file (:func:`deembed.io.history.default_store_path`).
 
-This module reads the file and each feed's entry into plain objects (:class:`Site`, :class:`FeedJob`,
-:class:`FeedFiles`) and builds a feed's line; the limits' values are checked by
-:func:`deembed.analysis.limits.parse_limits` in the site job (:mod:`deembed.jobs.site`), which runs the feeds.
-A problem with the file as a whole raises at once; a problem with one feed's entry is raised when that
-feed is read (:func:`read_feed`), so a bad feed fails alone.
+This module reads the file and each antenna's entry into plain objects (:class:`Site`, :class:`AntennaJob`,
+:class:`AntennaFiles`) and builds an antenna's line; the limits' values are checked by
+:func:`deembed.analysis.limits.parse_limits` in the site job (:mod:`deembed.jobs.site`), which runs the antennas.
+A problem with the file as a whole raises at once; a problem with one antenna's entry is raised when that
+antenna is read (:func:`read_antenna`), so a bad antenna fails alone.
 """
 from __future__ import annotations
 
@@ -51,17 +51,17 @@ from .linefile import SECTION_KEYS, read_line_file, section_from_table
 from .tomlfile import load_toml
 from .touchstone import check_port
 
-SITE_KEYS = ("name", "cables", "limits", "history", "feed")
+SITE_KEYS = ("name", "cables", "limits", "history", "antenna")
 """Keys of the site file's top level."""
 
-FEED_KEYS = ("name", "line", "cable", "length", "vf", "delay", "z0", "loss", "baseline", "latest", "after_line",
+ANTENNA_KEYS = ("name", "line", "cable", "length", "vf", "delay", "z0", "loss", "baseline", "latest", "after_line",
              "port", "limits")
-"""Keys of one ``[[feed]]`` entry."""
+"""Keys of one ``[[antenna]]`` entry."""
 
 
 @dataclass(frozen=True)
-class FeedJob:
-    """One feed as read from the site file (checked in the worker, so a bad feed fails alone)."""
+class AntennaJob:
+    """One antenna as read from the site file (checked in the worker, so a bad antenna fails alone)."""
 
     index: int
     name: str
@@ -77,13 +77,13 @@ class FeedJob:
 
     @property
     def where(self) -> str:
-        """How error messages name this feed: ``feed 2 (40 m dipole)``."""
-        return f"feed {self.index} ({self.name})"
+        """How error messages name this antenna: ``antenna 2 (40 m dipole)``."""
+        return f"antenna {self.index} ({self.name})"
 
 
 @dataclass(frozen=True)
 class Site:
-    """A site file read: its name, its path and one :class:`FeedJob` per feed, in file order."""
+    """A site file read: its name, its path and one :class:`AntennaJob` per antenna, in file order."""
 
     name: str
     path: str
@@ -94,11 +94,11 @@ class Site:
 
 
 @dataclass(frozen=True)
-class FeedFiles:
-    """The files and settings of one feed, checked and with their paths resolved.
+class AntennaFiles:
+    """The files and settings of one antenna, checked and with their paths resolved.
 
-    ``line_file`` and ``after_line_file`` are None when the feed has no such key (an inline line; no fresh
-    characterization). ``own_limits`` is the feed's ``limits`` table, still as written.
+    ``line_file`` and ``after_line_file`` are None when the antenna has no such key (an inline line; no fresh
+    characterization). ``own_limits`` is the antenna's ``limits`` table, still as written.
     """
 
     baseline: str
@@ -114,7 +114,7 @@ class FeedFiles:
 def slugify(name: str) -> str:
     """'2 m Vertical (north)' -> '2-m-vertical-north'; folder names safe on every system."""
     s = re.sub(r"[^a-z0-9]+", "-", str(name).lower()).strip("-")
-    return s[:60] or "feed"
+    return s[:60] or "antenna"
 
 
 def read_site(path, out_dir: str) -> Site:
@@ -128,9 +128,9 @@ def read_site(path, out_dir: str) -> Site:
     unknown = sorted(set(data) - set(SITE_KEYS))
     if unknown:
         raise InputFileError(p, f"unknown key(s) {', '.join(unknown)}; a site file has {', '.join(SITE_KEYS)}")
-    feeds = data.get("feed")
-    if not isinstance(feeds, list) or not feeds or not all(isinstance(f, dict) for f in feeds):
-        raise InputFileError(p, "no [[feed]] tables; describe each feed as a [[feed]] table with name, line, "
+    antennas = data.get("antenna")
+    if not isinstance(antennas, list) or not antennas or not all(isinstance(f, dict) for f in antennas):
+        raise InputFileError(p, "no [[antenna]] tables; describe each antenna and its line as an [[antenna]] table with name, line, "
                                 "baseline and latest")
     limits = data.get("limits", {})
     if not isinstance(limits, dict):
@@ -140,14 +140,14 @@ def read_site(path, out_dir: str) -> Site:
     if cables is not None:
         cables = os.path.join(base, str(cables))
     jobs, used = [], set()
-    for i, entry in enumerate(feeds, 1):
-        name = str(entry.get("name") or f"feed {i}")
+    for i, entry in enumerate(antennas, 1):
+        name = str(entry.get("name") or f"antenna {i}")
         slug = slugify(name)
         k = 2
         while slug in used:
             slug, k = f"{slugify(name)}-{k}", k + 1
         used.add(slug)
-        jobs.append(FeedJob(i, name, slug, dict(entry), p, base, os.path.join(out_dir, slug), cables, dict(limits)))
+        jobs.append(AntennaJob(i, name, slug, dict(entry), p, base, os.path.join(out_dir, slug), cables, dict(limits)))
     site_name = str(data.get("name") or os.path.basename(p))
     hist = data.get("history")
     if hist is None:
@@ -160,7 +160,7 @@ def read_site(path, out_dir: str) -> Site:
     return Site(site_name, p, tuple(replace(j, site_name=site_name) for j in jobs), history)
 
 
-def _sweep(job: FeedJob, key: str, v) -> tuple[str, str | None]:
+def _sweep(job: AntennaJob, key: str, v) -> tuple[str, str | None]:
     """A sweep entry: a file name, or a table ``{ file = "after.s1p", date = "2026-03-14" }``.
     Returns (path, date or None)."""
     where = f"{job.where}: '{key}'"
@@ -185,25 +185,25 @@ def _sweep(job: FeedJob, key: str, v) -> tuple[str, str | None]:
     return os.path.join(job.base_dir, v), date
 
 
-def _path(job: FeedJob, key: str) -> str:
+def _path(job: AntennaJob, key: str) -> str:
     v = job.entry.get(key)
     if not isinstance(v, str) or not v.strip():
         raise InputFileError(job.site_file, f"{job.where}: '{key}' should be a file name")
     return os.path.join(job.base_dir, v)
 
 
-def _maybe(job: FeedJob, key: str):
+def _maybe(job: AntennaJob, key: str):
     return _path(job, key) if key in job.entry else None
 
 
-def read_feed(job: FeedJob) -> FeedFiles:
-    """Check one feed's entry (keys, port, file names) and resolve its paths against the site file's folder."""
+def read_antenna(job: AntennaJob) -> AntennaFiles:
+    """Check one antenna's entry (keys, port, file names) and resolve its paths against the site file's folder."""
 
     where = job.where
-    unknown = sorted(set(job.entry) - set(FEED_KEYS))
+    unknown = sorted(set(job.entry) - set(ANTENNA_KEYS))
     if unknown:
         raise InputFileError(job.site_file, f"{where}: unknown key(s) {', '.join(unknown)}; "
-                                            f"use {', '.join(FEED_KEYS)}")
+                                            f"use {', '.join(ANTENNA_KEYS)}")
     own = job.entry.get("limits", {})
     if not isinstance(own, dict):
         raise InputFileError(job.site_file, f"{where}: limits should be a table, e.g. {{ max_shift = \"50kHz\" }}")
@@ -228,11 +228,11 @@ def read_feed(job: FeedJob) -> FeedFiles:
                                             "outputs would collide, so give them different names")
     line_file = job.entry.get("line")
     line_file = os.path.join(job.base_dir, line_file) if isinstance(line_file, str) else None
-    return FeedFiles(baseline, tuple(latest), line_file, _maybe(job, "after_line"), port, dict(own), dates)
+    return AntennaFiles(baseline, tuple(latest), line_file, _maybe(job, "after_line"), port, dict(own), dates)
 
 
-def feed_line(job: FeedJob) -> tuple[Line, list]:
-    """The feed's line: from its ``line`` file, or one section from its inline keys. Returns (line, notes)."""
+def antenna_line(job: AntennaJob) -> tuple[Line, list]:
+    """The antenna's line: from its ``line`` file, or one section from its inline keys. Returns (line, notes)."""
 
     where = job.where
     inline = [k for k in SECTION_KEYS if k in job.entry]
@@ -247,13 +247,13 @@ def feed_line(job: FeedJob) -> tuple[Line, list]:
     return Line((sec,), name=job.name), notes
 
 
-def after_line(job: FeedJob, files: FeedFiles, line: Line, notes: list) -> tuple[Line, list]:
-    """The line for the latest sweeps: the feed's ``after_line`` file when it has one, else ``line`` itself."""
+def after_line(job: AntennaJob, files: AntennaFiles, line: Line, notes: list) -> tuple[Line, list]:
+    """The line for the latest sweeps: the antenna's ``after_line`` file when it has one, else ``line`` itself."""
 
     if files.after_line_file is None:
         return line, notes
     return read_line_file(files.after_line_file, job.cables)
 
 
-__all__ = ["FEED_KEYS", "SECTION_KEYS", "SITE_KEYS", "FeedFiles", "FeedJob", "Site", "after_line", "feed_line",
-           "read_feed", "read_site", "slugify"]
+__all__ = ["ANTENNA_KEYS", "SECTION_KEYS", "SITE_KEYS", "AntennaFiles", "AntennaJob", "Site", "after_line", "antenna_line",
+           "read_antenna", "read_site", "slugify"]

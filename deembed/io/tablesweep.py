@@ -40,9 +40,9 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputFileError, OptionError
-from ..rf import Z_REF_OHM
-from ..sweep import Sweep
+from ..base.errors import InputFileError, OptionError
+from ..physics.rf import Z_REF_OHM
+from .sweep import Sweep
 
 __all__ = ["ColumnMap", "MagnitudeSweep", "parse_columns", "read_table_sweep", "COLUMNS_EXAMPLES"]
 

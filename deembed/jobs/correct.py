@@ -86,7 +86,7 @@ def refuse_overwriting_inputs(paths: dict, inputs) -> None:
 def budget_columns(corr, power_w: float) -> dict:
     """Per-frequency power budget columns for a transmitter power (the budget applied to the sweep)."""
 
-    b = power_budget(power_w, corr.matched_loss_db, corr.gamma_feed)
+    b = power_budget(power_w, corr.matched_loss_db, corr.gamma_feedpoint)
     return {
         "budget_forward_at_antenna_w": b["at_antenna"]["forward_w"],
         "budget_reflected_at_antenna_w": b["at_antenna"]["reflected_w"],
@@ -123,8 +123,8 @@ def analyse(sweep, line, opts: Options):
         limit = 2.0 if 2.0 in opts.thresholds else opts.thresholds[0]
         summary["bands"] = {
             "swr_limit": limit,
-            "feedpoint": band_check(corr.freq_hz, corr.gamma_feed, bands, limit),
-            "shack": band_check(corr.freq_hz, corr.gamma_shack, bands, limit),
+            "feedpoint": band_check(corr.freq_hz, corr.gamma_feedpoint, bands, limit),
+            "analyzer": band_check(corr.freq_hz, corr.gamma_analyzer, bands, limit),
         }
     return corr, summary, table
 
@@ -137,7 +137,7 @@ def check_finite(corr) -> None:
     open run) or where the sweep's values are extreme.
     """
 
-    bad = ~np.isfinite(corr.gamma_feed)
+    bad = ~np.isfinite(corr.gamma_feedpoint)
     if bad.any():
         raise InputFileError(corr.source, f"removing the line gives no finite feedpoint reflection at "
                                           f"{int(bad.sum())} of {bad.size} points ({ranges_text(corr.freq_hz, bad)}): "
@@ -149,7 +149,7 @@ def check_finite(corr) -> None:
 def budget_summary(corr, budget: dict, power_w: float) -> dict:
     """The budget at the feedpoint's best-matched frequency, for the summary."""
 
-    i = int(np.nanargmin(rf.swr(corr.gamma_feed)))
+    i = int(np.nanargmin(rf.swr(corr.gamma_feedpoint)))
     return {
         "transmitter_w": power_w,
         "at_freq_hz": float(corr.freq_hz[i]),
@@ -164,7 +164,7 @@ def write_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options) 
     comments = [f"deembed: feedpoint reflection of {os.path.basename(corr.source)}",
                 f"line removed: {summary['line']['description']}",
                 "reference 50 ohm"]
-    write_touchstone(paths["feedpoint_s1p"], corr.freq_hz, corr.gamma_feed, comments=comments)
+    write_touchstone(paths["feedpoint_s1p"], corr.freq_hz, corr.gamma_feedpoint, comments=comments)
     written["feedpoint_s1p"] = paths["feedpoint_s1p"]
     write_table_csv(table, paths["table_csv"])
     written["table_csv"] = paths["table_csv"]

@@ -11,7 +11,7 @@ from .samples import write_samples
 from .site import run_site
 from .compare import compare_files_with_corrections
 from .record import record_comparison
-from .sample_history import SWEEP_DATES, feeds, write_history
+from .sample_history import SWEEP_DATES, antennas, write_history
 from .trend import run_trend, trend_text
 from .locate import LocateOptions, line_view, locate_file
 from ..render.along import locate_text
@@ -33,7 +33,7 @@ def history_demo(folder: str, out_dir: str, echo=print) -> dict:
     """Record the invented four-year history the way ``deembed compare --record`` does (each visit's sweep
     against the feed's first one, dated), then write the trend pages. Returns the trend result."""
     store = os.path.join(out_dir, "ridgeback-hill-years.history.sqlite")
-    for name, (prefix, _, _, _, line_file) in feeds().items():
+    for name, (prefix, _, _, _, line_file) in antennas().items():
         line, _ = line_from_options(line_file=os.path.join(folder, line_file))
         first = os.path.join(folder, f"{prefix}-{SWEEP_DATES[0]}.s1p")
         for date in SWEEP_DATES[1:]:
@@ -53,7 +53,7 @@ def run_demo(out_dir: str, echo=print) -> dict:
     s = lambda name: os.path.join(samples, name)  # noqa: E731
     results = {}
 
-    echo("== 40 m dipole, swept from the shack through a jumper and 36 m of foam coax (line file) ==")
+    echo("== 40 m dipole, swept from the analyzer end through a jumper and 36 m of foam coax (line file) ==")
     line, notes = line_from_options(line_file=s("dipole-40m.line.toml"))
     opts = workflow.Options(target_hz=7.1e6, power_w=100.0, bands=True, notes=notes)
     folder = os.path.join(out_dir, "dipole-40m")
@@ -87,7 +87,7 @@ def run_demo(out_dir: str, echo=print) -> dict:
     echo(locate_text(summary, folder) + "\n")
     results["along"] = summary
 
-    echo("== The whole site, every feed against its baseline (site file) ==")
+    echo("== The whole site, every antenna against its baseline (site file) ==")
 
     folder = os.path.join(out_dir, "site")
     # the demo records into its own output folder, not beside the sample site file
@@ -96,7 +96,7 @@ def run_demo(out_dir: str, echo=print) -> dict:
     echo(site_text(summary, folder))
     results["site"] = summary
 
-    echo("\n== Four years of the same feeds: recorded, then trended (one run slowly takes on water) ==")
+    echo("\n== Four years of the same antennas: recorded, then trended (one run slowly takes on water) ==")
     results["trend"] = history_demo(os.path.join(samples, "history"), out_dir, echo)
 
     echo(f"\nDemo results are in {os.path.abspath(out_dir)}/ : one folder per antenna, each with a "

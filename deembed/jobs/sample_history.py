@@ -28,7 +28,7 @@ WATER_LOSS_GROWTH_PER_YEAR = 0.10
 """The wet run's matched loss grows by this fraction of its dry loss each year."""
 
 SITE_FILE = "ridgeback-hill-years.site.toml"
-ENTRY_TABLE = "feed"
+ENTRY_TABLE = "antenna"
 """The site file's table for one antenna and its line (renamed [[antenna]] by the vocabulary change)."""
 
 
@@ -38,8 +38,8 @@ def _years(date: str) -> float:
     return (_dt.date.fromisoformat(date) - _dt.date.fromisoformat(SWEEP_DATES[0])).days / 365.25
 
 
-def feeds():
-    """The three feeds: name -> (file prefix, line builder(years), frequencies, antenna impedance, line file)."""
+def antennas():
+    """The three antennas (each with its feed line): name -> (file prefix, line builder(years), frequencies, antenna impedance, line file)."""
     from dataclasses import replace
 
 
@@ -79,11 +79,11 @@ length = "28m"
 
 
 def history_sweeps(rng=None) -> dict:
-    """(feed name, date) -> (file name, freq_hz, gamma at the analyzer end)."""
+    """(antenna name, date) -> (file name, freq_hz, gamma at the analyzer end)."""
 
     rng = rng or np.random.default_rng(HISTORY_SEED)
     out = {}
-    for name, (prefix, line_of, f, z, _) in feeds().items():
+    for name, (prefix, line_of, f, z, _) in antennas().items():
         g_ant = rf.gamma_from_z(z(f))
         for date in SWEEP_DATES:
             g_in = embed_gamma(g_ant, line_of(_years(date)).s_params(f))
@@ -99,7 +99,7 @@ def site_toml() -> str:
              "#   deembed trend sample_sweeps/history/ridgeback-hill-years.site.toml --out out/trend",
              "# The history store is the file beside this one (ridgeback-hill-years.history.sqlite).",
              'name = "Ridgeback Hill"', ""]
-    for name, (prefix, _, _, _, line_file) in feeds().items():
+    for name, (prefix, _, _, _, line_file) in antennas().items():
         first, *rest = SWEEP_DATES
         lines += [f"[[{ENTRY_TABLE}]]", f'name = "{name}"', f'line = "{line_file}"',
                   f'baseline = {{ file = "{prefix}-{first}.s1p", date = "{first}" }}', "latest = ["]
@@ -130,5 +130,5 @@ def write_history(folder: str) -> list[str]:
     return written
 
 
-__all__ = ["SITE_FILE", "SWEEP_DATES", "WATER_LOSS_GROWTH_PER_YEAR", "feeds", "history_sweeps", "site_toml",
+__all__ = ["SITE_FILE", "SWEEP_DATES", "WATER_LOSS_GROWTH_PER_YEAR", "antennas", "history_sweeps", "site_toml",
            "write_history"]

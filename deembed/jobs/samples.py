@@ -28,7 +28,7 @@ DIPOLE_LINE_TOML = """\
 name = "40 m dipole feed"
 
 [[section]]
-label = "shack jumper"
+label = "indoor jumper"
 cable = "rg58"
 length = "2m"
 
@@ -49,23 +49,23 @@ length = "45m"
 """
 
 SITE_TOML = """\
-# Ridgeback Hill (an invented station for the deembed demo): every feed against its baseline.
+# Ridgeback Hill (an invented station for the deembed demo): every antenna against its baseline.
 # Check it with:  deembed site sample_sweeps/ridgeback-hill.site.toml --out out/site
 name = "Ridgeback Hill"
 
-[limits]                      # for every feed (these are the defaults, written out)
+[limits]                      # for every antenna (these are the defaults, written out)
 max_shift = "50kHz"
 max_swr_rise = 0.2
 max_gamma_change = 0.1
-max_bw_loss = 25
+max_bw_loss = "25%"
 
-[[feed]]
+[[antenna]]
 name = "2 m vertical"
 line = "vertical-2m.line.toml"
 baseline = "vertical-2m.s1p"
 latest = ["vertical-2m-after.s1p"]
 
-[[feed]]
+[[antenna]]
 name = "40 m dipole"
 line = "dipole-40m.line.toml"
 baseline = "dipole-40m.s1p"
@@ -93,7 +93,7 @@ def station():
     """The station's antennas, lines and sweep plans: name -> dict."""
 
     cat = catalog()
-    dipole_line = Line((cat["rg58"].section(2.0, "shack jumper"), cat["rg8x"].section(36.0, "main run to the dipole")),
+    dipole_line = Line((cat["rg58"].section(2.0, "indoor jumper"), cat["rg8x"].section(36.0, "main run to the dipole")),
                        name="40 m dipole feed")
     vertical_line = Line((cat["rg213"].section(45.0),))
     return {
@@ -122,7 +122,7 @@ def _wet(section, factor: float):
     return replace(section, loss=section.loss.scaled(factor), label=section.label + " (wet)")
 
 
-def shack_sweeps(rng=None) -> dict:
+def analyzer_sweeps(rng=None) -> dict:
     """name -> (freq_hz, gamma measured at the analyzer end)."""
     rng = rng or np.random.default_rng(SEED)
     out = {}
@@ -135,7 +135,7 @@ def shack_sweeps(rng=None) -> dict:
 
 
 def far_end_standards(rng=None) -> dict:
-    """Open, short and load placed at the far end of the 40 m dipole's line, swept from the shack."""
+    """Open, short and load placed at the far end of the 40 m dipole's line, swept from the analyzer end."""
     rng = rng or np.random.default_rng(SEED + 1)
     st = station()["dipole-40m"]
     f = np.linspace(6.0e6, 8.0e6, 401)
@@ -189,7 +189,7 @@ def write_samples(folder: str) -> list[str]:
     written = []
     head = ["Ridgeback Hill (invented station for the deembed demo): generated from physical models,",
             "not a measurement. Regenerate with: python sample_sweeps/generate.py"]
-    for name, (f, g) in shack_sweeps().items():
+    for name, (f, g) in analyzer_sweeps().items():
         p = os.path.join(folder, f"{name}.s1p")
         write_touchstone(p, f, g, comments=head + [f"sweep at the analyzer end: {name}"])
         written.append(p)

@@ -1,9 +1,9 @@
-"""``deembed site``: every feed of a site file corrected and checked against its baseline.
+"""``deembed site``: every antenna of a site file corrected and checked against its baseline.
 
-The site file's format is in :mod:`deembed.io.sitefile`. Every feed is corrected (``deembed correct``
-outputs in ``OUT/<feed-slug>/``), compared against its baseline (``<latest>.compare.json/.png/.html``
-beside them), and the site gets ``OUT/index.html`` (one self-contained page linking every feed's files)
-and ``OUT/site.json``. Feeds run in parallel on up to two processes; a feed that fails (a bad file, a
+The site file's format is in :mod:`deembed.io.sitefile`. Every antenna is corrected (``deembed correct``
+outputs in ``OUT/<antenna-slug>/``), compared against its baseline (``<latest>.compare.json/.png/.html``
+beside them), and the site gets ``OUT/index.html`` (one self-contained page linking every antenna's files)
+and ``OUT/site.json``. Antennas run in parallel on up to two processes; an antenna that fails (a bad file, a
 line that does not fit) is recorded as an error and the others carry on.
 """
 from __future__ import annotations
@@ -15,9 +15,10 @@ from dataclasses import replace
 from ..analysis.compare import compare_corrections
 from ..analysis.limits import parse_limits
 from ..base.errors import DeembedError, InputFileError, OptionError
+from ..base.verdicts import ERROR, OUTSIDE, WITHIN
 from ..io.atomic import write_text_atomic
 from ..io.jsonfile import to_jsonable
-from ..io.sitefile import FeedJob, Site, after_line, feed_line, read_feed, read_site
+from ..io.sitefile import AntennaJob, Site, after_line, antenna_line, read_antenna, read_site
 from ..io.history import open_store
 from ..render.site_index import index_html
 from . import correct as workflow
@@ -26,7 +27,7 @@ from .record import build_record, sweep_date
 from .trend import compute_trends, write_trend_outputs
 
 DEFAULT_WORKERS = 2
-"""Processes for the feeds: both cores of the ordinary two-core machine the tool is meant for."""
+"""Processes for the antennas: both cores of the ordinary two-core machine the tool is meant for."""
 
 
 def load_site(path, out_dir: str) -> Site:
@@ -48,24 +49,24 @@ def _check_limits(values: dict, path: str, where: str):
 
 # ------------------------------------------------------------------------------------------- one feed
 
-def run_feed(job: FeedJob) -> dict:
+def run_antenna(job: AntennaJob) -> dict:
     """Correct, compare and write one feed; never raises (a failure is the result's ``error``)."""
     try:
-        return _run_feed(job)
+        return _run_antenna(job)
     except DeembedError as exc:
         return _failed(job, str(exc))
-    except Exception as exc:  # a failing feed must not stop the others
+    except Exception as exc:  # a failing antenna must not stop the others
         return _failed(job, f"internal error: {type(exc).__name__}: {exc}")
 
 
-def _failed(job: FeedJob, message: str) -> dict:
-    return {"name": job.name, "slug": job.slug, "status": "error", "error": message, "line": None,
+def _failed(job: AntennaJob, message: str) -> dict:
+    return {"name": job.name, "slug": job.slug, "verdict": ERROR, "error": message, "line": None,
             "baseline": None, "comparisons": []}
 
 
-def _run_feed(job: FeedJob) -> dict:
+def _run_antenna(job: AntennaJob) -> dict:
 
-    files = read_feed(job)
+    files = read_antenna(job)
     try:
         limits = parse_limits(job.site_limits, names={k: f"[limits] {k}" for k in job.site_limits})
         limits = parse_limits(files.own_limits, base=limits,
@@ -73,14 +74,14 @@ def _run_feed(job: FeedJob) -> dict:
     except OptionError as exc:
         raise InputFileError(job.site_file, str(exc)) from None
     port, baseline, latest = files.port, files.baseline, list(files.latest)
-    line, notes = feed_line(job)
+    line, notes = antenna_line(job)
     other, after_notes = after_line(job, files, line, notes)
     line_inputs = [job.cables, files.line_file] + ([files.after_line_file] if files.after_line_file else [])
     out = job.out_dir
     rel = lambda p: os.path.relpath(p, os.path.dirname(out))  # noqa: E731  (relative to the site's folder)
     opts = workflow.Options(port=port, notes=notes)
     base_corr, base_summary, base_written = workflow.correct_file(baseline, line, out, opts, line_inputs=line_inputs)
-    result = {"name": job.name, "slug": job.slug, "status": "passed", "error": None,
+    result = {"name": job.name, "slug": job.slug, "verdict": WITHIN, "error": None,
               "line": line.describe(), "after_line": other.describe() if other is not line else None,
               "limits": limits.as_dict(),
               "baseline": {"file": baseline, "outputs": {k: rel(v) for k, v in base_written.items()},
@@ -102,19 +103,19 @@ def _run_feed(job: FeedJob) -> dict:
                                    title=f"{job.name}: {os.path.basename(sweep)} against {os.path.basename(baseline)}")
         result["comparisons"].append({
             "file": sweep,
-            "within_limits": res["verdict"]["within_limits"],
-            "exceeded": res["verdict"]["exceeded"],
+            "verdict": res["verdict"]["status"],
+            "limits_exceeded": res["verdict"]["limits_exceeded"],
             "reasons": res["verdict"]["reasons"],
-            "diagnosis": res["diagnosis"],
+            "cause": res["cause"],
             "resonance_shift_hz": res["resonance_shift_hz"],
             "min_swr_change": res["min_swr_change"],
-            "max_gamma_change_feedpoint": res["max_gamma_change_feedpoint"],
+            "largest_gamma_change_feedpoint": res["largest_gamma_change_feedpoint"],
             "outputs": {**{k: rel(v) for k, v in written.items()}, **{k: rel(v) for k, v in cw.items()}},
             "warnings": summary.get("warnings", []),
             "between_points": summary["line"].get("between_points"),
         })
-        if not res["verdict"]["within_limits"]:
-            result["status"] = "exceeded"
+        if res["verdict"]["status"] != WITHIN:
+            result["verdict"] = OUTSIDE
         if job.record:
             d, src = sweep_date(sweep, files.dates.get(sweep), "site-file")
             records.append(build_record(site=job.site_name, antenna=job.name, sweep_path=sweep, date=d,
@@ -128,21 +129,21 @@ def _run_feed(job: FeedJob) -> dict:
 
 def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=None, record: str | bool = True,
              trend_limits=None) -> dict:
-    """Check every feed of a site file; write ``index.html`` and ``site.json`` into ``out_dir``.
+    """Check every antenna of a site file; write ``index.html`` and ``site.json`` into ``out_dir``.
 
     Parameters
     ----------
     path : str
         The site file.
     out_dir : str
-        Folder for the results (created if needed); each feed gets a sub-folder named after it.
+        Folder for the results (created if needed); each antenna gets a sub-folder named after it.
     workers : int
-        Processes to run feeds on (default 2); 1 runs them one after another in this process.
+        Processes to run antennas on (default 2); 1 runs them one after another in this process.
     progress : callable, optional
-        Called as ``progress(done, total, feed_result)`` after each feed.
+        Called as ``progress(done, total, feed_result)`` after each antenna.
     record : str or bool
         True (default): record every sweep into the site's history store (its ``history`` key, or the
-        SQLite file beside the site file) and write each feed's trend page into ``OUT/trend/``; a string:
+        SQLite file beside the site file) and write each antenna's trend page into ``OUT/trend/``; a string:
         that store (file or URL) instead; False: record nothing.
     trend_limits : deembed.analysis.trend.TrendLimits, optional
         Limits for the trend pages.
@@ -150,7 +151,9 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
     Returns
     -------
     dict
-        ``{"site", "file", "all_passed", "counts", "feeds": [per-feed results, in file order], "outputs"}``.
+        ``{"site", "file", "verdict", "counts", "antennas": [per-antenna results, in file order], "outputs"}``;
+        ``verdict`` is ``within_limits`` when every antenna is, ``error`` when any could not be checked,
+        else ``outside_limits``.
     """
 
     if os.path.exists(out_dir) and not os.path.isdir(out_dir):
@@ -169,24 +172,25 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
         from concurrent.futures import ProcessPoolExecutor, as_completed
 
         with ProcessPoolExecutor(max_workers=min(workers, total)) as pool:
-            futures = {pool.submit(run_feed, job): i for i, job in enumerate(site.jobs)}
+            futures = {pool.submit(run_antenna, job): i for i, job in enumerate(site.jobs)}
             for done, fut in enumerate(as_completed(futures), 1):
                 i = futures[fut]
                 try:
                     results[i] = fut.result()
-                except Exception as exc:  # a worker that died (out of memory, killed) fails its feed only
+                except Exception as exc:  # a worker that died (out of memory, killed) fails its antenna only
                     results[i] = _failed(site.jobs[i], f"the worker process failed: {type(exc).__name__}: {exc}")
                 if progress:
                     progress(done, total, results[i])
     else:
         for i, job in enumerate(site.jobs):
-            results[i] = run_feed(job)
+            results[i] = run_antenna(job)
             if progress:
                 progress(i + 1, total, results[i])
     records = [rec for r in results for rec in r.pop("_records", [])]
-    counts = {s: sum(r["status"] == s for r in results) for s in ("passed", "exceeded", "error")}
-    summary = {"site": site.name, "file": site.path, "all_passed": counts["passed"] == total, "counts": counts,
-               "feeds": results, "outputs": {"index_html": "index.html", "site_json": "site.json"}}
+    counts = {s: sum(r["verdict"] == s for r in results) for s in (WITHIN, OUTSIDE, ERROR)}
+    overall = WITHIN if counts[WITHIN] == total else ERROR if counts[ERROR] else OUTSIDE
+    summary = {"site": site.name, "file": site.path, "verdict": overall, "counts": counts,
+               "antennas": results, "outputs": {"index_html": "index.html", "site_json": "site.json"}}
     if store is not None:
         summary["history"] = _record_and_trend(store, site, records, results, out_dir, trend_limits)
     write_text_atomic(os.path.join(out_dir, "site.json"),
@@ -196,8 +200,8 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
 
 
 def _record_and_trend(store: str, site: Site, records: list, results: list, out_dir: str, limits) -> dict:
-    """Record the run's sweeps (one transaction) and write every feed's trend page into ``OUT/trend/``;
-    each feed result gets ``trend`` (its page, relative to ``out_dir``, its run count and flags). A store
+    """Record the run's sweeps (one transaction) and write every antenna's trend page into ``OUT/trend/``;
+    each antenna result gets ``trend`` (its page, relative to ``out_dir``, its run count and flags). A store
     that fails now is reported in the summary, not raised: the index is still written."""
     info = {"store": store, "added": 0, "already": 0, "error": None, "flagged": []}
     try:

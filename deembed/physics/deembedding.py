@@ -53,16 +53,16 @@ class Correction:
     Attributes
     ----------
     freq_hz : (n,) frequencies, Hz
-    gamma_shack : (n,) reflection measured at the analyzer end (50 ohm)
-    gamma_feed : (n,) reflection at the feedpoint (50 ohm)
+    gamma_analyzer : (n,) reflection measured at the analyzer end (50 ohm)
+    gamma_feedpoint : (n,) reflection at the feedpoint (50 ohm)
     matched_loss_db : (n,) one-way matched loss of the line
     line : the line removed
     source : where the sweep came from
     """
 
     freq_hz: np.ndarray
-    gamma_shack: np.ndarray
-    gamma_feed: np.ndarray
+    gamma_analyzer: np.ndarray
+    gamma_feedpoint: np.ndarray
     matched_loss_db: np.ndarray
     line: object
     source: str = "<memory>"
@@ -72,7 +72,7 @@ class Correction:
         import skrf
 
         return skrf.Network(frequency=skrf.Frequency.from_f(self.freq_hz, unit="Hz"),
-                            s=self.gamma_feed.reshape(-1, 1, 1), z0=50.0, name=name)
+                            s=self.gamma_feedpoint.reshape(-1, 1, 1), z0=50.0, name=name)
 
 
 BLOCK_POINTS = 8192
@@ -114,7 +114,7 @@ def correct(sweep, line) -> Correction:
             s11, s21s12, s22, loss_db = line_terms(line, f[i:j])
             feedpoint_gamma(g_in[i:j], s11, s21s12, s22, out=g_feed[i:j])
             loss[i:j] = loss_db
-    return Correction(freq_hz=f, gamma_shack=g_in, gamma_feed=g_feed, matched_loss_db=loss,
+    return Correction(freq_hz=f, gamma_analyzer=g_in, gamma_feedpoint=g_feed, matched_loss_db=loss,
                       line=line, source=sweep.source)
 
 

@@ -32,9 +32,9 @@ def nearest_points(grid_hz, freq_hz, rtol: float = FREQ_MATCH_RTOL):
     return idx, np.abs(g[idx] - f) <= rtol * np.abs(f)
 
 
-def inside(lo_hz: float, hi_hz: float, f_min_hz: float, f_max_hz: float, rtol: float = FREQ_MATCH_RTOL) -> bool:
-    """True when [lo_hz, hi_hz] lies inside [f_min_hz, f_max_hz], the ends widened by ``rtol``."""
-    return lo_hz >= f_min_hz * (1 - rtol) and hi_hz <= f_max_hz * (1 + rtol)
+def inside(lo_hz: float, hi_hz: float, low_hz: float, high_hz: float, rtol: float = FREQ_MATCH_RTOL) -> bool:
+    """True when [lo_hz, hi_hz] lies inside [low_hz, high_hz], the ends widened by ``rtol``."""
+    return lo_hz >= low_hz * (1 - rtol) and hi_hz <= high_hz * (1 + rtol)
 
 
 __all__ = ["FREQ_MATCH_RTOL", "inside", "nearest_points"]

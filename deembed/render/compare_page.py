@@ -12,6 +12,8 @@ import os
 from ..physics import rf
 from .plots import finish, smith_frame, smith_grid, smith_trace, swr_scale
 from .text import compare_text
+from ..analysis.limits import FIELD_OF_JSON, LIMIT_NAMES
+from ..base.verdicts import TEXT as VERDICT_TEXT, WITHIN
 
 BEFORE_COLOUR = "#3f51a3"
 AFTER_COLOUR = "#d19a1c"
@@ -28,8 +30,8 @@ def compare_plot(before, after, title: str = ""):
 
     fig = Figure(figsize=(12, 10), layout="constrained")
     axes = fig.subplots(2, 2, width_ratios=(1.5, 1))
-    for row, (end, attr, ls) in enumerate((("feedpoint (corrected)", "gamma_feed", "-"),
-                                           ("analyzer end (measured)", "gamma_shack", "--"))):
+    for row, (end, attr, ls) in enumerate((("feedpoint (corrected)", "gamma_feedpoint", "-"),
+                                           ("analyzer end (measured)", "gamma_analyzer", "--"))):
         ax_swr, ax_sm = axes[row]
         traces = []
         for corr, colour, label in ((before, BEFORE_COLOUR, BEFORE_LABEL), (after, AFTER_COLOUR, AFTER_LABEL)):
@@ -48,7 +50,7 @@ def compare_plot(before, after, title: str = ""):
 
 
 def compare_html(result: dict, png_path: str | None = None, title: str = "") -> str:
-    """A small self-contained page (the plot embedded as data) with the numbers, verdict and diagnosis."""
+    """A small self-contained page (the plot embedded as data) with the numbers, verdict and cause."""
     import base64
 
 
@@ -58,9 +60,12 @@ def compare_html(result: dict, png_path: str | None = None, title: str = "") -> 
         with open(png_path, "rb") as fh:
             data = base64.b64encode(fh.read()).decode("ascii")
         img = f'<img alt="overlay of baseline and after-work sweeps" src="data:image/png;base64,{data}">'
-    ok = result["verdict"]["within_limits"]
-    badge = ('<p class="ok">WITHIN LIMITS</p>' if ok else
-             '<p class="bad">OUTSIDE LIMITS: ' + e(", ".join(result["verdict"]["exceeded"])) + "</p>")
+    v = result["verdict"]
+    if v["status"] == WITHIN:
+        badge = f'<p class="ok">{VERDICT_TEXT[WITHIN]}</p>'
+    else:
+        names = ", ".join(LIMIT_NAMES[FIELD_OF_JSON[k]] for k in v["limits_exceeded"])
+        badge = f'<p class="bad">{VERDICT_TEXT[v["status"]]}: ' + e(names) + "</p>"
     head = e(title or f"{os.path.basename(str(result['after']['file']))} against its baseline")
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{head}</title>
@@ -69,7 +74,7 @@ pre{{background:#f6f4ef;padding:1em;white-space:pre-wrap}} img{{max-width:100%}}
 .ok{{color:#1d6b3a;font-weight:bold}} .bad{{color:#a3261d;font-weight:bold}}</style></head>
 <body><h1>{head}</h1>
 {badge}
-<p><b>Cause:</b> {e(result['diagnosis']['code'])} &mdash; {e(result['diagnosis']['text'])}</p>
+<p><b>Cause:</b> {e(result['cause']['code'])} &mdash; {e(result['cause']['text'])}</p>
 <pre>{e(compare_text(result))}</pre>
 {img}
 </body></html>

@@ -15,10 +15,10 @@ import numpy as np
 from ..physics import rf
 from ..io.atomic import atomic_path
 
-SHACK_COLOUR = "#5b6b7a"
-FEED_COLOUR = "#c0582b"
+ANALYZER_COLOUR = "#5b6b7a"
+FEEDPOINT_COLOUR = "#c0582b"
 GRID_COLOUR = "#d9d4cc"
-LABELS = {"shack": "at the analyzer (measured)", "feedpoint": "at the feedpoint (corrected)"}
+LABELS = {"analyzer": "at the analyzer (measured)", "feedpoint": "at the feedpoint (corrected)"}
 
 
 DPI = 110
@@ -169,9 +169,9 @@ def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends"):
     """SWR against frequency at the analyzer and at the feedpoint, on one chart."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
-    s_sh, s_fp = rf.swr(corr.gamma_shack), rf.swr(corr.gamma_feed)
-    _trace(ax, f, s_sh, color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"], **_marks(f))
-    _trace(ax, f, s_fp, color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    s_sh, s_fp = rf.swr(corr.gamma_analyzer), rf.swr(corr.gamma_feedpoint)
+    _trace(ax, f, s_sh, color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"], **_marks(f))
+    _trace(ax, f, s_fp, color=FEEDPOINT_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
     swr_scale(ax, [s_sh, s_fp], limits, label_at=f[0])
     finish(ax, "SWR", title)
@@ -182,9 +182,9 @@ def return_loss_plot(corr, ax=None):
     """Return loss (positive dB) at both ends."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
-    _trace(ax, f, rf.return_loss_db(corr.gamma_shack), color=SHACK_COLOUR, lw=1.6, ls="--", label=LABELS["shack"],
+    _trace(ax, f, rf.return_loss_db(corr.gamma_analyzer), color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"],
            **_marks(f))
-    _trace(ax, f, rf.return_loss_db(corr.gamma_feed), color=FEED_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    _trace(ax, f, rf.return_loss_db(corr.gamma_feedpoint), color=FEEDPOINT_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
     ax.invert_yaxis()
     finish(ax, "Return loss (dB, larger is better)", "Return loss at both ends")
@@ -195,8 +195,8 @@ def impedance_plot(corr, ax=None):
     """The feedpoint's resistance and reactance (50 ohm system)."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
-    z = rf.z_from_gamma(corr.gamma_feed)
-    _trace(ax, f, z.real, color=FEED_COLOUR, lw=2.0, label="R (resistance)", **_marks(f))
+    z = rf.z_from_gamma(corr.gamma_feedpoint)
+    _trace(ax, f, z.real, color=FEEDPOINT_COLOUR, lw=2.0, label="R (resistance)", **_marks(f))
     _trace(ax, f, z.imag, color="#2f7d6d", lw=2.0, ls="-.", label="X (reactance)", **_marks(f))
     _xrange(ax, f)
     ax.axhline(0, color="#444444", lw=0.8)
@@ -254,8 +254,8 @@ def smith_plot(corr, ax=None):
         ax = fig.add_subplot()
     fig = ax.figure
     smith_grid(ax)
-    for g, colour, ls, key in ((corr.gamma_shack, SHACK_COLOUR, "--", "shack"),
-                               (corr.gamma_feed, FEED_COLOUR, "-", "feedpoint")):
+    for g, colour, ls, key in ((corr.gamma_analyzer, ANALYZER_COLOUR, "--", "analyzer"),
+                               (corr.gamma_feedpoint, FEEDPOINT_COLOUR, "-", "feedpoint")):
         smith_trace(ax, g, colour, ls, LABELS[key])
     smith_frame(ax, "Smith chart (50 ohm); dot = lowest frequency")
     ax.legend(loc="lower left", fontsize=8, frameon=False)
@@ -266,11 +266,11 @@ def budget_plot(freq_hz, budget: dict, ax=None):
     """Power budget against frequency: delivered into the antenna, lost in the line, returned."""
     fig, ax = _axes(ax)
     f = _mhz(freq_hz)
-    _trace(ax, f, budget["budget_delivered_w"], color=FEED_COLOUR, lw=2.0, label="radiated or lost in the antenna",
+    _trace(ax, f, budget["budget_delivered_w"], color=FEEDPOINT_COLOUR, lw=2.0, label="radiated or lost in the antenna",
            **_marks(f))
     _trace(ax, f, budget["budget_line_dissipated_w"], color="#8b6c3e", lw=1.6, ls="-.", label="lost in the line",
            **_marks(f))
-    _trace(ax, f, budget["budget_reflected_at_tx_w"], color=SHACK_COLOUR, lw=1.6, ls="--",
+    _trace(ax, f, budget["budget_reflected_at_tx_w"], color=ANALYZER_COLOUR, lw=1.6, ls="--",
            label="reflected back to the transmitter", **_marks(f))
     _xrange(ax, f)
     finish(ax, "Watts", "Where the transmitter's power goes")

@@ -18,8 +18,9 @@ from html import escape
 from . import plots
 from ..io.atomic import write_text_atomic
 from .safety import SAFETY_FOOT, SAFETY_ITEMS
-from .plots import FEED_COLOUR, GRID_COLOUR, SHACK_COLOUR
+from .plots import FEEDPOINT_COLOUR, GRID_COLOUR, ANALYZER_COLOUR
 from ..base.units import fmt_freq
+from ..base.verdicts import TEXT as VERDICT_TEXT, WITHIN
 
 LINE_LOSS_COLOUR = "#8b6c3e"  # the "lost in the line" trace of plots.budget_plot
 MAX_RESONANCES = 4
@@ -53,11 +54,11 @@ def _finite(x) -> bool:
 class _Freq:
     """Frequencies in one unit for the whole report, with as many decimals as the sweep's step resolves."""
 
-    def __init__(self, f_start_hz: float, f_stop_hz: float, points: int):
-        top = max(abs(f_stop_hz), abs(f_start_hz), 1.0)
+    def __init__(self, low_hz: float, high_hz: float, points: int):
+        top = max(abs(high_hz), abs(low_hz), 1.0)
         self.unit, self.scale = next(((u, s) for u, s in (("GHz", 1e9), ("MHz", 1e6), ("kHz", 1e3))
                                       if top >= s), ("Hz", 1.0))
-        step = (f_stop_hz - f_start_hz) / (points - 1) if points > 1 else 0.0
+        step = (high_hz - low_hz) / (points - 1) if points > 1 else 0.0
         if step > 0:
             self.decimals = min(max(math.ceil(-math.log10(step / self.scale)), 0), 6)
         else:
@@ -94,12 +95,12 @@ def _header(summary: dict, fq: _Freq, run_time: _dt.datetime) -> str:
     name = os.path.basename(src) or src
     folder = os.path.dirname(src)
     pts = sw.get("points")
-    step = (sw["f_stop_hz"] - sw["f_start_hz"]) / (pts - 1) if pts and pts > 1 else None
+    step = (sw["high_hz"] - sw["low_hz"]) / (pts - 1) if pts and pts > 1 else None
     facts = [
         ("Sweep file", f'<span class="mono">{_e(name)}</span>'
                        + (f'<br><span class="muted small mono">{_e(folder)}</span>' if folder else "")),
         ("Points", f"{_e(pts)}" + (f' <span class="muted">(step {_e(_width(step))})</span>' if step else "")),
-        ("Range", f"{fq.span(sw['f_start_hz'], sw['f_stop_hz'])}"),
+        ("Range", f"{fq.span(sw['low_hz'], sw['high_hz'])}"),
         ("Run", _e(run_time.strftime("%Y-%m-%d %H:%M %Z").strip())),
     ]
     cells = "".join(f"<div><dt>{k}</dt><dd>{v}</dd></div>" for k, v in facts)
@@ -124,7 +125,7 @@ def _header(summary: dict, fq: _Freq, run_time: _dt.datetime) -> str:
 
 def _glance(summary: dict, fq: _Freq) -> str:
     """Three headline numbers: lowest SWR at each end and the line's loss."""
-    fp, sh, ln = summary["feedpoint"], summary["shack"], summary["line"]
+    fp, sh, ln = summary["feedpoint"], summary["analyzer"], summary["line"]
 
     def low(end):
         m = end.get("min_swr") or {}
@@ -137,10 +138,10 @@ def _glance(summary: dict, fq: _Freq) -> str:
 <div class="glance">
   <div class="stat feed"><span class="label">Lowest SWR at the feedpoint</span>
     <span class="value">{fp_s}</span><span class="sub">at {fp_f}</span></div>
-  <div class="stat shack"><span class="label">Lowest SWR seen at the analyzer</span>
+  <div class="stat analyzer"><span class="label">Lowest SWR seen at the analyzer</span>
     <span class="value">{sh_s}</span><span class="sub">at {sh_f}</span></div>
   <div class="stat line"><span class="label">Line loss, one way (matched)</span>
-    <span class="value">{_num(ml.get('at_start'))}&ndash;{_num(ml.get('at_stop'))} dB</span>
+    <span class="value">{_num(ml.get('at_low'))}&ndash;{_num(ml.get('at_high'))} dB</span>
     <span class="sub">across the sweep</span></div>
 </div>"""
 
@@ -206,7 +207,7 @@ def _line(summary: dict, corr, fq: _Freq) -> str:
     ln = summary["line"]
     ml = ln.get("matched_loss_db") or {}
     el = ln.get("electrical_length_deg") or {}
-    f0, f1 = ln.get("f_start_hz"), ln.get("f_stop_hz")
+    f0, f1 = ln.get("low_hz"), ln.get("high_hz")
 
     def turns(deg):
         return "" if not _finite(deg) else f' <span class="muted">({deg / 360:.2f} &lambda;)</span>'
@@ -223,12 +224,12 @@ def _line(summary: dict, corr, fq: _Freq) -> str:
   <table class="grid edges">
     <thead><tr><th></th><th class="n">at {fq(f0)}</th><th class="n">at {fq(f1)}</th></tr></thead>
     <tbody>
-      <tr><th>Matched loss, one way</th><td class="n">{_num(ml.get('at_start'))} dB</td>
-          <td class="n">{_num(ml.get('at_stop'))} dB</td></tr>
-      <tr><th>Matched loss, there and back</th><td class="n">{two_way(ml.get('at_start'))} dB</td>
-          <td class="n">{two_way(ml.get('at_stop'))} dB</td></tr>
-      <tr><th>Electrical length</th><td class="n">{_num(el.get('at_start'), '.0f')}&deg;{turns(el.get('at_start'))}</td>
-          <td class="n">{_num(el.get('at_stop'), '.0f')}&deg;{turns(el.get('at_stop'))}</td></tr>
+      <tr><th>Matched loss, one way</th><td class="n">{_num(ml.get('at_low'))} dB</td>
+          <td class="n">{_num(ml.get('at_high'))} dB</td></tr>
+      <tr><th>Matched loss, there and back</th><td class="n">{two_way(ml.get('at_low'))} dB</td>
+          <td class="n">{two_way(ml.get('at_high'))} dB</td></tr>
+      <tr><th>Electrical length</th><td class="n">{_num(el.get('at_low'), '.0f')}&deg;{turns(el.get('at_low'))}</td>
+          <td class="n">{_num(el.get('at_high'), '.0f')}&deg;{turns(el.get('at_high'))}</td></tr>
     </tbody>
   </table>
   {delay}
@@ -286,8 +287,8 @@ def _resonances_html(end: dict, fq: _Freq) -> str:
 
 
 def _spans_html(end: dict, key: str, freq_range, fq: _Freq) -> str:
-    spans = [s for s in (end.get("bandwidth_hz") or {}).get(key) or [] if s and _finite(s[0]) and _finite(s[1])]
-    cuts = list((end.get("bandwidth_cut_by_sweep_edge") or {}).get(key) or [])
+    spans = [s for s in (end.get("swr_spans_hz") or {}).get(key) or [] if s and _finite(s[0]) and _finite(s[1])]
+    cuts = list((end.get("swr_spans_cut_by_sweep_edge") or {}).get(key) or [])
     if len(cuts) != len(spans):  # older summaries: work the flag out from the sweep's edges
         cuts = [s[0] <= freq_range[0] or s[1] >= freq_range[1] for s in spans]
     if not spans:
@@ -310,21 +311,21 @@ def _spans_html(end: dict, key: str, freq_range, fq: _Freq) -> str:
 
 
 def _q_html(end: dict, fq: _Freq) -> tuple[str, str]:
-    q, qf, qb = end.get("q"), end.get("q_freq_hz"), end.get("q_bandwidth")
+    q, qf, qb = end.get("q"), end.get("q_freq_hz"), end.get("q_from_span")
     q_imp = f"{q:.1f} <span class='muted'>at {fq(qf)}</span>" if _finite(q) else '<span class="muted">n/a</span>'
     q_bw = f"{qb:.1f}" if _finite(qb) else '<span class="muted">n/a</span>'
     return q_imp, q_bw
 
 
 def _findings(summary: dict, fq: _Freq) -> str:
-    fp, sh = summary["feedpoint"], summary["shack"]
+    fp, sh = summary["feedpoint"], summary["analyzer"]
     sw = summary["sweep"]
-    rng = (sw["f_start_hz"], sw["f_stop_hz"])
+    rng = (sw["low_hz"], sw["high_hz"])
     rows = []
 
     def row(label, a, b, hint=""):
         h = f"<span class='hint'>{hint}</span>" if hint else ""
-        rows.append(f"<tr><th scope='row'>{label}{h}</th><td class='shack'>{a}</td><td class='feed'>{b}</td></tr>")
+        rows.append(f"<tr><th scope='row'>{label}{h}</th><td class='analyzer'>{a}</td><td class='feed'>{b}</td></tr>")
 
     def low(end):
         m = end.get("min_swr") or {}
@@ -334,7 +335,7 @@ def _findings(summary: dict, fq: _Freq) -> str:
 
     row("Lowest SWR", low(sh), low(fp))
     row("Resonances", _resonances_html(sh, fq), _resonances_html(fp, fq), "where X crosses zero")
-    keys = list((fp.get("bandwidth_hz") or {}).keys())
+    keys = list((fp.get("swr_spans_hz") or {}).keys())
     for key in sorted(keys, key=float):
         row(f"SWR &le; {_e(key)}", _spans_html(sh, key, rng, fq), _spans_html(fp, key, rng, fq))
     qi_sh, qb_sh = _q_html(sh, fq)
@@ -344,7 +345,7 @@ def _findings(summary: dict, fq: _Freq) -> str:
     table = f"""
 <table class="ends">
   <colgroup><col class="label"><col><col></colgroup>
-  <thead><tr><th></th><th class="shack">At the analyzer <small>measured</small></th>
+  <thead><tr><th></th><th class="analyzer">At the analyzer <small>measured</small></th>
   <th class="feed">At the feedpoint <small>corrected</small></th></tr></thead>
   <tbody>{''.join(rows)}</tbody>
 </table>"""
@@ -377,17 +378,18 @@ def _trim(fp: dict, fq: _Freq) -> str:
 </div>"""
 
 
-def _pill(ok) -> str:
-    if ok is None:
+def _pill(verdict) -> str:
+    if verdict is None:
         return ""
-    return '<span class="pill ok">pass</span>' if ok else '<span class="pill fail">over</span>'
+    cls = "ok" if verdict == WITHIN else "fail"
+    return f'<span class="pill {cls}">{VERDICT_TEXT[verdict]}</span>'
 
 
 def _bands(summary: dict, fq: _Freq) -> str:
     b = summary.get("bands")
     if not b:
         return ""
-    sh = {x["name"]: x for x in b.get("shack") or []}
+    sh = {x["name"]: x for x in b.get("analyzer") or []}
     rows = []
     for x in b.get("feedpoint") or []:
         y = sh.get(x["name"], {})
@@ -401,7 +403,7 @@ def _bands(summary: dict, fq: _Freq) -> str:
             w = r.get("worst_swr")
             val = "&infin;" if w is None else f"{w:.2f}"
             return (f"<td class='n'>{val} <span class='muted small'>at {fq(r.get('worst_swr_freq_hz'))}</span> "
-                    f"{_pill(r.get('ok'))}</td>")
+                    f"{_pill(r.get('verdict'))}</td>")
 
         rows.append(f"<tr><th scope='row'>{_e(x['name'])}</th><td>{fq.span(x['low_hz'], x['high_hz'])} {part}</td>"
                     f"{cell(y)}{cell(x)}</tr>")
@@ -409,7 +411,7 @@ def _bands(summary: dict, fq: _Freq) -> str:
         body = "<p class='muted'>None of the listed bands falls inside the sweep.</p>"
     else:
         body = ("<table class='grid bands'><thead><tr><th>Band</th><th>Edges</th>"
-                "<th class='n shack'>Worst SWR at the analyzer</th><th class='n feed'>Worst SWR at the feedpoint</th>"
+                "<th class='n analyzer'>Worst SWR at the analyzer</th><th class='n feed'>Worst SWR at the feedpoint</th>"
                 f"</tr></thead><tbody>{''.join(rows)}</tbody></table>")
     return f"""
 <div class="block">
@@ -425,9 +427,9 @@ def _power(summary: dict, fq: _Freq) -> str:
     if not p or not _finite(p.get("transmitter_w")):
         return ""
     tx = p["transmitter_w"]
-    parts = [("into the antenna", p.get("delivered_w"), FEED_COLOUR),
+    parts = [("into the antenna", p.get("delivered_w"), FEEDPOINT_COLOUR),
              ("lost in the line", p.get("line_dissipated_w"), LINE_LOSS_COLOUR),
-             ("back at the transmitter", p.get("reflected_at_tx_w"), SHACK_COLOUR)]
+             ("back at the transmitter", p.get("reflected_at_tx_w"), ANALYZER_COLOUR)]
     segs, legend = [], []
     for label, w, colour in parts:
         if not _finite(w):
@@ -462,7 +464,7 @@ def _render_png(key: str, corr, table: dict, summary: dict) -> bytes | None:
     import io
 
 
-    keys = (summary.get("feedpoint") or {}).get("bandwidth_hz") or {}
+    keys = (summary.get("feedpoint") or {}).get("swr_spans_hz") or {}
     fig = plots.correction_plot(key, corr, table, tuple(float(k) for k in keys) or (2.0,))
     if fig is None:
         return None
@@ -556,7 +558,7 @@ p { margin: 6px 0 10px; }
 .stat .label { font-size: 12px; text-transform: uppercase; letter-spacing: 0.05em; color: var(--muted); }
 .stat .value { font-size: 28px; font-weight: 700; line-height: 1.25; }
 .stat.feed .value { color: var(--copper); }
-.stat.shack .value { color: var(--slate); }
+.stat.analyzer .value { color: var(--slate); }
 .stat .sub { color: var(--muted); font-size: 13px; }
 .warnings { background: var(--warn-bg); border: 1px solid #efd4a6; border-left: 6px solid var(--warn-edge);
   border-radius: 6px; padding: 14px 18px 8px; margin-top: 22px; }
@@ -585,7 +587,7 @@ table.ends { background: var(--card); border: 1px solid var(--rule); margin: 14p
 table.ends col.label { width: 21%; }
 table.ends th, table.ends td { padding: 9px 14px; border-bottom: 1px solid var(--rule); vertical-align: top; }
 table.ends thead th { font-size: 15px; border-bottom: 0; padding-top: 12px; }
-table.ends thead th.shack { border-top: 5px solid var(--slate); color: var(--slate); background: #eef1f4; }
+table.ends thead th.analyzer { border-top: 5px solid var(--slate); color: var(--slate); background: #eef1f4; }
 table.ends thead th.feed { border-top: 5px solid var(--copper); color: var(--copper); background: #fbefe8; }
 table.ends thead small { display: block; font-weight: 400; color: var(--muted); font-size: 12px; }
 table.ends td.feed { background: #fffaf6; }
@@ -601,7 +603,7 @@ ul.plain li { margin: 0 0 3px; }
   padding: 1px 7px; border-radius: 8px; margin-left: 4px; vertical-align: 1px; }
 .pill.ok { background: #e2f1ec; color: var(--ok); }
 .pill.fail { background: #f9e1df; color: var(--bad); }
-th.shack { color: var(--slate); }
+th.analyzer { color: var(--slate); }
 th.feed { color: var(--copper); }
 .callout { background: var(--card); border: 1px solid var(--rule); border-left: 6px solid var(--copper);
   border-radius: 6px; padding: 4px 18px 8px; margin: 20px 0; }
@@ -637,7 +639,7 @@ footer { margin-top: 40px; padding-top: 12px; border-top: 1px solid var(--rule);
   .fig img { max-height: 9cm; }
   .comments:not([open]) { display: none; }
 }
-""".replace("@SLATE@", SHACK_COLOUR).replace("@COPPER@", FEED_COLOUR).replace("@RULE@", GRID_COLOUR).replace(
+""".replace("@SLATE@", ANALYZER_COLOUR).replace("@COPPER@", FEEDPOINT_COLOUR).replace("@RULE@", GRID_COLOUR).replace(
     "@LOSS@", LINE_LOSS_COLOUR)
 
 
@@ -648,7 +650,7 @@ def report_html(corr, summary: dict, table: dict | None = None, written: dict | 
 
     run_time = run_time or _dt.datetime.now().astimezone()
     sw = summary["sweep"]
-    fq = _Freq(sw["f_start_hz"], sw["f_stop_hz"], int(sw.get("points") or 0))
+    fq = _Freq(sw["low_hz"], sw["high_hz"], int(sw.get("points") or 0))
     name = os.path.basename(str(sw.get("file", ""))) or "sweep"
     body = "".join([
         _header(summary, fq, run_time),
@@ -687,7 +689,7 @@ def write_report(path, corr, summary: dict, table: dict | None, written: dict | 
         The correction (its line is described in the report; plots missing from ``written`` are
         rendered from it in memory).
     summary : dict
-        From :func:`deembed.workflow.analyse` (``sweep``, ``line``, ``feedpoint``, ``shack``,
+        From :func:`deembed.workflow.analyse` (``sweep``, ``line``, ``feedpoint``, ``analyzer``,
         ``warnings`` and optionally ``bands``, ``power``, ``feedpoint.trim``).
     table : dict
         Per-frequency columns (for the power-budget plot when it must be rendered here).

@@ -1,4 +1,4 @@
-"""The site's index page: one self-contained page linking every feed's files."""
+"""The site's index page: one self-contained page linking every antenna's files."""
 from __future__ import annotations
 
 import html
@@ -6,7 +6,7 @@ import os
 from urllib.parse import quote
 
 
-STATUS_TEXT = {"passed": "within limits", "exceeded": "OUTSIDE LIMITS", "error": "FAILED"}
+from ..base.verdicts import ERROR, TEXT as VERDICT_TEXT, WITHIN
 
 
 def _link(rel_path, text) -> str:
@@ -14,7 +14,7 @@ def _link(rel_path, text) -> str:
 
 
 def _trend_cell(trend) -> str:
-    """A link to the feed's trend page, with its flags, for the feed's cell."""
+    """A link to the antenna's trend page, with its flags, for the antenna's cell."""
     if not trend:
         return ""
     flags = trend.get("flags") or []
@@ -37,25 +37,24 @@ def _history_note(history) -> str:
 
 
 def index_html(summary: dict) -> str:
-    """The site's index: one self-contained page, a row per comparison, links to each feed's files.
+    """The site's index: one self-contained page, a row per comparison, links to each antenna's files.
 
     Every string from the site file or the sweeps passes through :func:`html.escape`.
     """
     e = html.escape
     rows = []
-    for feed in summary["feeds"]:
-        status = feed["status"]
-        name = e(feed["name"])
-        if status == "error":
-            rows.append(f'<tr class="error"><td>{name}</td><td class="st">{STATUS_TEXT[status]}</td>'
-                        f'<td colspan="4">{e(feed["error"])}</td></tr>')
+    for ant in summary["antennas"]:
+        name = e(ant["name"])
+        if ant["verdict"] == ERROR:
+            rows.append(f'<tr class="{ERROR}"><td>{name}</td><td class="st">{VERDICT_TEXT[ERROR]}</td>'
+                        f'<td colspan="4">{e(ant["error"])}</td></tr>')
             continue
-        base = feed["baseline"]
-        trend = _trend_cell(feed.get("trend"))
+        base = ant["baseline"]
+        trend = _trend_cell(ant.get("trend"))
         base_links = " ".join(_link(p, k.replace("_", " ")) for k, p in base["outputs"].items()
                               if k in ("report_html", "summary_json", "swr_png"))
-        for cmp in feed["comparisons"]:
-            st = "passed" if cmp["within_limits"] else "exceeded"
+        for cmp in ant["comparisons"]:
+            st = cmp["verdict"]
             shift = cmp["resonance_shift_hz"]
             shift_txt = "n/a" if shift is None else f"{shift / 1e3:+.1f} kHz"
             links = " ".join(_link(p, k.replace("_", " ")) for k, p in cmp["outputs"].items()
@@ -69,33 +68,33 @@ def index_html(summary: dict) -> str:
                        + (f", estimated error up to {err:.2g} in |&Gamma;|" if err is not None and
                           bp.get("method") != "exact" else "") + "</small>")
             rows.append(
-                f'<tr class="{st}"><td>{name}<br><small>{e(feed["line"] or "")}</small>{btw}{trend}</td>'
-                f'<td class="st">{STATUS_TEXT[st]}</td>'
+                f'<tr class="{st}"><td>{name}<br><small>{e(ant["line"] or "")}</small>{btw}{trend}</td>'
+                f'<td class="st">{VERDICT_TEXT[st]}</td>'
                 f'<td>{e(os.path.basename(cmp["file"]))}<br><small>baseline {e(os.path.basename(base["file"]))}: '
                 f'{base_links}</small></td>'
                 f'<td>{e(shift_txt)}</td>'
-                f'<td><b>{e(cmp["diagnosis"]["code"])}</b>: {e(cmp["diagnosis"]["text"])}'
+                f'<td><b>{e(cmp["cause"]["code"])}</b>: {e(cmp["cause"]["text"])}'
                 f'{"<br><small>" + e(why) + "</small>" if why else ""}</td>'
                 f'<td>{links}</td></tr>')
     c = summary["counts"]
     head = e(summary["site"])
-    overall = "every feed within its limits" if summary["all_passed"] else \
-        f"{c['exceeded']} feed(s) outside limits, {c['error']} failed"
+    overall = (f"{VERDICT_TEXT[WITHIN]}: every antenna" if summary["verdict"] == WITHIN else
+               f"{c['outside_limits']} outside limits, {c['error']} with an error")
     return f"""<!DOCTYPE html>
-<html lang="en"><head><meta charset="utf-8"><title>{head}: feeds against their baselines</title>
+<html lang="en"><head><meta charset="utf-8"><title>{head}: antennas against their baselines</title>
 <style>body{{font-family:system-ui,sans-serif;max-width:80em;margin:1.5em auto;padding:0 1.5em;color:#222;background:#fbfaf8}}
 table{{border-collapse:collapse;width:100%}} td,th{{border-bottom:1px solid #d9d4cc;padding:.4em;vertical-align:top;text-align:left}}
-tr.passed .st{{color:#1d6b3a}} tr.exceeded .st,tr.error .st,.flag{{color:#a3261d;font-weight:bold}} small{{color:#555}}</style>
+tr.within_limits .st{{color:#1d6b3a}} tr.outside_limits .st,tr.error .st,.flag{{color:#a3261d;font-weight:bold}} small{{color:#555}}</style>
 </head><body>
 <h1>{head}</h1>
-<p>{e(overall)} ({len(summary['feeds'])} feed(s), site file {e(os.path.basename(summary['file']))}).</p>
-<table><thead><tr><th>Feed</th><th>Status</th><th>Sweep</th><th>Resonance shift</th><th>Cause</th><th>Files</th></tr></thead>
+<p>{e(overall)} ({len(summary['antennas'])} antenna(s), site file {e(os.path.basename(summary['file']))}).</p>
+<table><thead><tr><th>Antenna</th><th>Verdict</th><th>Sweep</th><th>Resonance shift</th><th>Cause</th><th>Files</th></tr></thead>
 <tbody>
 {chr(10).join(rows)}
 </tbody></table>
 {_history_note(summary.get("history"))}
 <p><small>Resonance shift: feedpoint, after minus baseline. Limits and the antenna-or-line rule: see
-the README. Sweeps compared through each feed's line description; nothing here replaces a look at the
+the README. Sweeps compared through each antenna's line description; nothing here replaces a look at the
 antenna by a qualified climber when the numbers say it changed.</small></p>
 </body></html>
 """

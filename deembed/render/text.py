@@ -2,11 +2,11 @@
 from __future__ import annotations
 
 from ..base.units import fmt_freq
-from .site_index import STATUS_TEXT
 import os
 import sys
 from ..analysis.between import between_text
-from ..analysis.limits import LIMIT_NAMES
+from ..analysis.limits import FIELD_OF_JSON, LIMIT_NAMES
+from ..base.verdicts import ERROR, TEXT as VERDICT_TEXT, WITHIN
 
 
 def _spans(spans, most: int = 2) -> str:
@@ -42,7 +42,7 @@ def _res(end: dict) -> str:
 
 
 def _q(end: dict) -> str:
-    q, qb = end.get("q"), end.get("q_bandwidth")
+    q, qb = end.get("q"), end.get("q_from_span")
     if q is None and qb is None:
         return "n/a"
     a = f"{q:.1f}" if q is not None else "n/a"
@@ -53,20 +53,20 @@ def _q(end: dict) -> str:
 def correction_text(summary: dict, out_dir: str | None = None) -> str:
     """A short readable summary of one correction, both ends side by side."""
     sw, ln = summary["sweep"], summary["line"]
-    fp, sh = summary["feedpoint"], summary["shack"]
+    fp, sh = summary["feedpoint"], summary["analyzer"]
     lines = [
-        f"sweep   {sw['file']}: {sw['points']} points, {fmt_freq(sw['f_start_hz'])} to {fmt_freq(sw['f_stop_hz'])}",
+        f"sweep   {sw['file']}: {sw['points']} points, {fmt_freq(sw['low_hz'])} to {fmt_freq(sw['high_hz'])}",
         f"line    {ln['description']}",
-        f"        matched loss {ln['matched_loss_db']['at_start']:.2f} dB at {fmt_freq(ln['f_start_hz'])}, "
-        f"{ln['matched_loss_db']['at_stop']:.2f} dB at {fmt_freq(ln['f_stop_hz'])}",
+        f"        matched loss {ln['matched_loss_db']['at_low']:.2f} dB at {fmt_freq(ln['low_hz'])}, "
+        f"{ln['matched_loss_db']['at_high']:.2f} dB at {fmt_freq(ln['high_hz'])}",
         *([f"        between points: {between_text(ln['between_points'])}"] if ln.get("between_points") else []),
         "",
         f"{'':24}{'at the analyzer':34}{'at the feedpoint'}",
         _row("lowest SWR", _min(sh), _min(fp)),
         _row("resonance (X = 0)", _res(sh), _res(fp)),
     ]
-    for key in (fp.get("bandwidth_hz") or {}):
-        lines.append(_row(f"SWR <= {key} span", _spans(sh["bandwidth_hz"].get(key)), _spans(fp["bandwidth_hz"][key])))
+    for key in (fp.get("swr_spans_hz") or {}):
+        lines.append(_row(f"SWR <= {key} span", _spans(sh["swr_spans_hz"].get(key)), _spans(fp["swr_spans_hz"][key])))
     lines.append(_row("Q near best match", _q(sh), _q(fp)))
     trim = fp.get("trim")
     if trim:
@@ -76,8 +76,8 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
     bands = summary.get("bands")
     if bands:
         lines.append(f"\nbands   worst SWR in each band (limit {bands['swr_limit']:g}:1)      analyzer  feedpoint")
-        for b_sh, b_fp in zip(bands["shack"], bands["feedpoint"]):
-            mark = "ok" if b_fp.get("ok") else "OVER"
+        for b_sh, b_fp in zip(bands["analyzer"], bands["feedpoint"]):
+            mark = VERDICT_TEXT[b_fp["verdict"]]
             lines.append(f"        {b_fp['name']:36}{_num(b_sh.get('worst_swr')):>10}{_num(b_fp.get('worst_swr')):>11}  {mark}")
     power = summary.get("power")
     if power:
@@ -122,16 +122,16 @@ def budget_text(b: dict, power_w: float, loss_db: float) -> str:
 
 
 def stderr_progress():
-    """A progress callback writing ``site: 2/5 feeds done (name: status)`` to standard error.
+    """A progress callback writing ``site: 2/5 antennas done (name: verdict)`` to standard error.
 
-    It writes nothing for a short run (3 feeds or fewer) when standard error is not a terminal.
+    It writes nothing for a short run (3 antennas or fewer) when standard error is not a terminal.
     """
     tty = sys.stderr.isatty()
 
     def show(done, n, result):
         if not tty and n <= 3:
             return
-        msg = f"site: {done}/{n} feeds done ({result['name']}: {STATUS_TEXT[result['status']]})"
+        msg = f"site: {done}/{n} antennas done ({result['name']}: {VERDICT_TEXT[result['verdict']]})"
         if tty:
             sys.stderr.write("\r" + msg.ljust(78) + ("\n" if done == n else ""))
         else:
@@ -142,13 +142,13 @@ def stderr_progress():
 
 
 def compare_text(result: dict, limit_names: dict | None = None) -> str:
-    """A few readable lines: the numbers at both ends, the verdict naming the limits exceeded, the diagnosis.
+    """A few readable lines: the numbers at both ends, the verdict naming the limits exceeded, the cause.
 
     ``limit_names`` says how to name each limit (the command line passes its option names); default: the
-    limit's key (``max_shift``).
+    limit's site-file name (``max_shift``).
     """
 
-    fp, sh = result["feedpoint"], result["shack"]
+    fp, sh = result["feedpoint"], result["analyzer"]
 
     def num(v, spec=".3f"):
         return "n/a" if v is None else format(v, spec)
@@ -160,16 +160,16 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
     lines = [
         f"baseline {result['baseline']['file']}",
         f"after    {result['after']['file']}",
-        f"compared on {result['grid']['points']} points, {fmt_freq(result['grid']['f_start_hz'])} to "
-        f"{fmt_freq(result['grid']['f_stop_hz'])} ({result['grid']['method']})",
+        f"compared on {result['grid']['points']} points, {fmt_freq(result['grid']['low_hz'])} to "
+        f"{fmt_freq(result['grid']['high_hz'])} ({result['grid']['method']})",
         "",
         f"{'':28}{'at the analyzer':28}{'at the feedpoint'}",
         f"{'resonance':28}{'(not meaningful)':28}{freq(result['resonance_before_hz'])} -> {freq(result['resonance_after_hz'])}"
         + ("" if shift is None else f" ({shift / 1e3:+.1f} kHz)"),
     ]
     for label, key, spec in (("lowest SWR change", "min_swr_change", "+.3f"),
-                             ("2:1 bandwidth change (kHz)", "bandwidth_2_change_hz", None),
-                             ("largest |Gamma| change", "max_gamma_mag_change", ".3f")):
+                             ("2:1 bandwidth change (kHz)", "swr_2_width_change_hz", None),
+                             ("largest |Gamma| change", "largest_gamma_change", ".3f")):
         if spec is None:
             a = "n/a" if sh is None else f"{sh[key] / 1e3:+.1f}"
             b = f"{fp[key] / 1e3:+.1f}"
@@ -180,7 +180,7 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
     ln = result["line"]
     if ln["loss_change_db"] is not None:
         lines.append(f"\nline     {ln['before']}\n  now    {ln['after']}\n         matched loss change "
-                     f"{ln['loss_change_db']['at_centre']:+.2f} dB at mid-band")
+                     f"{ln['loss_change_db']['at_centre']:+.2f} dB at the centre")
     texts = {k: between_text(bp) for k, bp in (ln.get("between_points") or {}).items() if bp}
     if len(set(texts.values())) == 1 and len(texts) == 2:
         lines.append(f"line between points: {next(iter(texts.values()))}")
@@ -188,13 +188,13 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
         lines += [f"line between points ({which}): {text}" for which, text in texts.items()]
     v = result["verdict"]
     lines.append("")
-    if v["within_limits"]:
-        lines.append("verdict  WITHIN LIMITS")
+    if v["status"] == WITHIN:
+        lines.append(f"verdict  {VERDICT_TEXT[WITHIN]}")
     else:
-        names = ", ".join((limit_names or LIMIT_NAMES).get(k, k) for k in v["exceeded"])
-        lines.append(f"verdict  OUTSIDE LIMITS ({names})")
+        names = ", ".join((limit_names or LIMIT_NAMES).get(FIELD_OF_JSON[k], k) for k in v["limits_exceeded"])
+        lines.append(f"verdict  {VERDICT_TEXT[v['status']]} ({names})")
         lines += [f"         - {r}" for r in v["reasons"]]
-    lines.append(f"cause    {result['diagnosis']['code']}: {result['diagnosis']['text']}")
+    lines.append(f"cause    {result['cause']['code']}: {result['cause']['text']}")
     lines += [f"note: {n}" for n in result["notes"]]
     return "\n".join(lines)
 
@@ -213,7 +213,7 @@ def report_text(r: dict) -> str:
     m = r["model"]
     out = [f"Feed-line characterization  ->  {r.get('out', '')}",
            f"  method     {_METHOD_TEXT.get(r['method'], r['method'])}",
-           f"  sweep      {fmt_freq(r['f_min_hz'])} to {fmt_freq(r['f_max_hz'])}, {r['points']} points"]
+           f"  sweep      {fmt_freq(r['low_hz'])} to {fmt_freq(r['high_hz'])}, {r['points']} points"]
     std = r.get("standards", {})
     if std and (std.get("open_c_f") or std.get("short_l_h") or std.get("load_r_ohm", 50.0) != 50.0):
         out.append(f"  standards  open {std['open_c_f'] * 1e15:g} fF, short {std['short_l_h'] * 1e12:g} pH, "
@@ -221,7 +221,7 @@ def report_text(r: dict) -> str:
     out.append("")
     out.append("Line model")
     out.append(f"  Z0               {m['z0_ohm']:.2f} ohm{'' if m['z0_fitted'] else ' (nominal, not measured)'}")
-    out.append(f"  one-way delay    {m['delay_s'] * 1e9:.3f} ns  (electrical length {m['electrical_length_m']:.3f} m)")
+    out.append(f"  one-way delay    {m['delay_s'] * 1e9:.3f} ns  (electrical length {m['free_space_length_m']:.3f} m)")
     if "vf" in r:
         out.append(f"  velocity factor  {r['vf']:.4f}  over {r['length_m']:.3f} m")
     if "k1_db_per_100ft" in r:
@@ -230,7 +230,7 @@ def report_text(r: dict) -> str:
     else:
         out.append(f"  loss law         {r['k1_db_run']:.4g} sqrt(f) + {r['k2_db_run']:.4g} f  dB for the run, "
                    "f in MHz")
-    out.append(f"  model misfit     {m['residual_rms']:.2e} RMS, {m['residual_max']:.2e} worst")
+    out.append(f"  model misfit     {m['rms_residual']:.2e} RMS, {m['max_residual']:.2e} worst")
     if r.get("zc_measured_ohm"):
         zs = ", ".join(f"{z['re']:.1f}{z['im']:+.1f}j @ {fmt_freq(z['freq_hz'])}" for z in r["zc_measured_ohm"])
         out.append(f"  measured Zc      {zs}")
@@ -284,20 +284,22 @@ def report_text(r: dict) -> str:
 
 
 def site_text(summary: dict, out: str) -> str:
-    """One line per comparison (or failed feed), then where the index is."""
+    """One line per comparison (or antenna that could not be checked), then where the index is."""
 
-    lines = [f"site {summary['site']}: {len(summary['feeds'])} feed(s)"]
-    for feed in summary["feeds"]:
-        if feed["status"] == "error":
-            lines.append(f"  {feed['name']}: {STATUS_TEXT['error']}: {feed['error']}")
+    n = len(summary["antennas"])
+    lines = [f"site {summary['site']}: {n} antenna{'s' if n != 1 else ''}, {VERDICT_TEXT[summary['verdict']]}"]
+    for ant in summary["antennas"]:
+        if ant["verdict"] == ERROR:
+            lines.append(f"  {ant['name']}: {VERDICT_TEXT[ERROR]}: {ant['error']}")
             continue
-        for cmp in feed["comparisons"]:
-            st = STATUS_TEXT["passed" if cmp["within_limits"] else "exceeded"]
-            extra = f" ({', '.join(cmp['exceeded'])})" if cmp["exceeded"] else ""
-            lines.append(f"  {feed['name']}: {os.path.basename(cmp['file'])}: {st}{extra}; "
-                         f"cause {cmp['diagnosis']['code']}")
-        for reason in (feed.get("trend") or {}).get("flags", []):
-            lines.append(f"  {feed['name']}: TREND {reason}")
+        for cmp in ant["comparisons"]:
+            st = VERDICT_TEXT[cmp["verdict"]]
+            names = [FIELD_OF_JSON.get(k, k) for k in cmp["limits_exceeded"]]
+            extra = f" ({', '.join(names)})" if names else ""
+            lines.append(f"  {ant['name']}: {os.path.basename(cmp['file'])}: {st}{extra}; "
+                         f"cause {cmp['cause']['code']}")
+        for reason in (ant.get("trend") or {}).get("flags", []):
+            lines.append(f"  {ant['name']}: trend: {reason}")
     hist = summary.get("history")
     if hist:
         if hist.get("error"):

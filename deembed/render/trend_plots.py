@@ -10,14 +10,14 @@ import datetime as _dt
 
 import numpy as np
 
-from .plots import FEED_COLOUR, GRID_COLOUR
+from .plots import FEEDPOINT_COLOUR, GRID_COLOUR
 from ..analysis.trend import years_since
 
 LOSS_COLOUR = "#8b6c3e"
 FLAG_COLOUR = "#b3261e"
 PANELS = (  # quantity, axis label, scale, colour
-    ("resonance_hz", "Feedpoint resonance (MHz)", 1e-6, FEED_COLOUR),
-    ("min_swr", "Lowest feedpoint SWR", 1.0, FEED_COLOUR),
+    ("resonance_hz", "Feedpoint resonance (MHz)", 1e-6, FEEDPOINT_COLOUR),
+    ("min_swr", "Lowest feedpoint SWR", 1.0, FEEDPOINT_COLOUR),
     ("line_loss_db", "Line matched loss at band centre (dB)", 1.0, LOSS_COLOUR),
 )
 
