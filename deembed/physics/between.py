@@ -98,14 +98,26 @@ def restore_delay(freq_hz, values, delay_s: float):
 
 
 def _lagrange_weights(nodes, x):
-    """Weights (m, k) of Lagrange interpolation through ``nodes`` (m, k) evaluated at ``x`` (m,)."""
-    k = nodes.shape[1]
-    w = np.ones(nodes.shape, dtype=float)
-    for a in range(k):  # loops over the 4 stencil points, not over frequency
-        for b in range(k):
+    """Lagrange weights through four node arrays ``nodes`` (each (m,)) at ``x`` (m,): a list of four (m,) arrays."""
+    d = [x - xn for xn in nodes]
+    w = []
+    for a in range(4):  # loops over the 4 stencil points, not over frequency
+        num, den = 1.0, 1.0
+        for b in range(4):
             if a != b:
-                w[:, a] *= (x - nodes[:, b]) / (nodes[:, a] - nodes[:, b])
+                num = num * d[b]
+                den = den * (nodes[a] - nodes[b])
+        w.append(num / den)
     return w
+
+
+def _combine(w, resid, idx):
+    """sum_k w[k] * resid[idx[k]], resid (n, ...) with any trailing shape; one (m, ...) temporary at a time."""
+    out = None
+    for wk, ik in zip(w, idx):
+        term = resid[ik] * wk.reshape(wk.shape + (1,) * (resid.ndim - 1))
+        out = term if out is None else out.__iadd__(term)
+    return out
 
 
 def cubic_stencil(grid_hz, freq_hz):
@@ -138,13 +150,41 @@ def interpolate(grid_hz, values, freq_hz, delay_s: float = 0.0):
     """
     g = np.asarray(grid_hz, dtype=float)
     f = np.atleast_1d(np.asarray(freq_hz, dtype=float))
+    if g.size < 4:
+        raise ValueError("a cubic needs at least 4 characterized points")
     resid = remove_delay(g, values, delay_s)
-    idx = cubic_stencil(g, f)
-    w = _lagrange_weights(g[idx], f)
-    out = np.einsum("mk,mk...->m...", w, resid[idx])
-    hit, exact = nearest_points(g, f)
-    out[exact] = resid[hit[exact]]
+    coef = _interval_cubics(g, resid)  # (n-1, 4, ...): per interval, powers 0..3 of u
+    j = np.clip(np.searchsorted(g, f, side="right") - 1, 0, g.size - 2)
+    h = np.diff(g)
+    u = (f - g[j]) / h[j]
+    u = u.reshape(u.shape + (1,) * (resid.ndim - 1))
+    out = coef[j, 3] * u
+    for p in (2, 1):
+        out += coef[j, p]
+        out *= u
+    out += coef[j, 0]
+    tol = FREQ_MATCH_RTOL * np.abs(f)
+    for near in (j, j + 1):  # the measured value itself where the frequency is a grid point
+        exact = np.abs(g[near] - f) <= tol
+        if exact.any():
+            out[exact] = resid[near[exact]]
     return restore_delay(f, out, delay_s)
+
+
+def _interval_cubics(g, resid):
+    """Power-basis coefficients (n-1, 4, ...) of the cubic used on each interval [g_j, g_j+1].
+
+    The cubic through the interval's four stencil points (:func:`cubic_stencil`), written in
+    u = (x - g_j) / (g_j+1 - g_j) so the 4 x 4 systems stay well conditioned; solved once per interval of
+    the characterization (batched), so a sweep of any length costs one gather and three multiply-adds.
+    """
+    n = g.size
+    nodes = cubic_stencil(g, g[:-1])  # (n-1, 4): the stencil of each interval
+    un = (g[nodes] - g[:-1, None]) / np.diff(g)[:, None]
+    vander = un[:, :, None] ** np.arange(4)[None, None, :]  # (n-1, 4 nodes, 4 powers)
+    y = resid[nodes].reshape(n - 1, 4, -1)
+    c = np.linalg.solve(vander, y)  # batched over intervals, not over sweep frequencies
+    return c.reshape((n - 1, 4) + resid.shape[1:])
 
 
 def leave_one_out(grid_hz, values, delay_s: float = 0.0):
@@ -163,9 +203,8 @@ def leave_one_out(grid_hz, values, delay_s: float = 0.0):
     start = np.clip(i - 2, 0, n - 5)  # five consecutive points i-2..i+2 (shifted at the ends), minus i
     five = start[:, None] + np.arange(5)[None, :]
     keep = five != i[:, None]
-    idx = five[keep].reshape(i.size, 4)
-    w = _lagrange_weights(g[idx], g[i])
-    pred = np.einsum("mk,mk...->m...", w, resid[idx])
+    idx = list(five[keep].reshape(i.size, 4).T)
+    pred = _combine(_lagrange_weights([g[k] for k in idx], g[i]), resid, idx)
     err = np.empty(resid.shape, dtype=float)
     err[1:-1] = np.abs(pred - resid[i])  # |e^{j phi}| = 1: the same error with the delay put back
     err[0], err[-1] = err[1], err[-2]
