@@ -22,6 +22,7 @@ test: $(STAMP)
 
 bench: $(STAMP)
 	$(PY) benchmarks/run.py
+	$(PY) benchmarks/along.py
 
 samples: $(STAMP)
 	$(PY) sample_sweeps/generate.py

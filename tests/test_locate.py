@@ -331,3 +331,61 @@ def test_locate_refuses_an_unequal_grid_naming_the_file(tmp_path):
     p.write_text("# Hz S RI R 50\n" + "".join(f"{x:.6f} 0.1 0.0\n" for x in f))
     r = run_cli("locate", str(p), "--out", str(tmp_path / "o"))
     assert r.returncode == 2 and str(p) in r.stderr and "equal" in r.stderr
+
+
+# --- correct and compare look along the line ------------------------------------------------------------
+
+def test_correct_report_has_an_along_the_line_section_when_the_sweep_resolves_the_line(tmp_path):
+    r = run_cli("correct", str(SAMPLES / "groundplane-30m-wide.s1p"), "--line", str(SAMPLES / "groundplane-30m.line.toml"),
+                "--out", str(tmp_path), "--json")
+    assert r.returncode == 0, r.stderr
+    s = json.loads(r.stdout)["along_the_line"]
+    assert s["resolves_line"] is True
+    assert s["far_end_m"] == pytest.approx(42.0, abs=s["resolution_m"])
+    html = (tmp_path / "groundplane-30m-wide.report.html").read_text(encoding="utf-8")
+    assert 'id="along"' in html and "far end" in html
+    assert (tmp_path / "groundplane-30m-wide.along.png").exists()
+
+
+def test_correct_says_in_one_line_how_wide_a_sweep_would_resolve_the_line(tmp_path):
+    r = run_cli("correct", str(SAMPLES / "dipole-40m.s1p"), "--line", str(SAMPLES / "dipole-40m.line.toml"),
+                "--out", str(tmp_path), "--json", "--no-plots")
+    s = json.loads(r.stdout)["along_the_line"]
+    assert s["resolves_line"] is False
+    # the line is 38 m of VF 0.66/0.8 cable (about 160 ns one way): resolving a fifth of it (32 ns one way)
+    # needs a span of at least 1/(2 x 32 ns) = 15.6 MHz (F22 inverted by hand)
+    assert "15.6 MHz" in s["text"] and "\n" not in s["text"]
+    r = run_cli("correct", str(SAMPLES / "dipole-40m.s1p"), "--line", str(SAMPLES / "dipole-40m.line.toml"),
+                "--out", str(tmp_path), "--no-plots")
+    assert sum("along the line:" in line for line in r.stdout.splitlines()) == 1
+
+
+def test_compare_finds_where_along_the_line_the_change_starts(tmp_path):
+    """Baseline and after-work sweeps of the invented run (deembed/jobs/samples.py: the joint 28 m along got
+    wet between them). The change starts at the joint, within the resolution."""
+    r = run_cli("compare", str(SAMPLES / "groundplane-30m-wide-baseline.s1p"), str(SAMPLES / "groundplane-30m-wide.s1p"),
+                "--line", str(SAMPLES / "groundplane-30m.line.toml"), "--out", str(tmp_path), "--json")
+    assert r.returncode in (0, 1), r.stderr
+    a = json.loads(r.stdout)["along_the_line"]
+    assert a["shown"] is True
+    assert a["first_change_m"] == pytest.approx(28.0, abs=a["resolution_m"])
+    assert "part-way" in a["where"]
+    assert (tmp_path / "groundplane-30m-wide.compare-along.png").exists()
+    assert "Along the line" in (tmp_path / "groundplane-30m-wide.compare.html").read_text(encoding="utf-8")
+
+
+def test_compare_along_locates_a_new_mismatch_built_in_scikit_rf():
+    """A 75 ohm piece appears 25 m along a 40 m lossy run (scikit-rf cascades): the difference of the two
+    sweeps puts the change at 25 m within the resolution."""
+    from types import SimpleNamespace
+
+    from deembed.analysis.along import compare_along
+
+    before, _ = skrf_run(F_WIDE, [(50, 0.66, 40.0, K_RG213)], 0.6)
+    after, _ = skrf_run(F_WIDE, [(50, 0.66, 25.0, K_RG213), (75, 0.66, 0.5, K_RG213), (50, 0.66, 14.5, K_RG213)], 0.6)
+    line = Line((Section.from_length(50, 0.66, 40.0, LossModel(K_RG213 * 40.0, 0.0)),))
+    b = SimpleNamespace(freq_hz=F_WIDE, gamma_analyzer=before, line=line)
+    a = SimpleNamespace(freq_hz=F_WIDE, gamma_analyzer=after, line=line)
+    info, _ = compare_along(b, a)
+    assert info["shown"]
+    assert info["first_change_m"] == pytest.approx(25.0, abs=info["resolution_m"])

@@ -59,6 +59,7 @@ from ..base.verdicts import verdict_of
 from .findings import resonances
 from .findings import end_findings
 from .limits import Limits
+from .along import compare_along
 
 MIN_COMMON_POINTS = 3
 """Fewest exactly common frequencies for a point-by-point comparison; fewer means interpolation."""
@@ -401,6 +402,7 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         "limits": limits.as_dict(),
         "verdict": verdict,
         "cause": cause,
+        "along_the_line": compare_along(before, after)[0],
         "notes": list(al.notes) + between_notes + ([f"only {al.freq_hz.size} common frequencies: resonance, bandwidth and the "
                                     "antenna-or-line cause need a sweep, so this verdict says little"]
                                    if al.freq_hz.size < 3 else []),

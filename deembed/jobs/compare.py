@@ -15,7 +15,8 @@ from ..io.jsonfile import to_jsonable
 from ..io.linefile import read_line_file
 from ..io.touchstone import read_sweep
 from ..physics.deembedding import correct
-from ..render.compare_page import compare_html, compare_plot
+from ..analysis.along import compare_along
+from ..render.compare_page import along_overlay, compare_html, compare_plot
 from ..render.plots import save
 from .correct import prepare_out_dir
 
@@ -25,7 +26,8 @@ def compare_paths(after_path: str, out_dir: str) -> dict:
 
     stem = stem_of(after_path)
     return {k: os.path.join(out_dir, stem + suffix) for k, suffix in
-            (("compare_json", ".compare.json"), ("compare_png", ".compare.png"), ("compare_html", ".compare.html"))}
+            (("compare_json", ".compare.json"), ("compare_png", ".compare.png"), ("compare_html", ".compare.html"),
+             ("compare_along_png", ".compare-along.png"))}
 
 
 def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *, title: str = "") -> dict:
@@ -35,10 +37,18 @@ def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *
         check_not_input(p, [i for i in inputs if i], "out")
     os.makedirs(os.path.dirname(os.path.abspath(paths["compare_json"])), exist_ok=True)
     save(compare_plot(before, after, title), paths["compare_png"])
+    paths = dict(paths)
+    along_png = paths.pop("compare_along_png", None)
+    along_info, along_data = compare_along(before, after)
+    if along_png and along_data is not None:
+        tr_b, tr_a, s_a = along_data
+        save(along_overlay(tr_b, tr_a, s_a), along_png)
+        paths["compare_along_png"] = along_png
     result = dict(result, outputs={k: os.path.basename(v) for k, v in paths.items()})
     write_text_atomic(paths["compare_json"], json.dumps(to_jsonable(result), indent=2, allow_nan=False) + "\n")
-    write_text_atomic(paths["compare_html"], compare_html(result, paths["compare_png"], title))
-    return dict(paths)
+    write_text_atomic(paths["compare_html"], compare_html(result, paths["compare_png"], title,
+                                                          along_png=paths.get("compare_along_png")))
+    return paths
 
 
 def compare_files(baseline: str, after: str, line, *, after_line: str | None = None, limits: Limits | None = None,

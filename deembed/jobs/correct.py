@@ -30,6 +30,8 @@ from ..render import plots
 from ..io.touchstone import read_sweep
 from ..io.jsonfile import to_jsonable
 from ..io.numtext import is_float_table, table_blocks, write_csv_chunks
+from ..analysis.along import for_correction
+from ..render.along import along_plot
 
 
 @dataclass
@@ -59,6 +61,7 @@ def output_paths(sweep_path: str, out_dir: str) -> dict:
         "impedance_png": j(".impedance.png"),
         "return_loss_png": j(".return-loss.png"),
         "budget_png": j(".budget.png"),
+        "along_png": j(".along.png"),
         "report_html": j(".report.html"),
     }
 
@@ -105,6 +108,7 @@ def analyse(sweep, line, opts: Options):
                         sweep_info={"comments": list(getattr(sweep, "comments", ()))})
     budget = budget_columns(corr, opts.power_w) if opts.power_w else None
     table = table_columns(corr, budget)
+    summary["along_the_line"] = for_correction(corr.freq_hz, corr.gamma_analyzer, line)[0]
     if opts.target_hz is not None:
 
         res = summary["feedpoint"].get("resonances_hz") or []
@@ -197,6 +201,11 @@ def write_table_csv(table: dict, path: str) -> None:
 def write_plots(corr, table: dict, paths: dict, opts: Options) -> dict:
 
     figs = plots.correction_plots(corr, table if opts.power_w else None, opts.thresholds)
+    along_info, along_data = for_correction(corr.freq_hz, corr.gamma_analyzer, corr.line)
+    if along_data is not None:
+        trace, along_summary = along_data
+        figs["along_png"] = along_plot(trace, along_summary, "m", described_m=along_summary["length"] and
+                                       along_summary["length"].get("described_length_m"))
     for key, fig in figs.items():
         plots.save(fig, paths[key])
     return {k: paths[k] for k in figs}

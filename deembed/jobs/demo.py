@@ -86,6 +86,11 @@ def run_demo(out_dir: str, echo=print) -> dict:
     summary, _ = locate_file(s("groundplane-30m-wide.s1p"), view, folder, LocateOptions(lowpass=True))
     echo(locate_text(summary, folder) + "\n")
     results["along"] = summary
+    line, _ = line_from_options(line_file=s("groundplane-30m.line.toml"))
+    res = compare_files(s("groundplane-30m-wide-baseline.s1p"), s("groundplane-30m-wide.s1p"), line, out=folder,
+                        title="30 m ground-plane: this year's wide sweep against last year's")
+    echo("-- against last year's wide sweep --\n" + compare_text(res) + "\n")
+    results["along_compare"] = res
 
     echo("== The whole site, every antenna against its baseline (site file) ==")
 

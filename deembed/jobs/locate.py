@@ -18,7 +18,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..analysis import reflections as refl_mod
 from ..base.errors import InputFileError, OptionError
 from ..base.units import FEET_PER_M, parse_delay, parse_length
 from ..io import cables as cables_mod
@@ -29,24 +28,12 @@ from ..io.touchstone import read_sweep, write_touchstone
 from ..physics import runmap as rm
 from ..physics import timedomain as td
 from ..physics.line import LossModel
-from .correct import prepare_out_dir, stem_of
+from ..analysis.along import AlongOptions, along, m_at
+from ..io.atomic import stem_of
+from .correct import prepare_out_dir
 
 
-@dataclass
-class LocateOptions:
-    """What the user asked for beyond the sweep and the line."""
-
-    port: int | None = None
-    lowpass: bool = False
-    beta: float = td.DEFAULT_KAISER_BETA
-    pad: int = td.DEFAULT_PAD
-    threshold_db: float = refl_mod.DEFAULT_THRESHOLD_DB
-    floor_db: float | None = None
-    unit: str = "m"
-    keep: str | None = None
-    remove: str | None = None
-    resolve: str | None = None
-    plots: bool = True
+LocateOptions = AlongOptions
 
 
 @dataclass
@@ -119,120 +106,6 @@ def output_paths(sweep_path: str, out_dir: str) -> dict:
             "gated_s1p": j(".gated.s1p")}
 
 
-def transform(freq_hz, gamma, opts: LocateOptions, source: str = "the sweep"):
-    """(grid, response) for a sweep, or a one-line error naming the file or ``--lowpass``."""
-    grid, why = td.grid_of(freq_hz)
-    if grid is None:
-        raise InputFileError(source, f"cannot be looked at along the line: {why}")
-    if opts.lowpass:
-        ok, why = td.lowpass_check(grid)
-        if not ok:
-            raise OptionError("--lowpass", f"{source}: no low-pass view: {why}; for one, {td.lowpass_hint(grid)}. "
-                                           "Without --lowpass the band-pass view works on this sweep")
-        return grid, td.lowpass(gamma, grid, opts.beta, opts.pad)
-    return grid, td.bandpass(gamma, grid, opts.beta, opts.pad)
-
-
-def _one_way(tau_s, runmap):
-    """Distances (m) of one-way delays, or None when no velocity factor is known."""
-    if runmap is None or not runmap.knows_distance:
-        return None
-    return runmap.distance_m(tau_s)
-
-
-def along(freq_hz, gamma, view: LineView, opts: LocateOptions, source: str = "the sweep") -> tuple[dict, dict]:
-    """The look along the line: (summary, trace). Pure computation; nothing is written."""
-    grid, resp = transform(freq_hz, gamma, opts, source)
-    m = view.runmap
-    found = refl_mod.reflections(resp, grid, m, opts.threshold_db, opts.floor_db, opts.pad, opts.beta)
-    period = td.alias_free_s(grid)
-    width_rt = td.pulse_width_s(grid, opts.beta, resp.mode, opts.pad)
-    shown = resp.t_s < period - 2 * width_rt
-    tau = resp.t_s[shown] / 2
-    dist = _one_way(tau, m)
-    seen = resp.magnitude[shown]
-    trace = {"one_way_delay_s": tau, "distance_m": dist, "seen": seen, "at_point": None,
-             "impulse": None, "step": None, "impedance_ohm": None, "mode": resp.mode}
-    if m is not None and m.has_loss:
-        coarse = np.linspace(0.0, tau[-1], 257)
-        factor = td.two_way_factor(resp.weights, grid.freq_hz, m.loss_np, coarse)
-        trace["at_point"] = seen / np.interp(tau, coarse, factor)
-    if resp.mode == "low-pass":
-        trace["impulse"] = resp.amplitude[shown]
-        step = resp.step[shown]
-        trace["step"] = step
-        with np.errstate(divide="ignore", invalid="ignore"):
-            trace["impedance_ohm"] = np.where(step < 1, 50.0 * (1 + step) / (1 - step), np.inf)
-
-    res_s = td.resolution_s(grid, resp.mode) / 2
-    alias_s = period / 2
-    lp_ok, lp_why = td.lowpass_check(grid)
-    summary = {
-        "sweep": os.path.basename(source),
-        "points": grid.n, "start_hz": grid.start_hz, "stop_hz": grid.stop_hz, "step_hz": grid.step_hz,
-        "mode": resp.mode,
-        "window": {"kind": "kaiser" if opts.beta > 0 else "none", "beta": opts.beta},
-        "padding": opts.pad, "transform_points": int(resp.t_s.size),
-        "line": m.describe() if m is not None else None,
-        "velocity_factor_known": bool(m is not None and m.knows_distance),
-        "resolution_m": _m_at(m, 0.0, res_s),
-        "resolution_ns": res_s * 1e9,
-        "resolution_formula": "v/(2 B), B = stop - start" if resp.mode == "band-pass" else "v/(4 f_stop)",
-        "trace_width_m": _m_at(m, 0.0, width_rt / 2),
-        "trace_width_ns": width_rt / 2 * 1e9,
-        "alias_free_range_m": _m_at(m, 0.0, alias_s),
-        "alias_free_range_ns": alias_s * 1e9,
-        "alias_free_formula": "v/(2 df), df = frequency step",
-        "lowpass_available": lp_ok,
-        "lowpass_why_not": None if lp_ok else f"{lp_why}; for one, {td.lowpass_hint(grid)}",
-        "compensated": found.compensated,
-        "far_end_m": found.length.far_end_m if found.length else None,
-        "far_end_one_way_delay_ns": (found.length.far_end_delay_s * 1e9
-                                     if found.length and found.length.far_end_delay_s is not None else None),
-        "length": found.length.to_dict() if found.length else None,
-        "reflections": [r.to_dict() for r in found.reflections],
-        "threshold_db": opts.threshold_db, "floor_db": opts.floor_db,
-        "notes": list(view.notes) + list(found.notes),
-        "unit": opts.unit,
-    }
-    ln = summary["length"]
-    if ln is not None and view.described_length_m is not None and not summary["velocity_factor_known"] \
-            and ln["far_end_one_way_delay_ns"]:
-        vf_est = refl_mod.vf_from_length(view.described_length_m, ln["far_end_one_way_delay_ns"] * 1e-9)
-        ln["velocity_factor_estimate"] = vf_est
-        ln["described_length_m"] = view.described_length_m
-        ln["verdict"] = (f"with the given length of {view.described_length_m:.1f} m, the far end at "
-                         f"{ln['far_end_one_way_delay_ns']:.1f} ns one way means a velocity factor of {vf_est:.3f} "
-                         f"(+/- {vf_est * res_s / (ln['far_end_one_way_delay_ns'] * 1e-9):.3f} from the resolution)")
-    if m is not None and m.delay_s:
-        ok, text = refl_mod.resolves_line(grid, m.delay_s, length_m=m.length_m)
-        summary["resolves_line"] = ok
-        if not ok:
-            summary["notes"].append(text)
-    if opts.resolve:
-        want = parse_length(opts.resolve, "--resolve", allow_zero=False)
-        vf = _vf_for_needs(m)
-        if vf is None:
-            raise OptionError("--resolve", "the sweep needed for a distance depends on the velocity factor; give "
-                                           "--vf or --cable")
-        reach = max(filter(None, [summary["far_end_m"], view.described_length_m]), default=None)
-        summary["sweep_needed"] = refl_mod.sweep_needed(want, vf, 1.5 * reach if reach else None)
-    return summary, trace
-
-
-def _m_at(m, tau_from: float, span_s: float):
-    if m is None or not m.knows_distance:
-        return None
-    a, b = m.distance_m(np.array([tau_from, tau_from + span_s]))
-    return float(b - a)
-
-
-def _vf_for_needs(m):
-    if m is None or not m.knows_distance:
-        return None
-    return float(m.stretches[0].vf)
-
-
 def gate_window(text: str, option: str, m) -> tuple[float, float]:
     """'2m:40m', '6ft:100ft' or '10ns:200ns' (one way) -> (lo, hi) one-way delays, s."""
     parts = str(text).split(":")
@@ -273,7 +146,7 @@ def gated_sweep(freq_hz, gamma, view: LineView, opts: LocateOptions, source: str
     edge = band_edges(grid.freq_hz, g.droop_db)
     info = {"action": "keep" if opts.keep else "remove", "window": text,
             "from_one_way_ns": lo * 1e9, "to_one_way_ns": hi * 1e9,
-            "from_m": _m_at(view.runmap, 0.0, lo), "to_m": _m_at(view.runmap, 0.0, hi),
+            "from_m": m_at(view.runmap, 0.0, lo), "to_m": m_at(view.runmap, 0.0, hi),
             "edge_width_ns": res_s * 1e9, "band_edge": edge}
     notes = []
     if hi - max(lo, 0.0) < 2 * res_s:

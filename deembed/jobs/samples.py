@@ -163,23 +163,28 @@ length = "40m"
 """
 
 
-def wide_run():
+def wide_run(wet: bool = True):
     """The 30 m ground-plane's feed as it really is: the described jumper and tower run, but with a barrel
     joint 26 m up the tower run (28 m from the analyzer) that has taken in water: 3 ohm of contact
     resistance in series and 25 pF across the line (invented figures)."""
     cat = catalog()
     return Line((cat["rg58"].section(2.0, "analyzer jumper"), cat["rg213"].section(26.0, "tower run, below the joint"),
-                 Joint(series_r_ohm=3.0, shunt_c_f=25e-12, label="wet barrel joint"),
+                 Joint(series_r_ohm=3.0, shunt_c_f=25e-12, label="wet barrel joint") if wet else
+                 Joint(label="barrel joint, sound"),
                  cat["rg213"].section(14.0, "tower run, above the joint")), name="30 m ground-plane feed (as built)")
 
 
-def wide_sweep(rng=None):
+def wide_sweep(rng=None, wet: bool = True):
     """A wide sweep (0.1 to 60 MHz in 100 kHz steps, every point a multiple of the step) of the 30 m
-    ground-plane through :func:`wide_run`: for ``deembed locate``. Returns (freq_hz, gamma)."""
-    rng = rng or np.random.default_rng(SEED + 2)
+    ground-plane through :func:`wide_run`: for ``deembed locate``. ``wet=False`` is the same run swept a
+    year earlier, before the joint took in water (a baseline). Returns (freq_hz, gamma)."""
+    rng = rng or np.random.default_rng(SEED + 2 if wet else SEED + 3)
     f = np.arange(1, 601) * 100e3
     g_ant = rf.gamma_from_z(series_antenna_z(f, 10.12e6, 36.0, 6.0, 1.0))
-    return f, _noisy(embed_gamma(g_ant, wide_run().s_params(f)), rng)
+    g = _noisy(embed_gamma(g_ant, wide_run(wet).s_params(f)), rng)
+    # the antenna is nearly an open at the lowest frequencies: keep the noisy readings physically possible
+    mag = np.abs(g)
+    return f, np.where(mag > 0.998, g * (0.998 / np.maximum(mag, 1e-12)), g)
 
 
 def write_samples(folder: str) -> list[str]:
@@ -201,6 +206,11 @@ def write_samples(folder: str) -> list[str]:
     p = os.path.join(folder, "groundplane-30m-wide.s1p")
     write_touchstone(p, f, g, comments=head + ["wide sweep at the analyzer end: 30 m ground-plane, 0.1-60 MHz",
                                                "(a wet barrel joint part-way up the tower run)"])
+    written.append(p)
+    f, g = wide_sweep(wet=False)
+    p = os.path.join(folder, "groundplane-30m-wide-baseline.s1p")
+    write_touchstone(p, f, g, comments=head + ["wide sweep at the analyzer end: 30 m ground-plane, 0.1-60 MHz",
+                                               "baseline, a year before the joint took in water"])
     written.append(p)
     p = os.path.join(folder, "dipole-40m.line.toml")
     write_text_atomic(p, DIPOLE_LINE_TOML)

@@ -75,7 +75,7 @@ class RunMap:
         if not self.knows_distance:
             return None
         v = np.array([s.vf for s in self.stretches]) * C0_M_PER_S
-        return self._inside(tau_s) @ v
+        return (self._inside(tau_s) * v).sum(axis=1)
 
     def delay_of_distance_s(self, distance_m):
         """Inverse of :meth:`distance_m` (array of metres to one-way delay, s)."""
@@ -86,13 +86,13 @@ class RunMap:
         lengths[-1] = np.inf
         start_m = np.concatenate([[0.0], np.cumsum(lengths)[:-1]])
         inside = np.clip(dist[:, None] - start_m[None, :], 0.0, lengths[None, :])
-        return inside @ (1.0 / v)
+        return (inside / v).sum(axis=1)
 
     def loss_np(self, tau_s, freq_hz):
         """One-way matched loss from the analyzer to each delay, Np: shape (len(tau), len(freq))."""
         inside = self._inside(tau_s)
-        c = inside @ np.array([s.c_np_per_s for s in self.stretches])
-        d = inside @ np.array([s.d_np_per_s for s in self.stretches])
+        c = (inside * np.array([s.c_np_per_s for s in self.stretches])).sum(axis=1)
+        d = (inside * np.array([s.d_np_per_s for s in self.stretches])).sum(axis=1)
         f = np.atleast_1d(np.asarray(freq_hz, dtype=float))
         return c[:, None] * np.sqrt(f)[None, :] + d[:, None] * f[None, :]
 

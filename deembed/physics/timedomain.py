@@ -319,4 +319,4 @@ def two_way_factor(weights, freq_hz, loss_np_fn, delays_s) -> np.ndarray:
     ``loss_np_fn(delays, freq)`` returns the one-way matched loss in Np, shape (len(delays), len(freq)).
     """
     a = loss_np_fn(np.atleast_1d(np.asarray(delays_s, dtype=float)), np.asarray(freq_hz, dtype=float))
-    return np.exp(-2.0 * a) @ np.asarray(weights, dtype=float)
+    return (np.exp(-2.0 * a) * np.asarray(weights, dtype=float)).sum(axis=1)  # no BLAS call for a thin product

@@ -44,10 +44,12 @@ def _x_of(refl: dict, unit: str, by_distance: bool):
 
 
 def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float | None = None,
-               other: dict | None = None, labels=("seen at the analyzer", "at its place (line loss taken off)")):
+               other: dict | None = None, labels=("seen at the analyzer", "at its place (line loss taken off)"),
+               colours=(AT_POINT_COLOUR, "#9aa7b3")):
     """Reflection level along the line (dB), with the reflections marked; low-pass adds the impedance.
 
-    ``other`` is a second trace (same keys) drawn for comparison (a baseline sweep).
+    ``other`` is a second trace (same keys) drawn for comparison (a baseline sweep); both are then drawn as
+    seen at the analyzer, ``labels`` and ``colours`` naming (this trace, the other).
     """
     from matplotlib.figure import Figure
 
@@ -62,8 +64,8 @@ def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float |
     if other is not None:
         ox, _ = _x(other, unit)
         with np.errstate(divide="ignore"):
-            ax.plot(ox, 20 * np.log10(other["seen"]), color="#9aa7b3", lw=1.3, ls="--", label=labels[1])
-        ax.plot(x, seen_db, color=AT_POINT_COLOUR, lw=1.6, label=labels[0])
+            ax.plot(ox, 20 * np.log10(other["seen"]), color=colours[1], lw=1.4, ls="--", label=labels[1])
+        ax.plot(x, seen_db, color=colours[0], lw=1.7, label=labels[0])
     else:
         ax.plot(x, seen_db, color=SEEN_COLOUR, lw=1.4, ls="--" if at_db is not None else "-", label=labels[0])
         if at_db is not None:
@@ -95,7 +97,7 @@ def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float |
         ax.annotate(text, (xr, yr), textcoords="offset points", xytext=(0, 7 + 11 * (k % 2)), ha="center",
                     fontsize=8)
     finite = seen_db[np.isfinite(seen_db)]
-    top = 3.0
+    top = 9.0
     bottom = max(float(np.min(finite)) if finite.size else -80.0, -80.0)
     if summary.get("reflections"):
         weakest = min(-(r["return_loss_at_point_db"] or r["return_loss_db"]) for r in summary["reflections"])
@@ -168,6 +170,25 @@ def length_text(ln: dict, unit: str = "m") -> str:
     diff = fe - desc
     return head + (f"{fmt_dist(abs(diff), unit)} {'longer' if diff > 0 else 'shorter'} than described, more than the "
                    "resolution: check the length, the velocity factor, or what is at the end")
+
+
+def along_line_text(info: dict) -> str:
+    """One line for ``correct``'s summary: the far end against the description and what else is on the way."""
+    if not info.get("resolves_line"):
+        return info.get("text", "")
+    ln = info.get("length") or {}
+    head = ln.get("verdict") or info.get("text", "")
+    before = []
+    for r in info.get("reflections", []):
+        if r.get("far_end"):
+            break
+        if r.get("distance_m") is None or (info.get("resolution_m") and r["distance_m"] < info["resolution_m"]):
+            continue  # the analyzer's own connection
+        rl = r["return_loss_at_point_db"] if r.get("return_loss_at_point_db") is not None else r["return_loss_db"]
+        before.append(f"{r['distance_m']:.1f} m (return loss {rl:.1f} dB there)")
+    if before:
+        head += "; on the way: " + ", ".join(before)
+    return head
 
 
 def locate_text(summary: dict, out_dir: str | None = None) -> str:

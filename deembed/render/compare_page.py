@@ -14,6 +14,7 @@ from .plots import finish, smith_frame, smith_grid, smith_trace, swr_scale
 from .text import compare_text
 from ..analysis.limits import FIELD_OF_JSON, LIMIT_NAMES
 from ..base.verdicts import TEXT as VERDICT_TEXT, WITHIN
+from .along import along_plot
 
 BEFORE_COLOUR = "#3f51a3"
 AFTER_COLOUR = "#d19a1c"
@@ -49,7 +50,13 @@ def compare_plot(before, after, title: str = ""):
     return fig
 
 
-def compare_html(result: dict, png_path: str | None = None, title: str = "") -> str:
+def along_overlay(trace_before: dict, trace_after: dict, summary_after: dict):
+    """Both sweeps along the line on one chart (baseline and after-work colours), the largest change marked."""
+    return along_plot(trace_after, summary_after, "m", other=trace_before, labels=(AFTER_LABEL, BEFORE_LABEL),
+                      colours=(AFTER_COLOUR, BEFORE_COLOUR))
+
+
+def compare_html(result: dict, png_path: str | None = None, title: str = "", along_png: str | None = None) -> str:
     """A small self-contained page (the plot embedded as data) with the numbers, verdict and cause."""
     import base64
 
@@ -60,6 +67,11 @@ def compare_html(result: dict, png_path: str | None = None, title: str = "") -> 
         with open(png_path, "rb") as fh:
             data = base64.b64encode(fh.read()).decode("ascii")
         img = f'<img alt="overlay of baseline and after-work sweeps" src="data:image/png;base64,{data}">'
+    if along_png and os.path.isfile(along_png):
+        with open(along_png, "rb") as fh:
+            data = base64.b64encode(fh.read()).decode("ascii")
+        img += (f'<h2>Along the line</h2><p>{e(result.get("along_the_line", {}).get("text", ""))}</p>'
+                f'<img alt="baseline and after-work sweeps along the line" src="data:image/png;base64,{data}">')
     v = result["verdict"]
     if v["status"] == WITHIN:
         badge = f'<p class="ok">{VERDICT_TEXT[WITHIN]}</p>'

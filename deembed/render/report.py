@@ -495,6 +495,45 @@ def _plots(corr, table: dict, summary: dict, written: dict) -> str:
 </section>"""
 
 
+def _along(summary: dict, written: dict) -> str:
+    """The "along the line" section: where reflections sit when the sweep resolves the line, otherwise the
+    one line saying what sweep would."""
+    info = summary.get("along_the_line")
+    if not info:
+        return ""
+    if not info.get("resolves_line"):
+        return f"""
+<section id="along">
+  <h2>Along the line</h2>
+  <p>{_e(info.get("text", ""))}</p>
+</section>"""
+    rows = "".join(
+        "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>".format(
+            _e(f"{r['distance_m']:.1f} m" if r.get("distance_m") is not None else f"{r['one_way_delay_ns']:.1f} ns"),
+            _e(f"{r['return_loss_db']:.1f} dB"),
+            _e(f"{r['return_loss_at_point_db']:.1f} dB" if r.get("return_loss_at_point_db") is not None else "n/a"),
+            _e(r.get("kind") or ""))
+        for r in info.get("reflections", []))
+    length = (info.get("length") or {}).get("verdict", "")
+    fig = ""
+    path = written.get("along_png")
+    if path and os.path.isfile(path):
+        with open(path, "rb") as fh:
+            fig = (f'<figure class="fig"><img src="{_png_data_uri(fh.read())}" alt="Reflection along the line">'
+                   "<figcaption>Reflection along the line, as seen at the analyzer (dashed) and at its place "
+                   "(line loss taken off); the dotted line is the described length.</figcaption></figure>")
+    return f"""
+<section id="along">
+  <h2>Along the line</h2>
+  <p>{_e(info.get("text", "")[:1].upper() + info.get("text", "")[1:])}; {_e(info.get("mode", "band-pass"))} transform
+     of the analyzer-end sweep. {_e(length[:1].upper() + length[1:])}.</p>
+  <table><thead><tr><th>where</th><th>return loss seen</th><th>at the point</th><th>likely</th></tr></thead>
+  <tbody>{rows}</tbody></table>
+  {fig}
+  <p class="small">See <code>deembed locate</code> for the full look along the line, gating and the low-pass view.</p>
+</section>"""
+
+
 def _safety() -> str:
     lis = "".join(f"<li><strong>{_e(h)}.</strong> {_e(t)}</li>" for h, _, t in SAFETY_ITEMS)
     return f"""
@@ -659,6 +698,7 @@ def report_html(corr, summary: dict, table: dict | None = None, written: dict | 
         _line(summary, corr, fq),
         _findings(summary, fq),
         _plots(corr, table or {}, summary, written or {}),
+        _along(summary, written or {}),
         _safety(),
         _footer(written or {}, run_time),
     ])

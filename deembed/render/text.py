@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 from ..base.units import fmt_freq
+from .along import along_line_text
 import os
 import sys
 from ..analysis.between import between_text
@@ -84,6 +85,10 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
         lines.append(f"\npower   {power['transmitter_w']:g} W at {fmt_freq(power['at_freq_hz'], 6)}: "
                      f"{power['delivered_w']:.1f} W into the antenna, {power['line_dissipated_w']:.1f} W lost in the line, "
                      f"{power['reflected_at_tx_w']:.2f} W back at the transmitter")
+    along = summary.get("along_the_line")
+    if along:
+        lines.append("")
+        lines.append("along the line: " + along_line_text(along))
     if summary.get("warnings"):
         lines.append("")
         lines += [f"warning: {w}" for w in summary["warnings"]]
@@ -195,6 +200,9 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
         lines.append(f"verdict  {VERDICT_TEXT[v['status']]} ({names})")
         lines += [f"         - {r}" for r in v["reasons"]]
     lines.append(f"cause    {result['cause']['code']}: {result['cause']['text']}")
+    along = result.get("along_the_line")
+    if along:
+        lines.append(f"along    {along['text']}")
     lines += [f"note: {n}" for n in result["notes"]]
     return "\n".join(lines)
 
