@@ -19,6 +19,7 @@ import pytest
 from deembed.cli.app import main
 from deembed.io.history import SCHEMA_VERSION, open_store
 from deembed.jobs import sample_history as sh
+from history_backends import store_target  # noqa: F401  (fixture)
 
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLES = ROOT / "sample_sweeps"
@@ -212,3 +213,21 @@ def test_site_sweep_tables_are_checked(tmp_path, station, capsys):
     code, _, _ = run(capsys, "site", station / "s.site.toml", "--out", tmp_path / "o3", "--workers", "1",
                      "--no-record")
     assert code == 0 and not (tmp_path / "o3" / "trend").exists()
+
+
+def test_record_and_trend_through_either_store(store_target, station, tmp_path, capsys):
+    """The same commands against SQLite and a real PostgreSQL server (a URL): three dated runs of one
+    feed, the JSON read back; hostile text in --name reaches the store intact."""
+    name = "2 m vertical'); DROP TABLE deembed_sweeps; --"
+    line = station / "vertical-2m.line.toml"
+    for sweep, date in (("vertical-2m.s1p", "2025-01-10"), ("vertical-2m-after.s1p", "2025-07-10"),
+                        ("vertical-2m-wet.s1p", "2026-01-10")):
+        code, out, err = run(capsys, "correct", station / sweep, "--line", line, "--out", tmp_path / "c", "--no-plots",
+                             "--record", store_target.target, "--date", date, "--name", name)
+        assert code == 0, err
+    code, out, err = run(capsys, "trend", store_target.target, "--out", tmp_path / "t", "--json")
+    assert code in (0, 1), err
+    (entry,) = json.loads(out)["entries"]
+    assert entry["name"] == name and entry["runs"] == 3
+    with open_store(store_target.target, create=False) as st:
+        assert [r.sweep_date for r in st.sweeps(antenna=name)] == ["2025-01-10", "2025-07-10", "2026-01-10"]

@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from deembed.analysis.trend import (STEP_FLOOR, Series, TrendLimits, entry_trend, parse_trend_limits, step_flags,
-                                    weighted_slope, years_since)
+from deembed.analysis.trend import (STEP_ALPHA, STEP_FLOOR, STEP_MIN_EARLIER, Series, TrendLimits, entry_trend,
+                                    parse_trend_limits, step_flags, step_predictions, weighted_slope, years_since)
 from deembed.base.errors import OptionError
 
 
@@ -126,6 +126,33 @@ def test_step_the_trend_does_not_explain():
     quiet[6] += STEP_FLOOR["min_swr"] * 0.9
     quiet[:6] += np.array([1, -1, 1, -1, 1, -1]) * 1e-4
     assert step_flags(Series("min_swr", tuple(DATES), tuple(quiet), (None,) * 7, (None,) * 7), DATES[0]) == []
+
+
+def test_step_predictions_match_a_fit_per_run():
+    """The one-pass prediction of each run from the runs before it against scipy.stats.linregress on
+    those runs and the textbook prediction interval of a new observation,
+    s * sqrt(1 + 1/n + (x0 - xbar)^2 / Sxx) (Montgomery & Runger, Applied Statistics and Probability
+    for Engineers, sec. 11-7, from memory); and, with intervals, against numpy.polyfit with weights."""
+    rng = np.random.default_rng(21)
+    dates = [f"{2010 + k // 2}-{'03' if k % 2 == 0 else '09'}-15" for k in range(14)]
+    t = years_since(dates)
+    y = 145.6e6 + 3e3 * t + rng.normal(0, 2e4, t.size)
+    p = step_predictions(Series("resonance_hz", tuple(dates), tuple(y), (None,) * 14, (None,) * 14), dates[0])
+    assert list(p["index"]) == list(range(STEP_MIN_EARLIER, 14))
+    for j, i in enumerate(p["index"]):
+        ref = stats.linregress(t[:i], y[:i])
+        s = np.sqrt(np.sum((y[:i] - ref.intercept - ref.slope * t[:i]) ** 2) / (i - 2))
+        sxx = np.sum((t[:i] - t[:i].mean()) ** 2)
+        assert p["pred"][j] == pytest.approx(ref.intercept + ref.slope * t[i], rel=1e-12)
+        assert p["sd"][j] == pytest.approx(s * np.sqrt(1 + 1 / i + (t[i] - t[:i].mean()) ** 2 / sxx), rel=1e-7)
+        assert p["k"][j] == pytest.approx(stats.t.ppf(1 - STEP_ALPHA / 2, i - 2), rel=1e-12)
+    sig = rng.uniform(1e4, 3e4, t.size)
+    iv = Series("resonance_hz", tuple(dates), tuple(y), tuple(y - 1.959963984540054 * sig),
+                tuple(y + 1.959963984540054 * sig))
+    p = step_predictions(iv, dates[0])
+    for j, i in enumerate(p["index"]):
+        coef = np.polyfit(t[:i], y[:i], 1, w=1 / sig[:i])
+        assert p["pred"][j] == pytest.approx(np.polyval(coef, t[i]), rel=1e-12)
 
 
 def test_json_form_has_exactly_the_listed_keys():

@@ -275,41 +275,73 @@ def _rate(q: str, v: float) -> str:
     return f"{v:+.3f}/yr"
 
 
-def step_flags(series: Series, origin: str) -> list:
-    """Runs the earlier trend does not explain (see the module notes)."""
+def step_predictions(series: Series, origin: str) -> dict:
+    """For every run i with at least :data:`STEP_MIN_EARLIER` runs before it: what the straight line
+    through runs 0..i-1 predicts, that prediction's standard uncertainty (the fit's and the new run's
+    together) and the coverage factor for :data:`STEP_ALPHA`.
+
+    All runs at once: the weighted line through runs 0..i-1 comes from prefix sums (the same normal
+    equations as :func:`weighted_slope`), so a long history costs one pass, not one fit per run.
+
+    Returns
+    -------
+    dict
+        ``index``, ``value``, ``pred``, ``sd``, ``k``, ``usable`` (arrays over the tested runs).
+    """
     from scipy import stats
 
+    n = len(series.values)
+    if n <= STEP_MIN_EARLIER:
+        e = np.array([])
+        return {"index": e.astype(int), "value": e, "pred": e, "sd": e, "k": e, "usable": e.astype(bool)}
+    t = years_since(series.dates, origin)
+    y0 = float(series.values[0])
+    y = np.array(series.values, float) - y0          # shifted: sums of squares stay well conditioned
+    sig = series.sigmas()
+    w = np.ones(n) if sig is None else 1.0 / sig ** 2
+    c = lambda v: np.concatenate(([0.0], np.cumsum(v)))  # noqa: E731  c(v)[i] = sum of v over runs 0..i-1
+    S, Sx, Sy, Sxx, Sxy, Syy = c(w), c(w * t), c(w * y), c(w * t * t), c(w * t * y), c(w * y * y)
+    i = np.arange(STEP_MIN_EARLIER, n)
+    S, Sx, Sy, Sxx, Sxy, Syy = S[i], Sx[i], Sy[i], Sxx[i], Sxy[i], Syy[i]
+    D = S * Sxx - Sx ** 2
+    spread = Sxx - Sx ** 2 / S                        # sum of w (t - tc)^2 over the earlier runs
+    ok = spread > 1e-12 * np.maximum(Sxx, 1e-300)
+    D = np.where(ok, D, 1.0)
+    b = (S * Sxy - Sx * Sy) / D
+    a = (Sxx * Sy - Sx * Sxy) / D
+    dof = i - 2
+    chi2 = np.maximum(Syy - a * Sy - b * Sxy, 0.0)    # sum of w r^2 at the least-squares solution
+    red = chi2 / dof
+    if sig is None:
+        scale, var_new = red, red
+        k = stats.t.ppf(1 - STEP_ALPHA / 2, dof)
+    else:
+        scale = np.maximum(red, 1.0)
+        var_new = sig[i] ** 2 * scale
+        k = np.full(i.size, stats.norm.ppf(1 - STEP_ALPHA / 2))
+    tc = Sx / S
+    var_fit = scale * (1 / S + (t[i] - tc) ** 2 / np.where(ok, spread, 1.0))
+    return {"index": i, "value": y[i] + y0, "pred": a + b * t[i] + y0, "sd": np.sqrt(var_fit + var_new), "k": k,
+            "usable": ok}
+
+
+def step_flags(series: Series, origin: str) -> list:
+    """Runs the earlier trend does not explain (see the module notes and :func:`step_predictions`)."""
+    p = step_predictions(series, origin)
+    diff = p["value"] - p["pred"]
+    if series.quantity == "resonance_hz":
+        floor = STEP_FLOOR["resonance_fraction"] * np.abs(p["pred"])
+    else:
+        floor = np.full(diff.size, STEP_FLOOR.get(series.quantity, 0.0))
+    hit = p["usable"] & (np.abs(diff) > p["k"] * p["sd"]) & (np.abs(diff) > floor)
     out = []
-    t_all = years_since(series.dates, origin) if series.dates else np.array([])
-    y_all = np.array(series.values, float)
-    sig_all = series.sigmas()
-    for i in range(STEP_MIN_EARLIER, len(series.values)):
-        t, y = t_all[:i], y_all[:i]
-        if np.ptp(t) == 0:
-            continue
-        sig = sig_all[:i] if sig_all is not None else None
-        fit = weighted_slope(t, y, sig)
-        w = 1 / sig ** 2 if sig is not None else np.ones(i)
-        tc = float(np.sum(w * t) / np.sum(w))
-        if sig is None:  # equal weights: the scatter of the earlier runs is the noise
-            scale = float(np.sum((y - fit.predict(t)) ** 2) / (i - 2))
-            var_new = scale
-        else:
-            scale = max(fit.chi2_reduced or 1.0, 1.0)
-            var_new = float(sig_all[i] ** 2) * scale
-        # variance of the fit's prediction at t_i (centred intercept and slope are uncorrelated)
-        var_fit = scale * (1 / np.sum(w) + (t_all[i] - tc) ** 2 / np.sum(w * (t - tc) ** 2))
-        sd = math.sqrt(var_fit + var_new)
-        pred = float(fit.predict(t_all[i]))
-        diff = float(y_all[i] - pred)
-        k = float(stats.t.ppf(1 - STEP_ALPHA / 2, i - 2)) if sig is None else float(stats.norm.ppf(1 - STEP_ALPHA / 2))
-        floor = STEP_FLOOR["resonance_fraction"] * abs(pred) if series.quantity == "resonance_hz" \
-            else STEP_FLOOR.get(series.quantity, 0.0)
-        if abs(diff) > k * sd and abs(diff) > floor:
-            out.append({"quantity": series.quantity, "kind": "step", "date": series.dates[i],
-                        "reason": f"step on {series.dates[i]}: {_fmt(series.quantity, y_all[i])} where the trend of "
-                                  f"the {i} runs before predicts {_fmt(series.quantity, pred)} "
-                                  f"({_sign(series.quantity, diff)}, more than the noise and the trend explain)"})
+    q = series.quantity
+    for j in np.flatnonzero(hit):
+        run = int(p["index"][j])
+        out.append({"quantity": q, "kind": "step", "date": series.dates[run],
+                    "reason": f"step on {series.dates[run]}: {_fmt(q, p['value'][j])} where the trend of the {run} "
+                              f"runs before predicts {_fmt(q, p['pred'][j])} ({_sign(q, diff[j])}, more than "
+                              "the noise and the trend explain)"})
     return out
 
 
@@ -379,4 +411,4 @@ def entry_trend(name: str, runs, limits: TrendLimits | None = None) -> EntryTren
 
 
 __all__ = ["EntryTrend", "QUANTITIES", "Series", "SlopeFit", "TrendLimits", "entry_trend", "parse_trend_limits",
-           "step_flags", "trend_flags", "weighted_slope", "years_since"]
+           "step_flags", "step_predictions", "trend_flags", "weighted_slope", "years_since"]

@@ -56,9 +56,10 @@ To change the schema: bump ``SCHEMA_VERSION``, change ``_SCHEMA`` (what a new st
 Concurrency
 -----------
 Each :meth:`HistoryStore.record` call is one transaction. On SQLite it starts with ``BEGIN IMMEDIATE``
-(one writer at a time; others wait up to :data:`SQLITE_BUSY_TIMEOUT_S`); on PostgreSQL it takes a
-transaction-level advisory lock first, so two first runs do not race to create the tables. Two runs
-writing the same store at once therefore both land, each whole.
+(one writer at a time; others wait up to :data:`SQLITE_BUSY_TIMEOUT_S`). On PostgreSQL writers run side
+by side (row-level conflicts on the same sweep are settled by ``ON CONFLICT DO NOTHING``); only creating
+or upgrading the schema takes a transaction-level advisory lock, so two first runs do not race to create
+the tables. Two runs writing the same store at once therefore both land, each whole.
 """
 from __future__ import annotations
 
@@ -225,6 +226,9 @@ class _SQLite:
     def begin(self, write: bool):
         self.conn.execute("BEGIN IMMEDIATE" if write else "BEGIN")
 
+    def lock_schema(self):
+        pass  # BEGIN IMMEDIATE already holds the database's one write lock
+
     def execute(self, sql: str, params=()):
         return self.conn.execute(sql, tuple(params))
 
@@ -262,9 +266,11 @@ class _Postgres:
         self.errors = (psycopg.Error,)
 
     def begin(self, write: bool):
-        # psycopg opens a transaction at the first statement; writers queue on one advisory lock
-        if write:
-            self.conn.execute("SELECT pg_advisory_xact_lock(%s)", (PG_LOCK_KEY,))
+        pass  # psycopg opens a transaction at the first statement
+
+    def lock_schema(self):
+        """Serialise schema creation and upgrades between writers (held until the transaction ends)."""
+        self.conn.execute("SELECT pg_advisory_xact_lock(%s)", (PG_LOCK_KEY,))
 
     def execute(self, sql: str, params=()):
         return self.conn.execute(sql.replace("?", "%s"), tuple(params))
@@ -367,7 +373,11 @@ class HistoryStore:
         try:
             self._db.begin(True)
             try:
-                self._prepare(self._version())
+                version = self._version()
+                if version != SCHEMA_VERSION:  # create or upgrade: one writer at a time, then look again
+                    self._db.lock_schema()
+                    version = self._version()
+                self._prepare(version)
                 result = body()
                 self._db.commit()
                 return result
