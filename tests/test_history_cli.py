@@ -72,7 +72,7 @@ def test_site_records_beside_the_site_file_once_and_links_trends(history_copy, t
     assert code in (0, 1), err
     store = history_copy / "years.history.sqlite"
     rows = _rows(store)
-    assert len(rows) == 8 and {r.date_source for r in rows} == {"site-file"}
+    assert len(rows) == 8 and {r.date_source for r in rows} == {"site_file"}
     assert sorted({r.sweep_date for r in rows}) == sorted(sh.SWEEP_DATES[::2])
     assert "8 new sweep(s), 0 already there" in out
     index = (tmp_path / "o1" / "index.html").read_text()
@@ -126,12 +126,14 @@ def test_correct_and_compare_record_with_dates_and_names(station, tmp_path, caps
                          "--baseline-date", "2026-01-10", "--name", "2 m vertical", "--json")
     assert code in (0, 1), err
     assert "1 new sweep(s), 1 already there" in err  # the baseline was recorded by correct already
-    json.loads(out)  # standard output stays pure JSON
+    result = json.loads(out)  # standard output stays pure JSON
     rows = _rows(store)
     assert [(r.antenna, r.sweep_date, r.role) for r in rows] == [("2 m vertical", "2026-01-10", "single"),
                                                                   ("2 m vertical", "2026-06-01", "latest")]
     wet = rows[1]
-    assert wet.diagnosis_code == "line" and wet.verdict in ("within-limits", "outside-limits")
+    assert (wet.verdict, wet.cause_code, wet.cause_text) == (result["verdict"]["status"], result["cause"]["code"],
+                                                             result["cause"]["text"])
+    assert wet.cause_code == "line" and (code == 1) == (wet.verdict == "outside_limits")
     # the wet run's loss: the description plus the fitted change, about half as much again (+50 %)
     assert wet.value("line_loss_db").value == pytest.approx(1.5 * rows[0].value("line_loss_db").value, rel=0.05)
 
@@ -143,7 +145,7 @@ def test_missing_date_uses_file_time_and_is_flagged(station, tmp_path, capsys):
     assert code == 0, err
     assert "modification time" in out
     (r,) = _rows(store)
-    assert r.date_source == "file-mtime" and r.antenna == "dipole-40m"
+    assert r.date_source == "file_mtime" and r.antenna == "dipole-40m"
     code, out, _ = run(capsys, "trend", store, "--out", tmp_path / "t")
     assert code == 0 and "dated by the file's modification time" in out
     assert "file time" in (tmp_path / "t" / "dipole-40m.trend.html").read_text()
@@ -209,7 +211,7 @@ def test_site_sweep_tables_are_checked(tmp_path, station, capsys):
     code, out, err = run(capsys, "site", station / "s.site.toml", "--out", tmp_path / "o2", "--workers", "1")
     assert code == 0, out + err
     rows = _rows(station / "s.history.sqlite")
-    assert {(r.role, r.date_source) for r in rows} == {("baseline", "site-file"), ("latest", "file-mtime")}
+    assert {(r.role, r.date_source) for r in rows} == {("baseline", "site_file"), ("latest", "file_mtime")}
     code, _, _ = run(capsys, "site", station / "s.site.toml", "--out", tmp_path / "o3", "--workers", "1",
                      "--no-record")
     assert code == 0 and not (tmp_path / "o3" / "trend").exists()

@@ -39,8 +39,8 @@ def _record(i: int, *, site="Ridgeback Hill", antenna="2 m vertical", rng=None, 
     return SweepRecord(site=site + text, antenna=antenna + text,
                        sweep_sha256=hashlib.sha256(f"sweep {i} {text}".encode()).hexdigest(),
                        sweep_file=f"sweeps/vertical-{i}{text}.s1p", sweep_date=f"202{i % 7}-0{1 + i % 9}-1{i % 10}",
-                       date_source="site-file", role="latest", line="45 m RG-213" + text, values=vals,
-                       verdict="outside-limits", diagnosis_code="line", diagnosis_text="looks like the line" + text,
+                       date_source="site_file", role="latest", line="45 m RG-213" + text, values=vals,
+                       verdict="outside_limits", cause_code="line", cause_text="looks like the line" + text,
                        baseline_sha256=hashlib.sha256(b"base").hexdigest())
 
 

@@ -33,13 +33,6 @@ from .compare import fitted_resonance
 from ..io.history import Value
 
 
-
-
-def _gamma_feedpoint(corr):
-    g = getattr(corr, "gamma_feedpoint", None)
-    return corr.gamma_feedpoint if g is None else g
-
-
 def _num(x):
     if x is None:
         return None
@@ -86,7 +79,7 @@ def sweep_values(corr, summary: dict, comparison: dict | None = None) -> tuple:
     near = (fp.get("min_swr") or {}).get("freq_hz")
     res = None
     if near is not None:
-        res = fitted_resonance(corr.freq_hz, _gamma_feedpoint(corr), near)
+        res = fitted_resonance(corr.freq_hz, corr.gamma_feedpoint, near)
     out.append(_v("resonance_hz", res, "Hz", "quadratic fit of X(f) near the lowest SWR", block=fp,
                   key="resonance_hz"))
     for i, r in enumerate(fp.get("resonances_hz") or []):
@@ -132,11 +125,10 @@ def sweep_values(corr, summary: dict, comparison: dict | None = None) -> tuple:
 
 
 def verdict_of(comparison: dict | None):
-    """(verdict, diagnosis code, diagnosis text) of a comparison, or three None."""
+    """(verdict status, cause code, cause text) of a comparison, or three None."""
     if comparison is None:
         return None, None, None
-    v = comparison.get("verdict") or {}
-    verdict = "within-limits" if v.get("within_limits") else "outside-limits"
+    verdict = (comparison.get("verdict") or {}).get("status")
     d = comparison.get("cause") or {}
     return verdict, d.get("code"), d.get("text")
 

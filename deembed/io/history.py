@@ -22,11 +22,11 @@ Schema (version 1)
                     site, antenna, sweep_sha256          TEXT    primary key (the three together)
                     sweep_file                           TEXT    the path as given when recorded
                     sweep_date                           TEXT    YYYY-MM-DD
-                    date_source                          TEXT    site-file | option | file-mtime
+                    date_source                          TEXT    site_file | option | file_mtime
                     role                                 TEXT    baseline | latest | single
                     line                                 TEXT    the line's description
-                    verdict                              TEXT    within-limits | outside-limits | NULL
-                    diagnosis_code, diagnosis_text       TEXT    the comparison's cause, or NULL
+                    verdict                              TEXT    within_limits | outside_limits | NULL
+                    cause_code, cause_text               TEXT    the comparison's cause, or NULL
                     baseline_sha256                      TEXT    the sweep it was compared with, or NULL
                     recorded_at                          TEXT    UTC, ISO 8601, when first recorded
                     tool_version                         TEXT    deembed's version that recorded it
@@ -81,7 +81,7 @@ SQLITE_BUSY_TIMEOUT_S = 120.0
 
 PG_LOCK_KEY = 0x6465656D62  # "deemb": the advisory lock that serialises writers on PostgreSQL
 
-DATE_SOURCES = ("site-file", "option", "file-mtime")
+DATE_SOURCES = ("site_file", "option", "file_mtime")
 ROLES = ("baseline", "latest", "single")
 
 _SCHEMA = (
@@ -90,7 +90,7 @@ _SCHEMA = (
     " site TEXT NOT NULL, antenna TEXT NOT NULL, sweep_sha256 TEXT NOT NULL,"
     " sweep_file TEXT NOT NULL, sweep_date TEXT NOT NULL, date_source TEXT NOT NULL,"
     " role TEXT NOT NULL, line TEXT NOT NULL,"
-    " verdict TEXT, diagnosis_code TEXT, diagnosis_text TEXT, baseline_sha256 TEXT,"
+    " verdict TEXT, cause_code TEXT, cause_text TEXT, baseline_sha256 TEXT,"
     " recorded_at TEXT NOT NULL, tool_version TEXT NOT NULL,"
     " PRIMARY KEY (site, antenna, sweep_sha256))",
     "CREATE TABLE deembed_values ("
@@ -110,7 +110,7 @@ Empty while version 1 is the only one there has been."""
 _TABLES = ("deembed_meta", "deembed_sweeps", "deembed_values")
 
 _SWEEP_COLS = ("site", "antenna", "sweep_sha256", "sweep_file", "sweep_date", "date_source", "role", "line",
-               "verdict", "diagnosis_code", "diagnosis_text", "baseline_sha256", "recorded_at", "tool_version")
+               "verdict", "cause_code", "cause_text", "baseline_sha256", "recorded_at", "tool_version")
 _VALUE_COLS = ("site", "antenna", "sweep_sha256", "quantity", "idx", "value", "low", "high", "unit", "method")
 
 
@@ -141,8 +141,8 @@ class SweepRecord:
     line: str
     values: tuple = ()
     verdict: str | None = None
-    diagnosis_code: str | None = None
-    diagnosis_text: str | None = None
+    cause_code: str | None = None
+    cause_text: str | None = None
     baseline_sha256: str | None = None
     recorded_at: str = ""
     tool_version: str = ""

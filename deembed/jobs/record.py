@@ -2,7 +2,7 @@
 
 A sweep's date comes from, in this order: the site file (``{ file = "...", date = "YYYY-MM-DD" }``),
 ``--date``, or the file's modification time as a last resort, which the store marks
-(``date_source = "file-mtime"``) and the trend page flags.
+(``date_source = "file_mtime"``) and the trend page flags.
 """
 from __future__ import annotations
 
@@ -19,7 +19,7 @@ def sweep_date(path: str, given: str | None, source: str = "option") -> tuple[st
     """(date, date source): the given date, else the file's modification day (local time)."""
     if given:
         return given, source
-    return _dt.date.fromtimestamp(os.path.getmtime(path)).isoformat(), "file-mtime"
+    return _dt.date.fromtimestamp(os.path.getmtime(path)).isoformat(), "file_mtime"
 
 
 def build_record(*, site: str, antenna: str, sweep_path: str, date: str, date_source: str, role: str, corr,
@@ -30,8 +30,8 @@ def build_record(*, site: str, antenna: str, sweep_path: str, date: str, date_so
     return SweepRecord(
         site=site, antenna=antenna, sweep_sha256=sha256 or file_sha256(sweep_path), sweep_file=str(sweep_path),
         sweep_date=date, date_source=date_source, role=role, line=corr.line.describe(),
-        values=sweep_values(corr, summary, comparison), verdict=verdict, diagnosis_code=code,
-        diagnosis_text=text, baseline_sha256=baseline_sha256)
+        values=sweep_values(corr, summary, comparison), verdict=verdict, cause_code=code,
+        cause_text=text, baseline_sha256=baseline_sha256)
 
 
 def record(target: str, records) -> dict:
@@ -77,7 +77,7 @@ def record_comparison(target: str, before, after, result: dict, baseline_path: s
 
 def recorded_text(info: dict) -> str:
     """One line saying what was recorded where."""
-    flag = " (date from the file's modification time: give --date)" if info.get("date_source") == "file-mtime" else ""
+    flag = " (date from the file's modification time: give --date)" if info.get("date_source") == "file_mtime" else ""
     return (f"recorded {info['antenna']} {info['date']}{flag} into {info['store']}: {info['added']} new sweep(s), "
             f"{info['already']} already there")
 

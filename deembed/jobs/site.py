@@ -90,7 +90,7 @@ def _run_antenna(job: AntennaJob) -> dict:
               "comparisons": []}
     records = []
     if job.record:
-        d, src = sweep_date(baseline, files.dates.get(baseline), "site-file")
+        d, src = sweep_date(baseline, files.dates.get(baseline), "site_file")
         records.append(build_record(site=job.site_name, antenna=job.name, sweep_path=baseline, date=d,
                                     date_source=src, role="baseline", corr=base_corr, summary=base_summary))
     for sweep in latest:
@@ -117,7 +117,7 @@ def _run_antenna(job: AntennaJob) -> dict:
         if res["verdict"]["status"] != WITHIN:
             result["verdict"] = OUTSIDE
         if job.record:
-            d, src = sweep_date(sweep, files.dates.get(sweep), "site-file")
+            d, src = sweep_date(sweep, files.dates.get(sweep), "site_file")
             records.append(build_record(site=job.site_name, antenna=job.name, sweep_path=sweep, date=d,
                                         date_source=src, role="latest", corr=corr, summary=summary, comparison=res,
                                         baseline_sha256=records[0].sweep_sha256))

@@ -54,7 +54,7 @@ def _runs(records) -> list:
             v = r.value(q)
             vals[q] = None if v is None else (v.value, v.low, v.high)
         out.append({"date": r.sweep_date, "date_source": r.date_source, "file": r.sweep_file, "role": r.role,
-                    "line": r.line, "verdict": r.verdict, "diagnosis_code": r.diagnosis_code,
+                    "line": r.line, "verdict": r.verdict, "cause_code": r.cause_code,
                     "sha256": r.sweep_sha256, "values_full": vals,
                     "values": {q: (None if vals[q] is None else vals[q][0]) for q in QUANTITIES}})
     return out
@@ -161,7 +161,7 @@ def trend_text(result: dict, out_dir: str | None) -> str:
             lines += [f"  FLAG {f['reason']}" for f in tr.flags]
         else:
             lines.append("  nothing flagged")
-        mt = sum(r["date_source"] == "file-mtime" for r in e["runs"])
+        mt = sum(r["date_source"] == "file_mtime" for r in e["runs"])
         if mt:
             lines.append(f"  note: {mt} run(s) dated by the file's modification time (give dates in the site "
                          "file or with --date)")

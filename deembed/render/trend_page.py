@@ -74,12 +74,12 @@ def _runs_table(runs: list) -> str:
     for r in runs:
         src = r["date_source"]
         mark = ' <span class="tag edge" title="no date was given: this is the file\'s modification time">file time</span>' \
-            if src == "file-mtime" else ""
+            if src == "file_mtime" else ""
         verdict = r.get("verdict")
         pill = "" if verdict is None else \
-            (' <span class="pill ok">within limits</span>' if verdict == "within-limits"
+            (' <span class="pill ok">within limits</span>' if verdict == "within_limits"
              else ' <span class="pill fail">outside limits</span>')
-        cause = f'<br><span class="kind">{_e(r.get("diagnosis_code"))}</span>' if r.get("diagnosis_code") else ""
+        cause = f'<br><span class="kind">{_e(r.get("cause_code"))}</span>' if r.get("cause_code") else ""
         v = r["values"]
         rows.append(
             f'<tr><td class="n">{_e(r["date"])}{mark}</td><td><span class="mono" title="{_e(r["file"])}">'
@@ -116,7 +116,7 @@ def trend_html(trend, runs: list, *, site: str, store: str, limits, png: bytes |
     trend : deembed.analysis.trend.EntryTrend
     runs : list of dict
         The recorded runs in date order: ``date``, ``date_source``, ``file``, ``role``, ``verdict``,
-        ``diagnosis_code``, ``values`` (quantity -> value).
+        ``cause_code``, ``values`` (quantity -> value).
     site, store : str
         The site's name and the store's name (a URL shown without its password).
     limits : deembed.analysis.trend.TrendLimits
@@ -126,7 +126,7 @@ def trend_html(trend, runs: list, *, site: str, store: str, limits, png: bytes |
 
     run_time = run_time or _dt.datetime.now().astimezone()
     first, last = (runs[0]["date"], runs[-1]["date"]) if runs else ("", "")
-    mtime = sum(r["date_source"] == "file-mtime" for r in runs)
+    mtime = sum(r["date_source"] == "file_mtime" for r in runs)
     mtime_note = (f'<p class="small muted">{mtime} run(s) have no recorded date: their file\'s modification time '
                   "stands in and is marked &ldquo;file time&rdquo;; give dates in the site file or with --date.</p>"
                   if mtime else "")

@@ -29,7 +29,7 @@ def _dates(texts):
 def trend_figure(trend, date_sources: dict | None = None):
     """Three stacked panels over a shared date axis for one :class:`deembed.analysis.trend.EntryTrend`.
 
-    ``date_sources`` maps a date text to "file-mtime" where that run's date is only the file's.
+    ``date_sources`` maps a date text to "file_mtime" where that run's date is only the file's.
     """
     from matplotlib.dates import AutoDateLocator, ConciseDateFormatter
     from matplotlib.figure import Figure
@@ -54,7 +54,7 @@ def trend_figure(trend, date_sources: dict | None = None):
         if has_iv.any():
             err = np.vstack([np.where(has_iv, y - lo, 0.0), np.where(has_iv, hi - y, 0.0)])
             ax.errorbar(x, y, yerr=err, fmt="none", ecolor=colour, elinewidth=1.0, capsize=3, alpha=0.8)
-        mtime = np.array([date_sources.get(d) == "file-mtime" for d in s.dates])
+        mtime = np.array([date_sources.get(d) == "file_mtime" for d in s.dates])
         xs = np.array(x, dtype=object)
         ax.plot(list(xs[~mtime]), y[~mtime], "o", color=colour, ms=6, label="sweep")
         if mtime.any():
