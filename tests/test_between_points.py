@@ -238,3 +238,26 @@ def test_characterize_says_the_grid_is_too_coarse(tmp_path, capsys):
                str(paths["load"]), "--out", str(tmp_path / "c41.s2p")])
     assert rc == 0
     assert "TOO COARSE" in capsys.readouterr().out
+
+
+def test_noise_in_the_standards_is_not_taken_for_an_interpolation_error(tmp_path):
+    # seeded complex noise of 1e-3 RMS on each standard's reflection (a hobby analyzer's trace noise, our choice)
+    grid = np.linspace(3e6, 30e6, 201)
+    run = mixed_run(grid)
+    m = port50(grid)
+    rng = np.random.default_rng(150)
+    noisy = {k: terminated(run, t) + 1e-3 / np.sqrt(2) * (rng.standard_normal(grid.size)
+                                                         + 1j * rng.standard_normal(grid.size))
+             for k, t in (("open", m.open()), ("short", m.short()), ("load", m.match()))}
+    ch = characterize(grid, gamma_open=noisy["open"], gamma_short=noisy["short"], gamma_load=noisy["load"])
+    path = tmp_path / "noisy.s2p"
+    write_characterization(path, ch)
+    f2 = _other_points()
+    sweep, truth = _sweep(mixed_run, f2)
+    line = line_from_characterization(path)
+    res = correct(sweep, line)
+    bp = between_points(line, f2, res.gamma_feedpoint)
+    assert bp["method"] == "interpolated" and bp["estimated_error"] < 0.01
+    assert bp["characterization_noise_error"] > bp["estimated_error"]  # the noise is what there is
+    # what reaches the feedpoint is within the noise and the method's error together
+    assert np.max(np.abs(res.gamma_feedpoint - truth)) <= bp["estimated_error"] + 3 * bp["characterization_noise_error"]

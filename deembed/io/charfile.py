@@ -237,7 +237,10 @@ class CharacterizedLine:
         ``estimated_error_at_hz``, ``error_from`` (how it was estimated), ``grid_step_hz`` (widest step of
         the characterization), ``needed_step_hz`` (what the run's longest echo allows, with ``grid_margin``),
         ``longest_two_way_delay_s``, ``grid_too_coarse``, ``delay_removed_s`` (interpolation only),
-        ``characterization_error_worst`` (the chosen method's figure for the worst antenna, |Gamma_L| = 1).
+        ``characterization_error_worst`` (the chosen method's figure for the worst antenna, |Gamma_L| = 1),
+        ``characterization_noise_error`` (the characterization's own point-to-point scatter carried to the
+        feedpoint: a measurement uncertainty present on its own points too, not counted in
+        ``estimated_error``).
         """
         f = np.atleast_1d(np.asarray(freq_hz, dtype=float))
         b = self.between
@@ -273,6 +276,10 @@ class CharacterizedLine:
         }
         if method == "interpolated":
             out["delay_removed_s"] = b.delay_s
+        if b.scatter is not None and err.size:  # the characterization's own noise, on and between its points
+            ds = np.broadcast_to(b.scatter, (f.size, 2, 2))
+            noise = bw.feedpoint_error(self.s_params(f), ds, gamma_feedpoint)
+            out["characterization_noise_error"] = float(np.max(noise)) if noise.size else 0.0
         return out
 
     def abcd(self, freq_hz):

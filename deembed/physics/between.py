@@ -187,8 +187,8 @@ def _interval_cubics(g, resid):
     return c.reshape((n - 1, 4) + resid.shape[1:])
 
 
-def leave_one_out(grid_hz, values, delay_s: float = 0.0):
-    """Leave-one-out error |predicted - measured| (n, ...) of :func:`interpolate` on its own grid.
+def leave_one_out_residual(grid_hz, values, delay_s: float = 0.0):
+    """Leave-one-out residual, predicted minus measured (n, ...) complex, with the delay removed.
 
     Point i is predicted by the cubic through its four nearest neighbours (i-2, i-1, i+1, i+2 inside;
     one-sided near the ends) with the same delay removed. The two end points cannot be predicted
@@ -205,10 +205,39 @@ def leave_one_out(grid_hz, values, delay_s: float = 0.0):
     keep = five != i[:, None]
     idx = list(five[keep].reshape(i.size, 4).T)
     pred = _combine(_lagrange_weights([g[k] for k in idx], g[i]), resid, idx)
-    err = np.empty(resid.shape, dtype=float)
-    err[1:-1] = np.abs(pred - resid[i])  # |e^{j phi}| = 1: the same error with the delay put back
-    err[0], err[-1] = err[1], err[-2]
-    return err
+    out = np.empty(resid.shape, dtype=complex)
+    out[1:-1] = pred - resid[i]
+    out[0], out[-1] = out[1], out[-2]
+    return out
+
+
+def leave_one_out(grid_hz, values, delay_s: float = 0.0):
+    """Leave-one-out error |predicted - measured| (n, ...) of :func:`interpolate` on its own grid
+    (:func:`leave_one_out_residual`; |exp(j phi)| = 1, so the same error with the delay put back)."""
+    return np.abs(leave_one_out_residual(grid_hz, values, delay_s))
+
+
+def smooth(grid_hz, values, width_hz: float):
+    """Moving average (n, ...) of ``values`` over the grid points within +/- width/2 of each point.
+
+    Used to split a residual into what changes slowly with frequency (a systematic error: an echo the
+    model misses, the interpolation's own error) and the point-to-point scatter of the characterization's
+    measurement noise, which averages out. A width below the step leaves the values as they are.
+    """
+    g = np.asarray(grid_hz, dtype=float)
+    v = np.asarray(values)
+    half = 0.5 * float(width_hz)
+    lo = np.searchsorted(g, g - half, side="left")
+    hi = np.searchsorted(g, g + half, side="right")
+    c = np.concatenate([np.zeros((1,) + v.shape[1:], dtype=v.dtype), np.cumsum(v, axis=0)])
+    cnt = (hi - lo).reshape((-1,) + (1,) * (v.ndim - 1))
+    return (c[hi] - c[lo]) / cnt
+
+
+SMOOTH_STEPS = 2.0
+"""Residuals are averaged over SMOOTH_STEPS x the needed step (:func:`needed_step_hz`), 1/(4 T2) wide: an
+echo at the edge of the delay-removed window (+/-tau) keeps sinc(pi/8) = 97 % of its size, while the
+scatter of N points' noise drops by sqrt(N) (our choice, common practice, no source)."""
 
 
 def local_error(grid_hz, err, freq_hz, exact_on_grid: bool = True):
@@ -301,6 +330,9 @@ class Between:
     needed_step_hz : the step the run's longest echo allows with ``GRID_MARGIN``, Hz.
     worst_feedpoint_error : the largest estimated |dGamma| at the feedpoint over the grid for any antenna
         (|Gamma_L| <= 1), of the chosen method.
+    scatter : float (2, 2) or None: RMS point-to-point scatter of the chosen method's residual, the
+        characterization's own measurement noise (not an error of the method: it reaches the feedpoint on
+        the characterized points too); for uncertainty work.
     """
 
     method: str
@@ -311,6 +343,7 @@ class Between:
     step_hz: float
     needed_step_hz: float
     worst_feedpoint_error: float
+    scatter: np.ndarray | None = None
 
     @property
     def two_way_delay_s(self) -> float:
@@ -339,7 +372,10 @@ def assess(grid_hz, s, delay_s: float, model_s=None, *, model_only: bool = False
     Notes
     -----
     Both candidates get the same kind of figure per grid point and S-parameter: interpolation its
-    leave-one-out error, the model its misfit to the measured values. Each is carried to the feedpoint
+    leave-one-out residual, the model its misfit to the measured values, each (delay removed) averaged
+    over ``SMOOTH_STEPS`` needed steps (:func:`smooth`) so that the characterization's own measurement
+    noise, which is there on its measured points as well, is not counted as an error of the method;
+    what averages out is kept apart as ``scatter``. Each is carried to the feedpoint
     for the worst antenna (|Gamma_L| = 1, :func:`feedpoint_error`) and the method with the smaller largest
     figure is used; a tie (or fewer than 5 points) keeps the model. A uniform line characterized with
     open and short or with all three standards is then normally evaluated through its model, as before; a
@@ -349,12 +385,20 @@ def assess(grid_hz, s, delay_s: float, model_s=None, *, model_only: bool = False
     s = np.asarray(s, dtype=complex)
     step = largest_step_hz(g)
     need = needed_step_hz(two_way_delay_s(delay_s))
-    model_err = None if model_s is None else np.abs(np.asarray(model_s, dtype=complex) - s)
-    if model_err is not None and model_misfit_s11:
-        model_err[:, 0, 0] += float(model_misfit_s11)
-    interp_err = None
+    width = SMOOTH_STEPS * need
+
+    def split(resid):  # (systematic error per point, RMS scatter per S-parameter)
+        slow = smooth(g, resid, width)
+        return np.abs(slow), np.sqrt(np.mean(np.abs(resid - slow) ** 2, axis=0))
+
+    model_err = model_scatter = None
+    if model_s is not None:
+        model_err, model_scatter = split(remove_delay(g, np.asarray(model_s, dtype=complex) - s, delay_s))
+        if model_misfit_s11:
+            model_err[:, 0, 0] += float(model_misfit_s11)
+    interp_err = interp_scatter = None
     if not model_only and g.size >= 5:
-        interp_err = leave_one_out(g, s, delay_s)
+        interp_err, interp_scatter = split(leave_one_out_residual(g, s, delay_s))
     worst = {}
     for name, err in (("interpolated", interp_err), ("model", model_err)):
         if err is not None:
@@ -363,8 +407,8 @@ def assess(grid_hz, s, delay_s: float, model_s=None, *, model_only: bool = False
     if not worst:
         raise ValueError("neither interpolation (at least 5 points) nor a model is available")
     method = min(worst, key=lambda k: (worst[k], k != "model"))
-    chosen = interp_err if method == "interpolated" else model_err
-    return Between(method, float(delay_s), chosen, interp_err, model_err, step, need, worst[method])
+    chosen, scatter = (interp_err, interp_scatter) if method == "interpolated" else (model_err, model_scatter)
+    return Between(method, float(delay_s), chosen, interp_err, model_err, step, need, worst[method], scatter)
 
 
 def sweep_error(between: Between, grid_hz, s_at_sweep, freq_hz, gamma_feedpoint=None):
@@ -401,7 +445,8 @@ def draw_feedpoint_offsets(error, draws: int, rng):
 
 
 __all__ = [
-    "Between", "FEEDPOINT_ERROR_WARN", "GRID_MARGIN", "METHODS", "assess", "cubic_stencil", "draw_feedpoint_offsets",
-    "feedpoint_error", "interpolate", "largest_step_hz", "leave_one_out", "local_error", "needed_step_hz",
-    "remove_delay", "restore_delay", "sweep_error", "two_way_delay_s",
+    "Between", "FEEDPOINT_ERROR_WARN", "GRID_MARGIN", "METHODS", "SMOOTH_STEPS", "assess", "cubic_stencil",
+    "draw_feedpoint_offsets", "feedpoint_error", "interpolate", "largest_step_hz", "leave_one_out",
+    "leave_one_out_residual", "local_error", "needed_step_hz", "remove_delay", "restore_delay", "smooth",
+    "sweep_error", "two_way_delay_s",
 ]
