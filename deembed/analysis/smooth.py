@@ -1,0 +1,799 @@
+"""Findings that noise cannot move: the sweep's noise from the data, and a smooth local model near each event.
+
+Two steps, both pure numpy:
+
+1. **Noise from the data** (:func:`noise_rms`). The difference-based residual-variance estimator of
+   Gasser, Sroka and Jennen-Steinmetz: each interior point is compared with the straight line through its
+   two neighbours. A smooth curve leaves almost nothing; independent noise leaves a pseudo-residual of known
+   variance. The median (not the mean) of the squared pseudo-residuals is used so that the few points where
+   the trace itself bends sharply (a resonance on a coarse grid) do not count as noise.
+
+2. **Events from a local model** (:func:`find_events`, :class:`EventSet`). Each event (a reactance zero, the
+   SWR minimum, an SWR-span edge) is first located on a lightly smoothed trace, then placed by a local
+   least-squares polynomial fitted to the raw samples around it: the method of Savitzky and Golay (local
+   polynomial regression), applied to the normalised impedance z = Z/Z0 near events where the
+   impedance is low, or to the normalised admittance y = 1/z where it is high. Near a series resonance Z is
+   almost linear in frequency (R nearly constant, X rising through zero) and near a parallel one Y is,
+   so a cubic fits either over a window many samples wide and averages the noise of every sample in it.
+   The points are weighted by the inverse variance of their noise after the change of variable. The
+   window is the widest (up to :data:`MAX_HALF_WINDOW_FRACTION` of the frequency) whose fit leaves
+   residuals consistent with the noise (reduced chi-square test); the two domains are both tried and the
+   better kept. The windows and domains are chosen once, on the measured trace, and then held fixed, so
+   that the same linear projection serves any batch of perturbed traces (the Monte Carlo draws of
+   :mod:`deembed.analysis.uncertainty`) in one matrix product.
+
+Everything derived (the frequency where X = 0, the lowest SWR and its frequency, where the SWR crosses a
+threshold, Yaghjian-Best Q from the fitted impedance and its derivative) comes from the fitted polynomial
+evaluated on a fine grid inside the window: never from a single sample.
+
+References
+----------
+A. Savitzky and M. J. E. Golay, "Smoothing and differentiation of data by simplified least squares
+procedures," Anal. Chem. 36(8):1627-1639, 1964, doi:10.1021/ac60214a047.
+T. Gasser, L. Sroka and C. Jennen-Steinmetz, "Residual variance and residual pattern in nonlinear
+regression," Biometrika 73(3):625-633, 1986, doi:10.1093/biomet/73.3.625 (pseudo-residuals for unequal
+spacing).
+A. D. Yaghjian and S. R. Best, "Impedance, bandwidth, and Q of antennas," IEEE Trans. Antennas Propag.
+53(4):1298-1324, 2005, doi:10.1109/TAP.2005.844443 (Q from Z and dZ/dw; formula quoted from memory).
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+Z_REF_OHM = 50.0
+
+DEGREE = 3
+"""Degree of the local polynomial."""
+
+MIN_WINDOW_POINTS = 7
+"""Fewest samples in a local fit (a cubic needs 4; 7 leaves 3 degrees of freedom for the residual test)."""
+
+MAX_WINDOW_POINTS = 401
+"""Most samples used in one local fit; denser windows are thinned evenly (a 10^6-point sweep stays fast)."""
+
+MAX_HALF_WINDOW_FRACTION = 0.03
+"""Widest half-window tried, as a fraction of the event's frequency. Our choice: a resonant antenna's
+impedance is close to a low-order polynomial over a few per cent of its frequency (series RLC: the
+curvature of X is of order (df/f)^2)."""
+
+WINDOW_SHRINK = 0.7
+"""Ratio between successive half-windows tried."""
+
+FINE_POINTS = 101
+"""Points of the fine grid on which the fitted model is searched inside a window."""
+
+CHI2_SLACK = 1.5
+"""A window is accepted when the reduced chi-square of its fit is below CHI2_SLACK + 3 sqrt(2/dof) (three
+standard deviations of the chi-square statistic above its mean, plus room for the noise estimate's own
+error of 10-20 %). Our choice."""
+
+NOISE_FLOOR = 1e-6
+"""Smallest noise (in Gamma) assumed when a trace is noise-free (synthetic data)."""
+
+MERGE_STEPS = 4
+"""Events of the same kind closer than this many sweep steps on the detection trace are one event
+(the same rule as the per-sample findings; common practice, no source)."""
+
+RESOLVED_GAMMA_LIMIT = 0.99
+"""A reactance zero where |Gamma| is at or above this is not a resolved resonance (the chart point sits at
+the open or the short circuit)."""
+
+
+# ------------------------------------------------------------------------------------------------- noise
+
+def pseudo_residuals(freq_hz, values):
+    """Gasser-Sroka-Jennen-Steinmetz pseudo-residuals of a sampled curve, scaled to unit noise gain.
+
+    Parameters
+    ----------
+    freq_hz : ndarray (n,)
+        Strictly increasing frequencies, Hz.
+    values : ndarray (n,)
+        Samples (complex or real).
+
+    Returns
+    -------
+    ndarray (n - 2,)
+        e_i = (a_i v_{i-1} + b_i v_{i+1} - v_i) / sqrt(a_i^2 + b_i^2 + 1) for interior points, with
+        a_i = (f_{i+1} - f_i)/(f_{i+1} - f_{i-1}) and b_i = (f_i - f_{i-1})/(f_{i+1} - f_{i-1}): for
+        independent noise of variance s^2 each has variance s^2; a straight line gives 0.
+    """
+    f = np.asarray(freq_hz, dtype=float)
+    v = np.asarray(values)
+    if f.size < 3:
+        return np.zeros(0, dtype=v.dtype)
+    span = f[2:] - f[:-2]
+    a = (f[2:] - f[1:-1]) / span
+    b = (f[1:-1] - f[:-2]) / span
+    return (a * v[:-2] + b * v[2:] - v[1:-1]) / np.sqrt(a * a + b * b + 1)
+
+
+def noise_rms(freq_hz, gamma, *, gain=None) -> float:
+    """RMS noise of a complex reflection sweep, estimated from the sweep itself.
+
+    Parameters
+    ----------
+    freq_hz : ndarray (n,)
+        Strictly increasing frequencies, Hz.
+    gamma : ndarray (n,), complex
+        The sweep (or a de-embedded version of it).
+    gain : ndarray (n,), optional
+        Per-point factor that refers the noise to another plane: the estimate is of ``gain * noise``.
+        Used to estimate the analyzer-end noise from the smoother feedpoint trace
+        (``gain = |dGamma_analyzer / dGamma_feedpoint|``).
+
+    Returns
+    -------
+    float
+        s with E|n|^2 = s^2 (the complex RMS; each of the real and imaginary parts has s / sqrt 2). 0 for
+        fewer than 5 finite points.
+
+    Notes
+    -----
+    Pseudo-residuals e_i (:func:`pseudo_residuals`, Gasser et al. 1986) of complex Gaussian noise have
+    |e_i|^2 exponentially distributed with mean s^2, so median(|e_i|^2) = s^2 ln 2.
+    """
+    f = np.asarray(freq_hz, dtype=float)
+    g = np.asarray(gamma, dtype=complex)
+    ok = np.isfinite(g)
+    if gain is not None:
+        gain = np.asarray(gain, dtype=float)
+        ok &= np.isfinite(gain)
+    f, g = f[ok], g[ok]
+    if f.size < 5:
+        return 0.0
+    e = pseudo_residuals(f, g)
+    if gain is not None:
+        e = e * gain[ok][1:-1]
+    return float(math.sqrt(np.median(np.abs(e) ** 2) / math.log(2)))
+
+
+# ------------------------------------------------------------------------------------------- local model
+
+def _to_domain(gamma, domain: str):
+    """Normalised impedance z = (1 + G)/(1 - G) or admittance y = (1 - G)/(1 + G)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if domain == "z":
+            return (1 + gamma) / (1 - gamma)
+        return (1 - gamma) / (1 + gamma)
+
+
+def _from_domain(w, domain: str):
+    """Gamma from a normalised impedance (domain "z") or admittance ("y")."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if domain == "z":
+            return (w - 1) / (w + 1)
+        return (1 - w) / (1 + w)
+
+
+def _domain_gain(gamma, domain: str):
+    """|dw/dGamma| for the change of variable (noise in w = gain * noise in Gamma)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if domain == "z":
+            return 2 / np.abs(1 - gamma) ** 2
+        return 2 / np.abs(1 + gamma) ** 2
+
+
+@dataclass(frozen=True)
+class LocalModel:
+    """A weighted least-squares polynomial on a window of the sweep, in z or y.
+
+    Attributes
+    ----------
+    idx : ndarray of int
+        Sweep indices used (in increasing order; possibly thinned).
+    fc_hz, h_hz : float
+        Centre and half-width of the window; the polynomial variable is u = (f - fc)/h.
+    domain : str
+        "z" (normalised impedance) or "y" (normalised admittance).
+    proj : ndarray (DEGREE + 1, len(idx))
+        Weighted least-squares projector: coefficients = w[idx] @ proj.T (lowest power first).
+    u_lo, u_hi : float
+        The data's range of u inside the window (searches stay inside it).
+    at_sweep_lo, at_sweep_hi : bool
+        Whether the window reaches the sweep's first / last sample.
+    chi2 : float
+        Reduced chi-square of the fit on the measured trace.
+    """
+
+    idx: np.ndarray
+    fc_hz: float
+    h_hz: float
+    domain: str
+    proj: np.ndarray
+    u_lo: float
+    u_hi: float
+    at_sweep_lo: bool
+    at_sweep_hi: bool
+    chi2: float
+
+    def coefficients(self, gamma_sub):
+        """Polynomial coefficients (..., DEGREE + 1) from Gamma on this window's samples (..., len(idx))."""
+        return _to_domain(gamma_sub, self.domain) @ self.proj.T
+
+    def fine_u(self, n: int = FINE_POINTS):
+        return np.linspace(self.u_lo, self.u_hi, n)
+
+    def freq(self, u):
+        return self.fc_hz + np.asarray(u) * self.h_hz
+
+
+def _vander(u, deg=DEGREE):
+    return np.vander(np.asarray(u, dtype=float), deg + 1, increasing=True)
+
+
+def _poly(coef, u):
+    """Evaluate polynomials (..., p) at points u (k,): (..., k)."""
+    return coef @ _vander(u, coef.shape[-1] - 1).T
+
+
+def _poly_d(coef, u):
+    """Derivative d/du of polynomials (..., p) at u (k,): (..., k)."""
+    p = coef.shape[-1]
+    dcoef = coef[..., 1:] * np.arange(1, p)
+    return dcoef @ _vander(u, p - 2).T
+
+
+def _fit(freq, gamma, sigma, idx, fc, h, domain):
+    """Weighted LS fit on idx; returns (LocalModel, reduced chi-square in Gamma)."""
+    u = (freq[idx] - fc) / h
+    g = gamma[idx]
+    w_data = _to_domain(g, domain)
+    wt = 1.0 / (sigma[idx] * _domain_gain(g, domain))       # 1 / std of the noise in w
+    ok = np.isfinite(w_data) & np.isfinite(wt)
+    if ok.sum() < MIN_WINDOW_POINTS:
+        return None, math.inf
+    v = _vander(u)
+    a = v * wt[:, None]
+    a[~ok] = 0.0
+    pinv = np.linalg.pinv(a)                                  # (p, n)
+    proj = pinv * wt[None, :]
+    proj[:, ~ok] = 0.0
+    coef = np.where(ok, w_data, 0) @ proj.T
+    fitted = _from_domain(coef @ v.T, domain)
+    r = (g - fitted) / sigma[idx]
+    dof = max(int(ok.sum()) - (DEGREE + 1), 1)
+    chi2 = float(np.sum(np.abs(r[ok]) ** 2) / dof)          # complex residual: E|r|^2 = 1 per point
+    model = LocalModel(idx, float(fc), float(h), domain, proj, float(u.min()), float(u.max()),
+                       bool(idx[0] == 0), bool(idx[-1] == freq.size - 1), chi2)
+    return model, chi2
+
+
+def _window_idx(freq, fc, h):
+    lo = int(np.searchsorted(freq, fc - h, side="left"))
+    hi = int(np.searchsorted(freq, fc + h, side="right"))
+    idx = np.arange(lo, hi)
+    if idx.size > MAX_WINDOW_POINTS:
+        idx = np.unique(np.round(np.linspace(lo, hi - 1, MAX_WINDOW_POINTS)).astype(int))
+    return idx
+
+
+def local_model(freq_hz, gamma, sigma, f_event_hz, *, domains=("z", "y")) -> LocalModel | None:
+    """The widest well-fitting local model around ``f_event_hz`` (see the module notes).
+
+    Parameters
+    ----------
+    freq_hz : ndarray (n,)
+    gamma : ndarray (n,) complex
+    sigma : ndarray (n,)
+        Noise RMS (complex) of each sample of ``gamma``; must be > 0.
+    f_event_hz : float
+        Where the event was detected.
+
+    Returns
+    -------
+    LocalModel or None
+        None when fewer than :data:`MIN_WINDOW_POINTS` samples are usable around the event.
+    """
+    f = freq_hz
+    fe = float(f_event_hz)
+    step = float(np.median(np.diff(f))) if f.size > 1 else 0.0
+    h = max(MAX_HALF_WINDOW_FRACTION * abs(fe), 4 * step)
+    best_any = None
+    while True:
+        idx = _window_idx(f, fe, h)
+        if idx.size < MIN_WINDOW_POINTS:
+            # widen to the nearest MIN_WINDOW_POINTS samples
+            k = int(np.clip(np.searchsorted(f, fe), 0, f.size - 1))
+            lo = max(0, min(k - MIN_WINDOW_POINTS // 2, f.size - MIN_WINDOW_POINTS))
+            idx = np.arange(lo, min(lo + MIN_WINDOW_POINTS, f.size))
+            if idx.size < MIN_WINDOW_POINTS:
+                return best_any
+            h_eff = max(fe - f[idx[0]], f[idx[-1]] - fe, step)
+            fits = [_fit(f, gamma, sigma, idx, fe, h_eff, d) for d in domains]
+            fits = [m for m in fits if m[0] is not None]
+            if not fits:
+                return best_any
+            return min(fits, key=lambda m: m[1])[0]
+        fits = [_fit(f, gamma, sigma, idx, fe, h, d) for d in domains]
+        fits = [m for m in fits if m[0] is not None]
+        if fits:
+            model, chi2 = min(fits, key=lambda m: m[1])
+            dof = max(idx.size - (DEGREE + 1), 1)
+            if chi2 <= CHI2_SLACK + 3 * math.sqrt(2 / dof):
+                return model
+            if best_any is None or chi2 < best_any.chi2:
+                best_any = model
+        h *= WINDOW_SHRINK
+
+
+# --------------------------------------------------------------------------------------- fine-grid search
+
+def _crossing_nearest(u, vals, u0, direction: int):
+    """Where each row of vals (D, k) crosses 0 with the given direction (+1 rising, -1 falling), nearest u0.
+
+    Returns an array (D,) of u (NaN where no such crossing)."""
+    a, b = vals[:, :-1], vals[:, 1:]
+    if direction > 0:
+        hit = (a < 0) & (b >= 0)
+    else:
+        hit = (a > 0) & (b <= 0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = a / (a - b)
+    pos = u[:-1] + t * (u[1:] - u[:-1])
+    d = np.where(hit, np.abs(pos - u0), np.inf)
+    k = np.argmin(d, axis=1)
+    rows = np.arange(vals.shape[0])
+    return np.where(np.isfinite(d[rows, k]), pos[rows, k], np.nan)
+
+
+def _minimum(u, p2, open_lo: bool, open_hi: bool):
+    """Minimum of each row of p2 (D, k) (|Gamma|^2 on the fine grid), parabola-refined.
+
+    Returns (u_min, p2_min), NaN where the minimum sits on a window end that is not the sweep's end
+    (``open_lo``/``open_hi`` true mean the window end is the sweep's end, where a minimum may sit)."""
+    k = np.argmin(p2, axis=1)
+    rows = np.arange(p2.shape[0])
+    n = u.size
+    km = np.clip(k, 1, n - 2)
+    y0, y1, y2 = p2[rows, km - 1], p2[rows, km], p2[rows, km + 1]
+    du = u[1] - u[0]
+    den = y0 - 2 * y1 + y2
+    with np.errstate(divide="ignore", invalid="ignore"):
+        off = np.where(den > 0, 0.5 * (y0 - y2) / den, 0.0)
+    off = np.clip(off, -1, 1)
+    interior = (k > 0) & (k < n - 1)
+    u_min = np.where(interior, u[km] + off * du, u[k])
+    p_min = np.where(interior, y1 - 0.25 * (y0 - y2) * off, p2[rows, k])
+    bad = ((k == 0) & ~open_lo) | ((k == n - 1) & ~open_hi)
+    return np.where(bad, np.nan, u_min), np.where(bad, np.nan, np.maximum(p_min, 0.0))
+
+
+def _swr_from_p2(p2):
+    m = np.sqrt(p2)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(m < 1, (1 + m) / (1 - m), np.inf)
+
+
+# ---------------------------------------------------------------------------------------------- events
+
+@dataclass(frozen=True)
+class Event:
+    """One event of a trace and the local model that places it.
+
+    ``kind``: "resonance" (with ``sense`` "series"/"parallel"), "minimum", or "edge" (with ``key`` the
+    threshold key, ``span`` the span's index, ``side`` "low"/"high", ``level`` the |Gamma| at the
+    threshold). ``u0`` is the detected position in the model's variable.
+    """
+
+    kind: str
+    model: LocalModel
+    u0: float
+    sense: str = ""
+    key: str = ""
+    span: int = -1
+    side: str = ""
+    level: float = 0.0
+
+
+@dataclass
+class EventSet:
+    """Every event of one end of one sweep, with fixed local models (see the module notes).
+
+    Attributes
+    ----------
+    freq_hz : ndarray (n,)
+    resonances : list of Event
+    minimum : Event or None
+    edges : list of Event
+    spans : dict
+        ``{key: [[low_hz, high_hz], ...]}`` detected spans (edges at the sweep's ends are the sweep's ends).
+    cut : dict
+        ``{key: [bool per span]}``: the span reaches the sweep's first or last frequency.
+    primary : int or None
+        Index into ``resonances`` of the resonance nearest the SWR minimum (where Q is taken).
+    thresholds : tuple of float
+    noise_rms : float
+        The analyzer noise (complex RMS in Gamma) reported with the findings.
+    """
+
+    freq_hz: np.ndarray
+    resonances: list
+    minimum: Event | None
+    edges: list
+    spans: dict
+    cut: dict
+    primary: int | None
+    thresholds: tuple
+    noise_rms: float = 0.0
+    notes: list = field(default_factory=list)
+    nominal: dict | None = None
+
+    def indices(self) -> np.ndarray:
+        """Sorted union of every model's sweep indices."""
+        parts = [e.model.idx for e in self.all_events()]
+        if not parts:
+            return np.zeros(0, dtype=int)
+        return np.unique(np.concatenate(parts))
+
+    def all_events(self):
+        out = list(self.resonances)
+        if self.minimum is not None:
+            out.append(self.minimum)
+        return out + list(self.edges)
+
+    # ----------------------------------------------------------------------------------- evaluation
+    def evaluate(self, gamma_sub, union_idx=None) -> dict:
+        """Every finding for a batch of traces.
+
+        Parameters
+        ----------
+        gamma_sub : ndarray (D, m) complex
+            Traces on the sweep indices ``union_idx`` (default :meth:`indices`).
+
+        Returns
+        -------
+        dict of ndarray (D,)
+            ``res_hz_<i>``, ``res_r_ohm_<i>`` for each resonance; ``min_hz``, ``min_swr``; ``edge_<key>_<span>_<side>``
+            for each interior span edge; ``q`` at the primary resonance. NaN where a draw loses the event
+            inside its window.
+        """
+        g = np.atleast_2d(np.asarray(gamma_sub, dtype=complex))
+        union = self.indices() if union_idx is None else np.asarray(union_idx)
+        d = g.shape[0]
+        out = {}
+        models = [e.model for e in self.all_events()]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            zu = (1 + g) / (1 - g) if any(m.domain == "z" for m in models) else None
+            yu = (1 / zu if zu is not None else (1 - g) / (1 + g)) if any(m.domain == "y" for m in models) else None
+
+        stacked = self._stacked(union)
+        coef_all = {}
+        for dom, (mat, _) in stacked.items():
+            w = zu if dom == "z" else yu
+            w = np.where(np.isfinite(w), w, 0)
+            coef_all[dom] = (w.real @ mat.T) + 1j * (w.imag @ mat.T)
+
+        def coefficients(model):
+            start = stacked[model.domain][1][id(model)]
+            return coef_all[model.domain][:, start:start + DEGREE + 1]
+
+        def p2_of(w, domain):
+            """|Gamma|^2 from a normalised immittance without complex division."""
+            a = (w.real - 1) ** 2 + w.imag ** 2
+            b = (w.real + 1) ** 2 + w.imag ** 2
+            with np.errstate(divide="ignore", invalid="ignore"):
+                return a / b          # |z - 1|^2/|z + 1|^2 and |1 - y|^2/|1 + y|^2 alike
+
+        for i, ev in enumerate(self.resonances):
+            m = ev.model
+            coef = coefficients(m)
+            u = m.fine_u()
+            w = _poly(coef, u)
+            x_like = w.imag if m.domain == "z" else -w.imag
+            ur = _crossing_nearest(u, x_like, ev.u0, +1 if ev.sense == "series" else -1)
+            out[f"res_hz_{i}"] = m.freq(ur)
+            w_r = np.einsum("dp,dp->d", coef, _vander(np.nan_to_num(ur)).reshape(d, -1)) if d else np.zeros(0)
+            w_r = np.where(np.isfinite(ur), w_r, np.nan)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                r_ohm = Z_REF_OHM * (w_r.real if m.domain == "z" else 1 / w_r.real)
+            out[f"res_r_ohm_{i}"] = r_ohm
+            if i == self.primary:
+                out["q"] = _q_at(coef, ur, m)
+        if self.primary is None:
+            out["q"] = np.full(d, np.nan)
+        if self.minimum is not None:
+            m = self.minimum.model
+            coef = coefficients(m)
+            u = m.fine_u()
+            um, p2 = _minimum(u, p2_of(_poly(coef, u), m.domain), m.at_sweep_lo, m.at_sweep_hi)
+            out["min_hz"] = m.freq(um)
+            out["min_swr"] = _swr_from_p2(p2)
+        else:
+            out["min_hz"] = np.full(d, np.nan)
+            out["min_swr"] = np.full(d, np.nan)
+        for ev in self.edges:
+            m = ev.model
+            coef = coefficients(m)
+            u = m.fine_u()
+            p2 = p2_of(_poly(coef, u), m.domain)
+            # low edge: |Gamma| falls through the level going up in frequency; high edge: rises
+            ue = _crossing_nearest(u, p2 - ev.level ** 2, ev.u0, -1 if ev.side == "low" else +1)
+            out[f"edge_{ev.key}_{ev.span}_{ev.side}"] = m.freq(ue)
+        return out
+
+    def _stacked(self, union):
+        """Per domain: one projector (k (DEGREE + 1), len(union)) for every model, and each model's row offset."""
+        key = (union.size, int(union[0]) if union.size else -1, int(union[-1]) if union.size else -1)
+        cache = getattr(self, "_stack_cache", None)
+        if cache is not None and cache[0] == key:
+            return cache[1]
+        out = {}
+        for dom in ("z", "y"):
+            models = [e.model for e in self.all_events() if e.model.domain == dom]
+            if not models:
+                continue
+            p = DEGREE + 1
+            mat = np.zeros((p * len(models), union.size))
+            offsets = {}
+            for k, m in enumerate(models):
+                mat[k * p:(k + 1) * p, np.searchsorted(union, m.idx)] = m.proj
+                offsets[id(m)] = k * p
+            out[dom] = (mat, offsets)
+        self._stack_cache = (key, out)
+        return out
+
+    def kept_resonances(self) -> list[int]:
+        """Indices of the resonances that the findings report: placed by the fit on the measured trace, with
+        R >= 0 and |Gamma| below :data:`RESOLVED_GAMMA_LIMIT` (needs :meth:`findings` first)."""
+        v = self.nominal or {}
+        out = []
+        for i in range(len(self.resonances)):
+            fr, r = v.get(f"res_hz_{i}", math.nan), v.get(f"res_r_ohm_{i}", math.nan)
+            if not (math.isfinite(fr) and math.isfinite(r)) or r < 0:
+                continue
+            if abs((r - Z_REF_OHM) / (r + Z_REF_OHM)) >= RESOLVED_GAMMA_LIMIT:
+                continue
+            out.append(i)
+        return out
+
+    def findings(self, values: dict | None = None, gamma=None) -> dict:
+        """The end's findings as a JSON-ready dict (the keys of the per-sample findings, plus ``noise_gamma_rms``).
+
+        ``values`` is :meth:`evaluate` of the measured trace (computed from ``gamma`` when not given).
+        """
+        if values is None:
+            values = self.evaluate(np.asarray(gamma)[self.indices()][None, :])
+        v = {k: float(np.asarray(a).reshape(-1)[0]) for k, a in values.items()}
+        self.nominal = v
+        res = []
+        for i in self.kept_resonances():
+            fr, r = v[f"res_hz_{i}"], v[f"res_r_ohm_{i}"]
+            g = (r - Z_REF_OHM) / (r + Z_REF_OHM)
+            res.append({"freq_hz": fr, "r_ohm": r, "kind": self.resonances[i].sense,
+                        "swr": (1 + abs(g)) / (1 - abs(g))})
+        spans = {}
+        for key, lst in self.spans.items():
+            out = []
+            for j, (lo, hi) in enumerate(lst):
+                lo2 = v.get(f"edge_{key}_{j}_low", lo)
+                hi2 = v.get(f"edge_{key}_{j}_high", hi)
+                lo2 = lo if not math.isfinite(lo2) else lo2
+                hi2 = hi if not math.isfinite(hi2) else hi2
+                out.append([lo2, hi2])
+            spans[key] = out
+        q = v.get("q", math.nan)
+        q_freq = None
+        if self.primary is not None:
+            fr = v.get(f"res_hz_{self.primary}", math.nan)
+            q_freq = fr if math.isfinite(fr) else None
+        return {
+            "min_swr": {"freq_hz": _num(v["min_hz"]), "swr": _num(v["min_swr"])},
+            "resonances_hz": [r["freq_hz"] for r in res],
+            "resonances": [{k: r[k] for k in ("freq_hz", "r_ohm", "kind", "swr")} for r in res],
+            "swr_spans_hz": spans,
+            "swr_spans_cut_by_sweep_edge": {k: list(c) for k, c in self.cut.items()},
+            "q": _num(q) if q_freq is not None else None,
+            "q_freq_hz": q_freq,
+            "q_from_span": _q_from_span(spans, self.cut, v["min_hz"]),
+            "noise_gamma_rms": self.noise_rms,
+        }
+
+
+def _num(x):
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def _q_from_span(spans, cut, f_min):
+    """Q from the 2:1 span that holds the SWR minimum (Yaghjian-Best matched-at-centre relation:
+    FBW = (s - 1)/(Q sqrt s)); None when there is none, the sweep cuts it, or no minimum."""
+    if "2" not in spans or not math.isfinite(f_min):
+        return None
+    for (lo, hi), c in zip(spans["2"], cut.get("2", [])):
+        if lo <= f_min <= hi and not c and hi > lo > 0:
+            f0 = math.sqrt(lo * hi)
+            return (2 - 1) / ((hi - lo) / f0 * math.sqrt(2))
+    return None
+
+
+def _q_at(coef, ur, m: LocalModel):
+    """Yaghjian-Best Q_Z = (w0 / 2 R0) |R' + j (X' + |X0| / w0)| at u = ur from the fitted polynomial."""
+    d = coef.shape[0]
+    u = np.nan_to_num(ur)
+    v = _vander(u)                                    # (d, p)
+    w0 = np.einsum("dp,dp->d", coef, v)
+    dv = np.zeros_like(v)
+    dv[:, 1:] = v[:, :-1] * np.arange(1, v.shape[1])
+    dw = np.einsum("dp,dp->d", coef, dv)             # dw/du
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if m.domain == "z":
+            z, dz = w0, dw
+        else:
+            z, dz = 1 / w0, -dw / w0 ** 2
+        z = Z_REF_OHM * z
+        dz_dw = Z_REF_OHM * dz / (2 * np.pi * m.h_hz)  # per rad/s
+        om = 2 * np.pi * m.freq(u)
+        r0 = z.real
+        q = om / (2 * r0) * np.abs(dz_dw.real + 1j * (dz_dw.imag + np.abs(z.imag) / om))
+    ok = np.isfinite(ur) & (r0 > 0) & np.isfinite(q)
+    return np.where(ok, q, np.nan) if d else np.zeros(0)
+
+
+# ---------------------------------------------------------------------------------------------- detection
+
+def detection_trace(gamma, half: int | None = None):
+    """A lightly smoothed copy of the trace, used only to locate events (Savitzky-Golay, cubic).
+
+    The half-window is about 1/200 of the points (2 to 10 samples); sweeps under 15 points are not
+    smoothed."""
+    g = np.asarray(gamma, dtype=complex)
+    n = g.size
+    if half is None:
+        half = int(np.clip(round(n / 200), 2, 10))
+    if n < 15 or not np.all(np.isfinite(g)):
+        return g.copy()
+    k = np.arange(-half, half + 1, dtype=float)
+    pinv = np.linalg.pinv(_vander(k / half))          # (p, 2 half + 1): row 0 gives the centre value
+    out = np.empty_like(g)
+    out[half:n - half] = np.convolve(g, pinv[0][::-1], mode="valid")
+    # the first and last half-windows take the value of the fit over the end window (as "interp" ends)
+    for sl, us in ((slice(0, 2 * half + 1), slice(0, half)), (slice(n - 2 * half - 1, n), slice(n - half, n))):
+        coef = pinv @ g[sl]
+        uu = k / half
+        vals = _vander(uu) @ coef
+        out[us] = vals[:half] if us.start == 0 else vals[half + 1:]
+    return out
+
+
+def _merge(positions, gap):
+    """Group sorted positions closer than gap; return lists of member indices."""
+    groups = []
+    for i, p in enumerate(positions):
+        if groups and p - positions[groups[-1][-1]] < gap:
+            groups[-1].append(i)
+        else:
+            groups.append([i])
+    return groups
+
+
+def _detect_resonances(f, g):
+    """Sign changes of X on the detection trace: [(freq_hz, sense)] after merging noise clusters."""
+    z = _to_domain(g, "z")
+    x = z.imag
+    fin = np.isfinite(z)
+    x0, x1 = x[:-1], x[1:]
+    pair = fin[:-1] & fin[1:]
+    rising = pair & (x0 < 0) & (x1 >= 0)
+    falling = pair & (x0 > 0) & (x1 <= 0)
+    found = []
+    for k in np.flatnonzero(rising | falling):
+        t = x0[k] / (x0[k] - x1[k])
+        fr = f[k] + t * (f[k + 1] - f[k])
+        gk = g[k] + t * (g[k + 1] - g[k])
+        if abs(gk) >= RESOLVED_GAMMA_LIMIT:
+            continue
+        found.append((float(fr), "series" if rising[k] else "parallel"))
+    if len(found) < 2:
+        return found
+    gap = MERGE_STEPS * float(np.median(np.diff(f)))
+    out = []
+    for grp in _merge([p for p, _ in found], gap):
+        if len(grp) % 2 == 0:
+            continue
+        out.append((float(np.mean([found[i][0] for i in grp])), found[grp[0]][1]))
+    return out
+
+
+def _detect_spans(f, g, threshold):
+    """Spans of SWR <= threshold on the detection trace (edges interpolated; merged across short gaps)."""
+    level = (threshold - 1) / (threshold + 1)
+    m = np.abs(g)
+    inside = np.isfinite(m) & (m <= level)
+    edges = np.diff(np.concatenate(([0], inside.astype(np.int8), [0])))
+    starts = np.flatnonzero(edges == 1)
+    stops = np.flatnonzero(edges == -1) - 1
+    spans = []
+    for a, b in zip(starts, stops):
+        lo = f[a] if a == 0 else f[a - 1] + (level - m[a - 1]) / (m[a] - m[a - 1]) * (f[a] - f[a - 1])
+        hi = f[b] if b == f.size - 1 else f[b] + (level - m[b]) / (m[b + 1] - m[b]) * (f[b + 1] - f[b])
+        spans.append([float(lo), float(hi)])
+    if len(spans) > 1:
+        gap = MERGE_STEPS * float(np.median(np.diff(f)))
+        merged = [spans[0]]
+        for lo, hi in spans[1:]:
+            if lo - merged[-1][1] < gap:
+                merged[-1][1] = hi
+            else:
+                merged.append([lo, hi])
+        spans = merged
+    # a span narrower than the merge gap and not at a sweep end is noise around the threshold
+    if len(spans) > 0 and f.size > 1:
+        gap = MERGE_STEPS * float(np.median(np.diff(f)))
+        spans = [s for s in spans if s[1] - s[0] >= gap or s[0] <= f[0] or s[1] >= f[-1]]
+    return spans, level
+
+
+def threshold_key(t) -> str:
+    return f"{float(t):g}"
+
+
+def find_events(freq_hz, gamma, *, sigma=None, thresholds=(1.5, 2.0, 3.0), noise_gamma_rms: float = 0.0) -> EventSet:
+    """Locate every event of one end's trace and fix its local model.
+
+    Parameters
+    ----------
+    freq_hz : ndarray (n,)
+        Strictly increasing frequencies, Hz.
+    gamma : ndarray (n,) complex
+        The trace (50 ohm).
+    sigma : ndarray (n,) or float, optional
+        Noise RMS of each sample at this plane (for a feedpoint trace: the analyzer noise times the line's
+        amplification). Default: estimated from this trace with :func:`noise_rms`.
+    thresholds : sequence of float
+        SWR levels for the spans.
+    noise_gamma_rms : float
+        The analyzer noise to report with the findings.
+    """
+    f = np.asarray(freq_hz, dtype=float).reshape(-1)
+    g = np.asarray(gamma, dtype=complex).reshape(-1)
+    if sigma is None:
+        sigma = noise_rms(f, g)
+    sig = np.broadcast_to(np.maximum(np.asarray(sigma, dtype=float), NOISE_FLOOR), f.shape).copy()
+    sig[~np.isfinite(sig)] = np.inf
+    thresholds = tuple(float(t) for t in thresholds)
+    es = EventSet(f, [], None, [], {}, {}, None, thresholds, float(noise_gamma_rms))
+    if f.size < MIN_WINDOW_POINTS:
+        es.notes.append(f"the sweep has {f.size} points; findings need at least {MIN_WINDOW_POINTS}")
+        es.spans = {threshold_key(t): [] for t in thresholds}
+        es.cut = {threshold_key(t): [] for t in thresholds}
+        return es
+    gd = detection_trace(g)
+
+    for fr, sense in _detect_resonances(f, gd):
+        m = local_model(f, g, sig, fr, domains=("z",) if sense == "series" else ("y",))
+        if m is not None:
+            es.resonances.append(Event("resonance", m, (fr - m.fc_hz) / m.h_hz, sense=sense))
+
+    p2 = np.abs(gd) ** 2
+    if np.isfinite(p2).any():
+        k = int(np.nanargmin(np.where(np.isfinite(p2), p2, np.nan)))
+        m = local_model(f, g, sig, f[k])
+        if m is not None:
+            es.minimum = Event("minimum", m, (f[k] - m.fc_hz) / m.h_hz)
+
+    for t in thresholds:
+        key = threshold_key(t)
+        spans, level = _detect_spans(f, gd, t)
+        es.spans[key] = spans
+        es.cut[key] = [bool(lo <= f[0] or hi >= f[-1]) for lo, hi in spans]
+        for j, (lo, hi) in enumerate(spans):
+            for side, fe in (("low", lo), ("high", hi)):
+                if fe <= f[0] or fe >= f[-1]:
+                    continue
+                m = local_model(f, g, sig, fe)
+                if m is not None:
+                    es.edges.append(Event("edge", m, (fe - m.fc_hz) / m.h_hz, key=key, span=j, side=side,
+                                          level=level))
+
+    if es.resonances and es.minimum is not None:
+        fmin = es.minimum.model.freq(es.minimum.u0)
+        es.primary = int(np.argmin([abs(e.model.freq(e.u0) - fmin) for e in es.resonances]))
+    return es
+
+
+__all__ = ["Event", "EventSet", "LocalModel", "detection_trace", "find_events", "local_model", "noise_rms",
+           "pseudo_residuals"]
