@@ -203,10 +203,12 @@ def trace_noise(gamma) -> float:
     return float(np.sqrt(np.median(np.abs(d) ** 2) / (6 * np.log(2))))
 
 
-def _end_numbers(freq_hz, g_before, g_after) -> dict:
-
-    fb = end_findings(freq_hz, g_before, thresholds=(2.0,))
-    fa = end_findings(freq_hz, g_after, thresholds=(2.0,))
+def _end_numbers(freq_hz, g_before, g_after, fb=None, fa=None) -> dict:
+    """Changes at one end: findings from ``fb``/``fa`` (each sweep's own findings on its own grid, so that a
+    sweep's findings are the same here as in ``correct``; worked out on the common grid when not given) and
+    the point-by-point changes of |Gamma| on the common grid."""
+    fb = fb if fb is not None else end_findings(freq_hz, g_before, thresholds=(2.0,))
+    fa = fa if fa is not None else end_findings(freq_hz, g_after, thresholds=(2.0,))
     bw_b = _span_total(fb["swr_spans_hz"]["2"])
     bw_a = _span_total(fa["swr_spans_hz"]["2"])
     dmag = np.abs(np.abs(g_after) - np.abs(g_before))
@@ -320,7 +322,7 @@ def _same_line(a, b) -> bool:
 
 # -------------------------------------------------------------------------------------- comparison
 
-def compare_corrections(before: Correction, after: Correction, limits: Limits | None = None) -> dict:
+def compare_corrections(before: Correction, after: Correction, limits: Limits | None = None, settings=None) -> dict:
     """Compare an after-work correction with its baseline (JSON-ready dict).
 
     Parameters
@@ -330,12 +332,18 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         or, with a fresh characterization, each sweep through its own line.
     limits : Limits, optional
         What counts as acceptable (default :class:`Limits`).
+    settings : UncertaintySettings, optional
+        How the intervals are worked out (default: 1000 draws, seed 1, the hobby calibration preset; 0 draws
+        for none). Each sweep's findings come from its own grid (:func:`deembed.analysis.trust.assess`), the
+        same as ``correct`` gives.
 
     Returns
     -------
     dict
-        ``resonance_shift_hz`` (after minus before: the feedpoint resonance nearest the baseline's SWR
-        minimum in each, placed by :func:`fitted_resonance`; None when either has none),
+        ``resonance_shift_hz`` (after minus before: the baseline's feedpoint resonance at its best match and
+        the after sweep's nearest one of the same sense, each placed by its local model; None when either has
+        none), ``resonance_shift_interval_hz``, ``min_swr_change_interval``, ``swr_2_width_change_interval_hz``
+        (coverage intervals from paired draws) and ``uncertainty`` (how they were made),
         ``resonance_before_hz``, ``resonance_after_hz``, ``min_swr_change``, ``swr_2_width_change_hz``,
         ``largest_gamma_change_feedpoint``, ``largest_gamma_change_analyzer`` (largest change in |Gamma|);
         ``feedpoint`` and ``analyzer`` blocks with the details of each end; ``line`` (same line or not, the
@@ -347,17 +355,25 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
     limits = limits or Limits()
     al = align(before, after)
     f = al.freq_hz
-    fp = _end_numbers(f, al.gamma_feed_before, al.gamma_feed_after)
-    base_f = fp.pop("_findings_before")
-    near = base_f["min_swr"]["freq_hz"]
-    res_b = fitted_resonance(f, al.gamma_feed_before, near)
-    res_a = fitted_resonance(f, al.gamma_feed_after, near)
+    same = _same_line(before.line, after.line)
+    tr = trust_pair(before, after, same, settings)
+    a_b, a_a = tr["before"], tr["after"]
+    fb = end_findings(before.freq_hz, before.gamma_feedpoint, thresholds=(2.0,), events=a_b.events_fp)
+    fa = end_findings(after.freq_hz, after.gamma_feedpoint, thresholds=(2.0,), events=a_a.events_fp)
+    fp = _end_numbers(f, al.gamma_feed_before, al.gamma_feed_after, fb, fa)
+    fp.pop("_findings_before")
+    kb, ka = _matched_resonances(a_b.events_fp, a_a.events_fp)
+    res_b = a_b.events_fp.nominal[f"res_hz_{kb}"] if kb is not None else None
+    res_a = a_a.events_fp.nominal[f"res_hz_{ka}"] if ka is not None else None
     fp.update({"resonance_before_hz": res_b, "resonance_after_hz": res_a, "resonance_shift_hz": _diff(res_a, res_b)})
     if al.gamma_analyzer_before is not None:
-        sh = _end_numbers(f, al.gamma_analyzer_before, al.gamma_analyzer_after)
+        sh = _end_numbers(f, al.gamma_analyzer_before, al.gamma_analyzer_after,
+                          end_findings(before.freq_hz, before.gamma_analyzer, thresholds=(2.0,), events=a_b.events_an),
+                          end_findings(after.freq_hz, after.gamma_analyzer, thresholds=(2.0,), events=a_a.events_an))
         sh.pop("_findings_before")
     else:
         sh = None
+    intervals = _change_intervals(a_b, a_a, kb, ka)
 
     same = _same_line(before.line, after.line)
     dloss = al.loss_after_db - al.loss_before_db
@@ -384,7 +400,9 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
                      + [f"after work: {w}" for w in wa if w not in wb])  # one characterization: said once
 
     verdict = _verdict(fp, line, limits, res_b, res_a)
+    _certainty(verdict, fp, limits, intervals)
     cause = diagnose(fp, sh, line, limits, verdict)
+    mc = a_b.mc
     return {
         "baseline": {"file": before.source, "points": int(before.freq_hz.size)},
         "after": {"file": after.source, "points": int(after.freq_hz.size)},
@@ -394,6 +412,16 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         "resonance_after_hz": res_a,
         "min_swr_change": fp["min_swr_change"],
         "swr_2_width_change_hz": fp["swr_2_width_change_hz"],
+        "resonance_shift_interval_hz": intervals.get("resonance_shift_hz"),
+        "min_swr_change_interval": intervals.get("min_swr_change"),
+        "swr_2_width_change_interval_hz": intervals.get("swr_2_width_change_hz"),
+        "uncertainty": None if mc is None else {
+            "coverage": mc.coverage, "draws": mc.n, "seed": mc.seed,
+            "method": "Monte Carlo propagation of distributions (JCGM 101:2008); both sweeps share each draw of "
+                      "the line and of the calibration residuals, their noise is independent" if same else
+                      "Monte Carlo propagation of distributions (JCGM 101:2008); each sweep through its own line, "
+                      "the calibration residuals shared, the noise independent",
+            "noise_gamma_rms_before": a_b.noise_rms, "noise_gamma_rms_after": a_a.noise_rms},
         "largest_gamma_change_feedpoint": fp["largest_gamma_change"],
         "largest_gamma_change_analyzer": sh["largest_gamma_change"] if sh else None,
         "feedpoint": fp,
@@ -407,6 +435,110 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
                                     "antenna-or-line cause need a sweep, so this verdict says little"]
                                    if al.freq_hz.size < 3 else []),
     }
+
+
+def trust_pair(before: Correction, after: Correction, same_line: bool, settings=None) -> dict:
+    """Noise, events and Monte Carlo draws of both sweeps, on their own grids.
+
+    Through the same line both sweeps share each draw of the line, so common line errors cancel in the changes
+    as they physically do. Both also share each draw of the calibration residuals: the same analyzer and kit
+    are assumed (our choice; a kit's residual errors are mostly its standards' own, the same at every
+    calibration). Their noise is independent."""
+    from .trust import UncertaintySettings, assess
+    from .uncertainty import draw_line, seeds
+
+    st = UncertaintySettings() if settings is None else settings
+    st = st if st.draws > 0 else None
+    ld = None
+    if st is not None and same_line and before.freq_hz.size >= 7 and after.freq_hz.size >= 7:
+        ld = draw_line(before.line, st.draws, seeds(st.seed)[0])   # what the baseline alone would draw
+    a_b = assess(before.freq_hz, before.gamma_analyzer, before.gamma_feedpoint, before.line, thresholds=(2.0,),
+                 settings=st, line_draws=ld)
+    a_a = assess(after.freq_hz, after.gamma_analyzer, after.gamma_feedpoint, after.line, thresholds=(2.0,),
+                 settings=st, line_draws=ld, noise_key=1)
+    return {"before": a_b, "after": a_a}
+
+
+def _matched_resonances(ev_b, ev_a):
+    """(baseline index, after index) of the resonance compared: the baseline's at its best match, and the
+    after sweep's resonance of the same sense nearest it (None when either has none)."""
+    kept_b = ev_b.kept_resonances()
+    if ev_b.primary is None or ev_b.primary not in kept_b:
+        return None, None
+    kb = ev_b.primary
+    fb = ev_b.nominal[f"res_hz_{kb}"]
+    sense = ev_b.resonances[kb].sense
+    cands = [i for i in ev_a.kept_resonances() if ev_a.resonances[i].sense == sense] or ev_a.kept_resonances()
+    if not cands:
+        return kb, None
+    ka = min(cands, key=lambda i: abs(ev_a.nominal[f"res_hz_{i}"] - fb))
+    return kb, ka
+
+
+def _span2_total_draws(a):
+    """Total 2:1 span width in every draw (NaN where an edge is lost); edges cut by the sweep stay put."""
+    v = a.mc.feedpoint.values
+    total = np.zeros(a.mc.n)
+    for j, (lo, hi) in enumerate(a.events_fp.spans.get("2", [])):
+        lo_d = v.get(f"edge_2_{j}_low", np.full(a.mc.n, lo))
+        hi_d = v.get(f"edge_2_{j}_high", np.full(a.mc.n, hi))
+        total = total + (hi_d - lo_d)
+    return total
+
+
+def _change_intervals(a_b, a_a, kb, ka) -> dict:
+    """Coverage intervals of the compared changes from paired draws (after minus before)."""
+    from .uncertainty import change_interval
+
+    if a_b.mc is None or a_a.mc is None:
+        return {}
+    vb, va = a_b.mc.feedpoint.values, a_a.mc.feedpoint.values
+    cov = a_b.mc.coverage
+    out = {"min_swr_change": change_interval(va["min_swr"], vb["min_swr"], cov),
+           "swr_2_width_change_hz": change_interval(_span2_total_draws(a_a), _span2_total_draws(a_b), cov)}
+    if kb is not None and ka is not None:
+        out["resonance_shift_hz"] = change_interval(va[f"res_hz_{ka}"], vb[f"res_hz_{kb}"], cov)
+    return out
+
+
+def _certainty(verdict: dict, fp: dict, limits: Limits, intervals: dict) -> None:
+    """Say, for each limit with an interval, whether it is exceeded beyond the uncertainty or only within it.
+
+    ``verdict["certainty"][name]`` is ``"beyond"`` (exceeded, the whole interval past the limit),
+    ``"exceeded_within_uncertainty"`` (exceeded, but the interval reaches back inside), ``"inside_within_uncertainty"``
+    (inside, but the interval reaches past the limit) or ``"inside"`` (the whole interval inside);
+    ``verdict["beyond_uncertainty"]`` lists the limits exceeded beyond it and ``verdict["within_uncertainty"]`` those
+    exceeded only within it."""
+    checks = []
+    iv = intervals.get("resonance_shift_hz")
+    if iv is not None and fp.get("resonance_shift_hz") is not None:
+        lim = limits.max_shift_hz
+        checks.append(("max_shift_hz", abs(fp["resonance_shift_hz"]) > lim, min(abs(iv[0]), abs(iv[1])) > lim and
+                       iv[0] * iv[1] > 0, max(abs(iv[0]), abs(iv[1])) > lim))
+    iv = intervals.get("min_swr_change")
+    if iv is not None and fp.get("min_swr_change") is not None:
+        lim = limits.max_swr_rise
+        checks.append(("max_swr_rise", fp["min_swr_change"] > lim, iv[0] > lim, iv[1] > lim))
+    iv = intervals.get("swr_2_width_change_hz")
+    bw_b = fp.get("swr_2_width_before_hz") or 0.0
+    if iv is not None and bw_b > 0 and fp.get("swr_2_width_change_percent") is not None:
+        lim = limits.max_bw_loss_percent
+        lo_pct, hi_pct = 100 * iv[0] / bw_b, 100 * iv[1] / bw_b
+        checks.append(("max_bw_loss_percent", -fp["swr_2_width_change_percent"] > lim, -hi_pct > lim, -lo_pct > lim))
+    cert = {}
+    for name, exceeded, all_past, some_past in checks:
+        if exceeded:
+            cert[name] = "beyond" if all_past else "exceeded_within_uncertainty"
+        else:
+            cert[name] = "inside_within_uncertainty" if some_past else "inside"
+    verdict["certainty"] = cert
+    verdict["beyond_uncertainty"] = [k for k in verdict["limits_exceeded"] if cert.get(k) == "beyond"]
+    verdict["within_uncertainty"] = [k for k in verdict["limits_exceeded"]
+                                     if cert.get(k) == "exceeded_within_uncertainty"]
+    notes = {"exceeded_within_uncertainty": "exceeded, but only within the uncertainty",
+             "beyond": "exceeded beyond the uncertainty",
+             "inside_within_uncertainty": "within the limit, but the uncertainty reaches past it"}
+    verdict["certainty_text"] = {k: notes[v] for k, v in cert.items() if v in notes}
 
 
 def _verdict(fp: dict, line: dict, limits: Limits, res_b, res_a) -> dict:

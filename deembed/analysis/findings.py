@@ -445,13 +445,32 @@ def q_from_span(f_lo, f_hi, threshold_swr) -> float:
 
 # --------------------------------------------------------------------------------------------- trim
 
-def trim_advice(resonance_hz, target_hz) -> dict:
+TRIM_RULE_LIMIT = 0.15
+"""Largest relative distance between the resonance and the target for which trimming advice is given.
+Our choice (common practice, no source): f ~ 1/length holds for small changes of one resonant element,
+while its end effects, the reactance of its feed region and its coupling to nearby conductors stay much
+the same; over about 15 % they do not, and far enough away (a factor near 2 or 3) the element answers
+on another mode altogether. Beyond it: cut in steps and sweep again."""
+
+
+def trim_advice(resonance_hz, target_hz, *, resonance_draws_hz=None, coverage: float = 0.95) -> dict:
     """How much to change a resonant element's length to move its resonance to ``target_hz``.
+
+    Parameters
+    ----------
+    resonance_hz, target_hz : float
+        The series resonance to move and where it should go, Hz.
+    resonance_draws_hz : ndarray, optional
+        Monte Carlo draws of the resonance: the change then gets a coverage interval.
+    coverage : float
+        Coverage probability of that interval.
 
     Returns
     -------
     dict
-        ``{"target_hz", "resonance_hz", "length_change_percent"}``; a negative change means shorten.
+        ``{"target_hz", "resonance_hz", "length_change_percent", "length_change_percent_interval",
+        "refused"}``; a negative change means shorten. ``refused`` is None, or the reason there is no advice
+        (the target is more than :data:`TRIM_RULE_LIMIT` away), with ``length_change_percent`` None.
 
     Notes
     -----
@@ -463,13 +482,112 @@ def trim_advice(resonance_hz, target_hz) -> dict:
         raise OptionError("target frequency", f"{target_hz!r} is not a positive frequency; give one like 7.15MHz")
     if not (math.isfinite(res) and res > 0):
         raise OptionError("resonance frequency", f"{resonance_hz!r} is not a positive frequency")
-    return {"target_hz": tgt, "resonance_hz": res, "length_change_percent": (res / tgt - 1.0) * 100.0}
+    out = {"target_hz": tgt, "resonance_hz": res, "length_change_percent": (res / tgt - 1.0) * 100.0,
+           "length_change_percent_interval": None, "refused": None}
+    if abs(tgt / res - 1) > TRIM_RULE_LIMIT:
+        out["length_change_percent"] = None
+        out["refused"] = (f"the target is {abs(tgt / res - 1):.0%} away from the resonance; the rule that resonance "
+                          f"scales as 1/length only holds within about {TRIM_RULE_LIMIT:.0%}, where the element's end "
+                          "effects, feed and surroundings stay the same (farther out it may answer on another mode): "
+                          "cut or add in steps and sweep again")
+        return out
+    if resonance_draws_hz is not None:
+        d = np.asarray(resonance_draws_hz, dtype=float)
+        d = d[np.isfinite(d)]
+        if d.size >= 10:
+            lo, hi = np.quantile((d / tgt - 1.0) * 100.0, [(1 - coverage) / 2, (1 + coverage) / 2])
+            out["length_change_percent_interval"] = [float(lo), float(hi)]
+    return out
+
+
+def trim_resonance(resonances, target_hz, primary_hz=None):
+    """The series resonance the trimming advice is about, or None.
+
+    Among the series resonances (X rising through zero: the element's own resonance; a parallel one is
+    not moved the same way by its length), the one at the SWR minimum (``primary_hz``) when it is within
+    :data:`TRIM_RULE_LIMIT` of the target, else the one nearest the target.
+
+    Parameters
+    ----------
+    resonances : list of dict
+        ``{"freq_hz", "kind", ...}`` as in :func:`end_findings`.
+    """
+    series = [r for r in resonances if r.get("kind") == "series" and r.get("freq_hz")]
+    if not series:
+        return None
+    tgt = float(target_hz)
+    if primary_hz is not None:
+        prim = min(series, key=lambda r: abs(r["freq_hz"] - primary_hz))
+        if abs(prim["freq_hz"] - primary_hz) <= 1e-9 * primary_hz + 1e-3 and abs(tgt / prim["freq_hz"] - 1) <= TRIM_RULE_LIMIT:
+            return prim
+    return min(series, key=lambda r: abs(r["freq_hz"] - tgt))
 
 
 # ------------------------------------------------------------------------------------- end findings
 
-def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
-    """Everything :mod:`deembed.findings` can say about one end of the line, ready for JSON.
+def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS, *, events=None, sigma=None) -> dict:
+    """Everything the findings can say about one end of the line, ready for JSON.
+
+    The findings come from the smooth local models of :mod:`deembed.analysis.smooth` (a local polynomial fit
+    near each event, Savitzky-Golay), not from single samples; the per-sample functions above remain for
+    checks and for callers that want them.
+
+    Parameters
+    ----------
+    freq_hz : array_like, shape (n,)
+        Strictly increasing frequencies, Hz.
+    gamma : array_like, shape (n,), complex
+        Reflection coefficient at 50 ohm.
+    thresholds : sequence of float
+        SWR levels for the bandwidths.
+    events : EventSet, optional
+        The end's events when already located (:func:`deembed.analysis.smooth.find_events`).
+    sigma : float or ndarray, optional
+        Noise RMS per sample (default: estimated from ``gamma``).
+
+    Returns
+    -------
+    dict
+        ``min_swr``: ``{"freq_hz", "swr"}``;
+        ``resonances_hz``: list of float;
+        ``resonances``: list of ``{"freq_hz", "r_ohm", "kind", "swr"}``;
+        ``swr_spans_hz``: ``{key: [[low_hz, high_hz], ...]}`` (see :func:`swr_spans_by_threshold`);
+        ``swr_spans_cut_by_sweep_edge``: ``{key: [bool per span]}``;
+        ``q``: Yaghjian-Best Q at the resonance nearest the SWR minimum, from the local model (None without
+        one, or when that resonance is not inside the widest SWR span around the minimum: a reactance zero
+        far from any match, such as the line makes at the analyzer end, has no meaningful Q);
+        ``q_freq_hz``: that resonance's frequency (None without one);
+        ``q_from_span``: Q from the 2:1 span that contains the SWR minimum (None when there is
+        none or the sweep cuts it); valid only if the antenna is matched near the centre;
+        ``noise_gamma_rms``: the noise the local models assumed (complex RMS in Gamma).
+        Every number is a Python float; NaN and inf become None.
+    """
+    from .smooth import MIN_WINDOW_POINTS, find_events
+
+    f, g = _arrays(freq_hz, gamma, "gamma")
+    if f.size < MIN_WINDOW_POINTS:     # too short for a local model: between-sample interpolation
+        out = sample_end_findings(f, g, thresholds)
+        out["noise_gamma_rms"] = None
+        return out
+    if events is None:
+        events = find_events(f, g, sigma=sigma, thresholds=thresholds)
+    v = events.findings(gamma=g) if events.nominal is None else events.findings(
+        {k: np.array([x]) for k, x in events.nominal.items()})
+    return {
+        "min_swr": v["min_swr"],
+        "resonances_hz": [_num(x) for x in v["resonances_hz"]],
+        "resonances": v["resonances"],
+        "swr_spans_hz": {k: [[_num(lo), _num(hi)] for lo, hi in sp] for k, sp in v["swr_spans_hz"].items()},
+        "swr_spans_cut_by_sweep_edge": v["swr_spans_cut_by_sweep_edge"],
+        "q": v["q"],
+        "q_freq_hz": v["q_freq_hz"],
+        "q_from_span": _num(v["q_from_span"]) if v["q_from_span"] is not None else None,
+        "noise_gamma_rms": v["noise_gamma_rms"],
+    }
+
+
+def sample_end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
+    """The per-sample findings (interpolation between samples), for sweeps too short for the local models.
 
     Parameters
     ----------

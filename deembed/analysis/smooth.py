@@ -212,7 +212,7 @@ class LocalModel:
 
     def coefficients(self, gamma_sub):
         """Polynomial coefficients (..., DEGREE + 1) from Gamma on this window's samples (..., len(idx))."""
-        return _to_domain(gamma_sub, self.domain) @ self.proj.T
+        return _rmat(_to_domain(gamma_sub, self.domain), self.proj.T)
 
     def fine_u(self, n: int = FINE_POINTS):
         return np.linspace(self.u_lo, self.u_hi, n)
@@ -225,16 +225,27 @@ def _vander(u, deg=DEGREE):
     return np.vander(np.asarray(u, dtype=float), deg + 1, increasing=True)
 
 
+def _rmat(a, m):
+    """a @ m for complex a and real m, as two real products (mixed-type matmul is not done by BLAS)."""
+    m = np.ascontiguousarray(m)
+    if np.iscomplexobj(a):
+        out = np.empty(a.shape[:-1] + (m.shape[-1],), dtype=complex)
+        out.real = np.ascontiguousarray(a.real) @ m
+        out.imag = np.ascontiguousarray(a.imag) @ m
+        return out
+    return a @ m
+
+
 def _poly(coef, u):
     """Evaluate polynomials (..., p) at points u (k,): (..., k)."""
-    return coef @ _vander(u, coef.shape[-1] - 1).T
+    return _rmat(coef, _vander(u, coef.shape[-1] - 1).T)
 
 
 def _poly_d(coef, u):
     """Derivative d/du of polynomials (..., p) at u (k,): (..., k)."""
     p = coef.shape[-1]
     dcoef = coef[..., 1:] * np.arange(1, p)
-    return dcoef @ _vander(u, p - 2).T
+    return _rmat(dcoef, _vander(u, p - 2).T)
 
 
 def _fit(freq, gamma, sigma, idx, fc, h, domain):
@@ -252,8 +263,8 @@ def _fit(freq, gamma, sigma, idx, fc, h, domain):
     pinv = np.linalg.pinv(a)                                  # (p, n)
     proj = pinv * wt[None, :]
     proj[:, ~ok] = 0.0
-    coef = np.where(ok, w_data, 0) @ proj.T
-    fitted = _from_domain(coef @ v.T, domain)
+    coef = _rmat(np.where(ok, w_data, 0), proj.T)
+    fitted = _from_domain(_rmat(coef, v.T), domain)
     r = (g - fitted) / sigma[idx]
     dof = max(int(ok.sum()) - (DEGREE + 1), 1)
     chi2 = float(np.sum(np.abs(r[ok]) ** 2) / dof)          # complex residual: E|r|^2 = 1 per point
@@ -460,16 +471,13 @@ class EventSet:
             zu = (1 + g) / (1 - g) if any(m.domain == "z" for m in models) else None
             yu = (1 / zu if zu is not None else (1 - g) / (1 + g)) if any(m.domain == "y" for m in models) else None
 
-        stacked = self._stacked(union)
-        coef_all = {}
-        for dom, (mat, _) in stacked.items():
-            w = zu if dom == "z" else yu
-            w = np.where(np.isfinite(w), w, 0)
-            coef_all[dom] = (w.real @ mat.T) + 1j * (w.imag @ mat.T)
-
         def coefficients(model):
-            start = stacked[model.domain][1][id(model)]
-            return coef_all[model.domain][:, start:start + DEGREE + 1]
+            # one small product per window (a single stacked product over the whole union is large enough for
+            # a multi-threaded BLAS to start threads, which costs far more than it saves on a busy machine)
+            pos = np.searchsorted(union, model.idx)
+            w = (zu if model.domain == "z" else yu)[:, pos]
+            w = np.where(np.isfinite(w), w, 0)
+            return _rmat(w, model.proj.T)
 
         def p2_of(w, domain):
             """|Gamma|^2 from a normalised immittance without complex division."""
@@ -515,26 +523,23 @@ class EventSet:
             out[f"edge_{ev.key}_{ev.span}_{ev.side}"] = m.freq(ue)
         return out
 
-    def _stacked(self, union):
-        """Per domain: one projector (k (DEGREE + 1), len(union)) for every model, and each model's row offset."""
-        key = (union.size, int(union[0]) if union.size else -1, int(union[-1]) if union.size else -1)
-        cache = getattr(self, "_stack_cache", None)
-        if cache is not None and cache[0] == key:
-            return cache[1]
-        out = {}
-        for dom in ("z", "y"):
-            models = [e.model for e in self.all_events() if e.model.domain == dom]
-            if not models:
-                continue
-            p = DEGREE + 1
-            mat = np.zeros((p * len(models), union.size))
-            offsets = {}
-            for k, m in enumerate(models):
-                mat[k * p:(k + 1) * p, np.searchsorted(union, m.idx)] = m.proj
-                offsets[id(m)] = k * p
-            out[dom] = (mat, offsets)
-        self._stack_cache = (key, out)
-        return out
+    def _near_match(self, spans, f_res, f_min) -> bool:
+        """Whether a resonance is the antenna's own near its best match, where Q means something.
+
+        The narrowest SWR span that holds the SWR minimum must hold this resonance and no other reactance zero
+        (behind a long line the analyzer end shows a zero every few hundred kHz: none of them is the
+        antenna's, and a Q there describes the line). Without such a span, the resonance must be the only
+        one in the sweep."""
+        if not math.isfinite(f_min):
+            return False
+        v = self.nominal or {}
+        zeros = [v.get(f"res_hz_{i}", math.nan) for i in self.kept_resonances()]
+        for t in sorted(self.thresholds):
+            for lo, hi in spans.get(threshold_key(t), []):
+                if lo <= f_min <= hi:
+                    inside = [z for z in zeros if lo <= z <= hi]
+                    return len(inside) == 1 and lo <= f_res <= hi
+        return len(zeros) == 1
 
     def kept_resonances(self) -> list[int]:
         """Indices of the resonances that the findings report: placed by the fit on the measured trace, with
@@ -577,9 +582,9 @@ class EventSet:
             spans[key] = out
         q = v.get("q", math.nan)
         q_freq = None
-        if self.primary is not None:
+        if self.primary is not None and self.primary in self.kept_resonances():
             fr = v.get(f"res_hz_{self.primary}", math.nan)
-            q_freq = fr if math.isfinite(fr) else None
+            q_freq = fr if math.isfinite(fr) and self._near_match(spans, fr, v["min_hz"]) else None
         return {
             "min_swr": {"freq_hz": _num(v["min_hz"]), "swr": _num(v["min_swr"])},
             "resonances_hz": [r["freq_hz"] for r in res],
@@ -652,9 +657,9 @@ def detection_trace(gamma, half: int | None = None):
     out[half:n - half] = np.convolve(g, pinv[0][::-1], mode="valid")
     # the first and last half-windows take the value of the fit over the end window (as "interp" ends)
     for sl, us in ((slice(0, 2 * half + 1), slice(0, half)), (slice(n - 2 * half - 1, n), slice(n - half, n))):
-        coef = pinv @ g[sl]
+        coef = _rmat(g[sl][None, :], pinv.T)[0]
         uu = k / half
-        vals = _vander(uu) @ coef
+        vals = _rmat(coef[None, :], _vander(uu).T)[0]
         out[us] = vals[:half] if us.start == 0 else vals[half + 1:]
     return out
 

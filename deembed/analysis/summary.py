@@ -36,11 +36,16 @@ def end_columns(gamma) -> dict:
     }
 
 
-def table_columns(corr, budget: dict | None = None) -> dict:
-    """All columns of the per-frequency table, in order (a dict of equal-length arrays)."""
+def table_columns(corr, budget: dict | None = None, swr_band=None) -> dict:
+    """All columns of the per-frequency table, in order (a dict of equal-length arrays).
+
+    ``swr_band`` (low, high) adds the feedpoint SWR's coverage interval at each frequency
+    (``feedpoint_swr_low``, ``feedpoint_swr_high``)."""
     cols = {"freq_hz": corr.freq_hz}
     for end, g in (("analyzer", corr.gamma_analyzer), ("feedpoint", corr.gamma_feedpoint)):
         cols.update({f"{end}_{k}": v for k, v in end_columns(g).items()})
+        if end == "feedpoint" and swr_band is not None:
+            cols["feedpoint_swr_low"], cols["feedpoint_swr_high"] = swr_band
     cols["line_matched_loss_db"] = corr.matched_loss_db
     if has_characterized_part(corr.line):  # estimated |dGamma| from evaluating the line between its points
         cols["feedpoint_between_points_error"] = between_error(corr.line, corr.freq_hz, corr.gamma_feedpoint)
@@ -113,21 +118,32 @@ def line_summary(line, freq_hz) -> dict:
     return out
 
 
-def summarise(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | None = None) -> dict:
-    """The summary of a correction: both ends' findings, the line, warnings (JSON-ready)."""
+def summarise(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | None = None,
+              assessment=None) -> dict:
+    """The summary of a correction: both ends' findings (with their uncertainty), the line, warnings (JSON-ready).
 
+    ``assessment`` is :func:`deembed.analysis.trust.assess` of the correction (made here, without the
+    Monte Carlo step, when not given)."""
+    from .trust import assess, sources_record, uncertainty_blocks
+
+    a = assessment or assess(corr.freq_hz, corr.gamma_analyzer, corr.gamma_feedpoint, corr.line,
+                             thresholds=thresholds, settings=None)
     summary = {
         "sweep": {"file": corr.source, "points": int(corr.freq_hz.size),
-                  "low_hz": float(corr.freq_hz[0]), "high_hz": float(corr.freq_hz[-1])},
+                  "low_hz": float(corr.freq_hz[0]), "high_hz": float(corr.freq_hz[-1]),
+                  "noise_gamma_rms": float(a.noise_rms)},
         "line": line_summary(corr.line, corr.freq_hz),
-        "feedpoint": end_findings(corr.freq_hz, corr.gamma_feedpoint, thresholds=thresholds),
-        "analyzer": end_findings(corr.freq_hz, corr.gamma_analyzer, thresholds=thresholds),
-        "warnings": list(notes) + warnings_for(corr),
+        "feedpoint": end_findings(corr.freq_hz, corr.gamma_feedpoint, thresholds=thresholds, events=a.events_fp),
+        "analyzer": end_findings(corr.freq_hz, corr.gamma_analyzer, thresholds=thresholds, events=a.events_an),
+        "warnings": list(notes) + warnings_for(corr) + list(a.notes),
     }
     bp = between_points(corr.line, corr.freq_hz, corr.gamma_feedpoint)
     if bp is not None:
         summary["line"]["between_points"] = bp
         summary["warnings"].extend(between_warnings(bp))
+    blocks = uncertainty_blocks(a, corr.line, sources_record(a, corr.line)) if a.mc is not None else {}
+    summary["feedpoint"]["uncertainty"] = blocks.get("feedpoint")
+    summary["analyzer"]["uncertainty"] = blocks.get("analyzer")
     if sweep_info:
         summary["sweep"].update(sweep_info)
     return summary

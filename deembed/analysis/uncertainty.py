@@ -355,7 +355,8 @@ def deembed_draws(gamma_an_draws, s11, s21s12, s22):
 
 def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, noise_rms: float,
         calibration: Calibration = CAL_PRESETS["hobby"], n_draws: int = DEFAULT_DRAWS, seed: int = DEFAULT_SEED,
-        coverage: float = DEFAULT_COVERAGE, line_draws: LineDraws | None = None, band: bool = True) -> McResult:
+        coverage: float = DEFAULT_COVERAGE, line_draws: LineDraws | None = None, band: bool = True,
+        noise_key: int = 0) -> McResult:
     """The Monte Carlo step for one sweep: draws of the analyzer end and of the line, findings of every draw.
 
     Parameters
@@ -374,10 +375,16 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
         Line parameter draws to use (compare shares one set between two sweeps); drawn here otherwise.
     band : bool
         Also work out the feedpoint SWR band at every frequency.
+    noise_key : int
+        0 for a sweep's own noise stream; another value gives a second, independent noise stream with the
+        same line and calibration draws (compare: the after sweep, measured with the same analyzer and kit).
     """
     f = np.asarray(freq_hz, dtype=float)
     g = np.asarray(gamma_an, dtype=complex)
     r_line, r_cal, r_noise, r_band = seeds(seed)
+    if noise_key:
+        r_noise, r_band = (np.random.default_rng(c) for c in
+                           np.random.SeedSequence(int(seed), spawn_key=(7919, int(noise_key))).spawn(2))
     if line_draws is None:
         line_draws = draw_line(line, n_draws, r_line)
     an = draw_analyzer(calibration, noise_rms, n_draws, r_cal)
@@ -490,15 +497,46 @@ def end_block(end: EndDraws, nominal: dict, *, coverage: float, n_draws: int, se
                          interval(hi, coverage) if hi is not None else None])
         spans[key] = rows
     out["swr_spans_hz"] = spans
-    lost = [k for k, a in v.items() if np.size(a) and np.isnan(a).mean() > MAX_LOST_FRACTION
-            and not k.startswith("res_r_ohm")]
-    if lost:
-        out["not_resolved"] = sorted(lost)
-    headline = prim if prim and out["resonance_hz"] is not None else ("min_swr" if out["min_swr"] else None)
+    lost = {}
+    names = {f"res_hz_{i}": f"resonances_hz[{j}]" for j, i in enumerate(ev.kept_resonances())}
+    if prim:
+        names[prim] = "resonance_hz"
+    names.update({"min_swr": "min_swr", "min_hz": "min_swr_freq_hz", "q": "q"})
+    for k, a in v.items():
+        frac = float(np.isnan(a).mean()) if np.size(a) else 0.0
+        if frac <= MAX_LOST_FRACTION:
+            continue
+        if k.startswith("edge_"):
+            _, key, j, side = k.split("_")
+            lost[f"swr_spans_hz[{key}][{j}].{side}"] = frac
+        elif k in names and not (k == "q" and nominal.get("q") is None):
+            lost[names[k]] = frac
+            if k == prim and ev.primary in ev.kept_resonances():
+                lost[f"resonances_hz[{ev.kept_resonances().index(ev.primary)}]"] = frac
+    out["not_resolved"] = lost
+    kept = ev.kept_resonances()
+    headline = prim if prim and ev.primary in kept else ("min_swr" if out["min_swr"] else None)
     if headline:
         share = contributions(v[headline], end.inputs)
-        out["contributions"] = {("resonance_hz" if headline == prim else "min_swr"): share}
-        out["limited_by"] = limiting_text(share, v, headline, matched_loss_db)
+        name = "resonance_hz" if headline == prim else "min_swr"
+        out["contributions"] = {name: share}
+        if out.get(name) is None and end.inputs:
+            # the finding is lost in many draws: name the input whose large draws lose it
+            miss = np.isnan(np.asarray(v[headline], dtype=float)).astype(float)
+            size = {}
+            for nm, x in end.inputs:            # each source's distance from its nominal (summed over its parts)
+                size[nm] = size.get(nm, 0.0) + np.asarray(x, dtype=float) ** 2
+            score = {}
+            for nm, xx in size.items():
+                c = np.corrcoef(miss, xx)[0, 1] if np.std(xx) > 0 and np.std(miss) > 0 else 0.0
+                score[nm] = abs(float(c)) if np.isfinite(c) else 0.0
+            worst = max(score, key=score.get)
+            what = "resonance" if name == "resonance_hz" else "lowest SWR"
+            text = (f"{worst} tolerance: the {what} cannot be placed in {lost.get(name, 0):.0%} of the draws; "
+                    "tighten that tolerance (measure or characterize the line)")
+        else:
+            text = limiting_text(share, v, headline, matched_loss_db)
+        out["limited_by"] = text
     else:
         out["contributions"] = {}
         out["limited_by"] = None

@@ -11,8 +11,9 @@ from typing import List, Optional
 
 import typer
 
-from .options import (CableOpt, CablesOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, NameOpt, PortOpt,
-                      RecordOpt, VfOpt, Z0Opt, OPTION_FOR_FIELD, build_line, check_port, record_options)
+from .options import (CableOpt, CablesOpt, CalOpt, DelayOpt, DrawsOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt,
+                      NameOpt, PortOpt, RecordOpt, SeedOpt, TolOpt, VfOpt, Z0Opt, OPTION_FOR_FIELD, build_line,
+                      check_port, record_options, uncertainty_settings)
 from ..base.verdicts import WITHIN
 
 MaxShiftOpt = typer.Option(None, "--max-shift", help="Largest acceptable move of the feedpoint resonance, "
@@ -57,6 +58,10 @@ def compare_command(
     baseline_date: Optional[str] = typer.Option(None, "--baseline-date", help="The day the baseline was taken, "
                                                 "for --record (default: its file's modification day, flagged)."),
     name: Optional[str] = NameOpt,
+    tol: Optional[List[str]] = TolOpt,
+    draws: int = DrawsOpt,
+    seed: int = SeedOpt,
+    cal_uncertainty: str = CalOpt,
 ):
     """Compare an after-work sweep with a baseline through the same line: did the antenna or the line change?
 
@@ -72,10 +77,16 @@ def compare_command(
                            "max_gamma_change": max_gamma_change, "max_bw_loss": max_bw_loss,
                            "max_loss_change": max_loss_change})
     the_date, the_baseline_date = record_options(record, date, name, baseline_date=baseline_date)
-    the_line, _ = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate)
+    from ..analysis.trust import UncertaintySettings
+
+    settings = uncertainty_settings(draws, seed, cal_uncertainty)
+    the_line, _ = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate, tol)
     result, before, later = compare_files_with_corrections(baseline, after, the_line, after_line=after_line,
                                                            limits=limits, port=port, out=out, cables=cables,
-                                                           extrapolate=extrapolate, inputs=[line])
+                                                           extrapolate=extrapolate, inputs=[line],
+                                                           settings=settings if settings is not None
+                                                           else UncertaintySettings(draws=0),
+                                                           tolerances=tol or ())
     if as_json:
         print(json.dumps(to_jsonable(result), indent=2, allow_nan=False))
     else:

@@ -7,8 +7,9 @@ from typing import List, Optional
 
 import typer
 
-from .options import (CableOpt, CablesOpt, DateOpt, DelayOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt, NameOpt,
-                      PortOpt, RecordOpt, VfOpt, Z0Opt, build_line, check_port, parse_thresholds, record_options)
+from .options import (CableOpt, CablesOpt, CalOpt, DateOpt, DelayOpt, DrawsOpt, ExtrapolateOpt, LengthOpt, LineOpt,
+                      LossOpt, NameOpt, PortOpt, RecordOpt, SeedOpt, TolOpt, VfOpt, Z0Opt, build_line, check_port,
+                      parse_thresholds, record_options, uncertainty_settings)
 
 
 def correct_command(
@@ -34,6 +35,10 @@ def correct_command(
     record: Optional[str] = RecordOpt,
     date: Optional[str] = DateOpt,
     name: Optional[str] = NameOpt,
+    tol: Optional[List[str]] = TolOpt,
+    draws: int = DrawsOpt,
+    seed: int = SeedOpt,
+    cal_uncertainty: str = CalOpt,
 ):
     """Correct a sweep through a known line: feedpoint Touchstone, table, summary, plots and report."""
     from ..io.jsonfile import to_jsonable
@@ -42,12 +47,14 @@ def correct_command(
 
     check_port(port)
     the_date, _ = record_options(record, date, name)
-    the_line, notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate)
+    settings = uncertainty_settings(draws, seed, cal_uncertainty)
+    the_line, notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate, tol)
     opts = workflow.Options(
         port=port, thresholds=parse_thresholds(swr_limits),
         target_hz=parse_frequency(target, "--target") if target else None,
         power_w=parse_power(power) if power else None,
         bands=bands, bands_file=bands_file, plots=not no_plots, html=not no_plots, notes=notes,
+        uncertainty=settings,
     )
     corr, summary, _ = workflow.correct_file(sweep, the_line, out, opts, line_inputs=[line, cables])
     if as_json:

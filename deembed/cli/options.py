@@ -52,21 +52,54 @@ OPTION_FOR_FIELD = {
     "measured_swr": "--measured-swr", "antenna_swr": "--antenna-swr", "open_c": "--open-c", "short_l": "--short-l",
     "load_r": "--load-r", "standards": "--open/--short/--load", "swr_threshold": "--swr-limits",
     "max_shift": "--max-shift", "max_swr_rise": "--max-swr-rise", "max_gamma_change": "--max-gamma-change",
-    "max_bw_loss": "--max-bw-loss", "max_loss_change": "--max-loss-change",
+    "max_bw_loss": "--max-bw-loss", "max_loss_change": "--max-loss-change", "tolerance": "--tol",
 }
 """The library's field names (in :class:`~deembed.base.errors.DeembedError` messages) and the options that set
 them: the command line shows its option names in every error."""
 
-LINE_OPTIONS = {k: OPTION_FOR_FIELD[k] for k in ("cable", "length", "vf", "delay", "z0", "loss", "line")}
+LINE_OPTIONS = {k: OPTION_FOR_FIELD[k] for k in ("cable", "length", "vf", "delay", "z0", "loss", "line", "tolerance")}
 
 
-def build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate=False):
+TolOpt = typer.Option(None, "--tol", help="A line tolerance, NAME=VALUE, repeatable: length=0.2m (or 1%), vf=0.02, "
+                                          "delay=1ns, loss=15%, z0=2ohm. Defaults: the catalog's, else 1 % of "
+                                          "length or delay, VF 0.01, loss 10 % (points) or 25 % (catalog), Z0 4 %.")
+
+
+DrawsOpt = typer.Option(1000, "--draws", help="Monte Carlo draws for the uncertainty intervals (0: no intervals).")
+
+
+SeedOpt = typer.Option(1, "--seed", help="Seed of the uncertainty's random draws (same seed, same intervals).")
+
+
+CalOpt = typer.Option("hobby", "--cal-uncertainty",
+                      help="The analyzer's calibration error: hobby (default: an inexpensive analyzer and kit), "
+                           "bench (a calibrated bench VNA), none, or one bound in |Gamma| such as 0.02.")
+
+
+def uncertainty_settings(draws: int, seed: int, cal: str):
+    """The uncertainty settings from --draws, --seed and --cal-uncertainty (None for --draws 0)."""
+    from ..analysis.trust import UncertaintySettings
+    from ..analysis.uncertainty import parse_calibration
+
+    if draws < 0 or draws > 100_000:
+        raise OptionError("--draws", f"{draws}: give a number of draws from 0 (no intervals) to 100000; 1000 is usual")
+    if 0 < draws < 100:
+        raise OptionError("--draws", f"{draws} draws are too few for a 95 % interval; give 100 or more, or 0")
+    if seed < 0:
+        raise OptionError("--seed", f"{seed}: the seed must be 0 or more")
+    cal_ = parse_calibration(cal, "--cal-uncertainty")
+    if draws == 0:
+        return None
+    return UncertaintySettings(draws=draws, seed=seed, calibration=cal_)
+
+
+def build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate=False, tolerances=()):
     """The line from the shared options, plus notes for the summary."""
     from ..io.linefile import line_from_options
 
     return line_from_options(cable=cable, length=length, vf=vf, delay=delay, z0=z0, loss=loss or (),
                              cables_file=cables, line_file=line, allow_extrapolation=extrapolate,
-                             names=LINE_OPTIONS)
+                             names=LINE_OPTIONS, tolerances=tolerances or ())
 
 
 def parse_thresholds(text: str) -> tuple:

@@ -25,6 +25,10 @@ class Cable:
     k1: float  # dB/100 ft per sqrt(MHz)
     k2: float  # dB/100 ft per MHz
     source: str
+    vf_tol: float | None = None      # +/- on the velocity factor (absolute)
+    loss_tol: float | None = None    # +/- on the matched loss, as a fraction
+    z0_tol: float | None = None      # +/- on Z0, ohm
+    tol_source: str = ""
 
     def loss_db_per_100ft(self, freq_hz):
         import numpy as np
@@ -56,8 +60,17 @@ def parse_catalog(data: dict, origin: str) -> dict[str, Cable]:
         if not (0 < z0 < math.inf and 0 < vf <= 1 and 0 <= k1 < math.inf and 0 <= k2 < math.inf):
             raise InputFileError(origin, f"cable [{cid}]: need finite z0 > 0, 0 < vf <= 1, k1 >= 0, k2 >= 0; "
                                          "correct the entry")
+        tols = {}
+        for key in ("vf_tol", "loss_tol", "z0_tol"):
+            if key in entry:
+                v = entry[key]
+                if isinstance(v, bool) or not isinstance(v, (int, float)) or not (0 <= float(v) < math.inf):
+                    raise InputFileError(origin, f"cable [{cid}]: {key} must be a number, 0 or more "
+                                                 "(vf_tol absolute, loss_tol a fraction such as 0.25, z0_tol in ohm)")
+                tols[key] = float(v)
         out[cid.lower()] = Cable(cid.lower(), str(entry.get("name", cid)), z0, vf, k1, k2,
-                                 str(entry.get("source", "user catalog, no source given")))
+                                 str(entry.get("source", "user catalog, no source given")), **tols,
+                                 tol_source=str(entry.get("tol_source", "")))
     return out
 
 

@@ -51,6 +51,7 @@ class SectionSpec:
     z0: object = None
     loss: list = field(default_factory=list)
     label: str | None = None
+    tolerance: dict = field(default_factory=dict)
 
 
 SECTION_KEYS = ("cable", "length", "vf", "delay", "z0", "loss")
@@ -59,6 +60,95 @@ SECTION_KEYS = ("cable", "length", "vf", "delay", "z0", "loss")
 _OPT = {k: k for k in SECTION_KEYS}
 """Default names of the section fields in messages and notes: the fields themselves (a caller such as the
 command line passes its own names, e.g. its options)."""
+
+TOLERANCE_NAMES = ("length", "vf", "delay", "loss", "z0")
+"""Quantities a tolerance can be set for (``--tol NAME=VALUE`` or a section's ``tolerance`` table)."""
+
+
+def parse_tolerance_items(items, option: str = "tolerance") -> dict:
+    """``["length=0.2m", "loss=15%"]`` (or a dict) -> ``{"length": "0.2m", "loss": "15%"}``, names checked."""
+    out = {}
+    if isinstance(items, dict):
+        pairs = list(items.items())
+    else:
+        pairs = []
+        for it in items or ():
+            if "=" not in str(it):
+                raise OptionError(option, f"{it!r}: write NAME=VALUE, e.g. length=0.2m, vf=0.02, loss=15%, z0=2ohm, "
+                                          "delay=1ns")
+            k, v = str(it).split("=", 1)
+            pairs.append((k, v))
+    for k, v in pairs:
+        k = str(k).strip().lower()
+        if k not in TOLERANCE_NAMES:
+            raise OptionError(option, f"unknown tolerance {k!r}; use {', '.join(TOLERANCE_NAMES)}")
+        if isinstance(v, bool) or not isinstance(v, (str, int, float)):
+            raise OptionError(option, f"{k}: give the tolerance as text such as \"0.2m\" or \"15%\", or a number")
+        out[k] = str(v).strip()
+    return out
+
+
+def _fraction(text: str, option: str, what: str):
+    """'15%' -> 0.15; None when the text has no per cent sign."""
+    t = text.strip()
+    if not t.endswith("%"):
+        return None
+    try:
+        v = float(t[:-1])
+    except ValueError:
+        raise OptionError(option, f"{what} tolerance {text!r}: write a per cent like 15%") from None
+    if not (0 <= v < 100):
+        raise OptionError(option, f"{what} tolerance {text!r}: a per cent from 0 to below 100")
+    return v / 100
+
+
+def _plain(text, option, what, upper):
+    try:
+        v = float(text)
+    except ValueError:
+        raise OptionError(option, f"{what} tolerance {text!r} is not a number") from None
+    if not (v >= 0 and (upper is None or v < upper)) or v != v or v == float("inf"):
+        raise OptionError(option, f"{what} tolerance {text!r}: must be 0 or more"
+                                  f"{'' if upper is None else f' and below {upper:g}'}")
+    return v
+
+
+def _tolerance(spec: SectionSpec, cable, z0, vf, length_m, delay_s, loss_from: str, option: str):
+    """The section's tolerance: defaults (the catalog's where it has them) with the user's figures on top."""
+    from ..physics.tolerance import default_tolerance
+
+    by_delay = spec.delay is not None
+    tol = default_tolerance(length_m=None if by_delay else length_m, vf=None if by_delay else vf,
+                            delay_s=delay_s if by_delay else None, z0_ohm=z0, loss_from=loss_from,
+                            cable_vf_tol=cable.vf_tol if cable and spec.vf is None else None,
+                            cable_loss_tol=cable.loss_tol if cable and loss_from == "catalog" else None,
+                            cable_z0_tol=cable.z0_tol if cable and spec.z0 is None else None,
+                            cable_source=(cable.tol_source or cable.source) if cable else "")
+    given = parse_tolerance_items(spec.tolerance, option)
+    new = {}
+    for k, text in given.items():
+        frac = _fraction(text, option, k)
+        if k == "length":
+            if by_delay or length_m is None:
+                raise OptionError(option, "a length tolerance needs a section given by its length; give delay=... "
+                                          "instead")
+            new["length_m"] = frac * length_m if frac is not None else parse_length(text, option)
+        elif k == "vf":
+            if by_delay:
+                raise OptionError(option, "a velocity-factor tolerance needs a section given by length and VF; "
+                                          "give delay=... instead")
+            new["vf"] = frac * vf if frac is not None else _plain(text, option, "velocity factor", 1.0)
+        elif k == "delay":
+            if not by_delay:
+                raise OptionError(option, "a delay tolerance needs a section given by its delay; give length=... "
+                                          "and vf=... instead")
+            new["delay_s"] = frac * delay_s if frac is not None else parse_delay(text, option)
+        elif k == "loss":
+            new["loss_fraction"] = frac if frac is not None else _plain(text, option, "loss (a fraction)", 1.0)
+        elif k == "z0":
+            t = text.lower().removesuffix("ohm").strip()
+            new["z0_ohm"] = frac * z0 if frac is not None else _plain(t, option, "Z0 (ohm)", None)
+    return tol.with_values(**new) if new else tol
 
 
 def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Section, list[str]]:
@@ -95,6 +185,9 @@ def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Sec
     if spec.loss:
         points = [parse_loss_point(p, names["loss"]) for p in spec.loss]
         loss = LossModel.fit(points, names["loss"])
+        misfit = LossModel.fit_misfit(loss, points)
+        if misfit:
+            notes.append(misfit)
         if cable:
             notes.append(f"matched loss taken from {names['loss']}, not from the {cable.id} catalog figures")
     elif cable:
@@ -108,33 +201,44 @@ def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Sec
     if delay_s == 0 and (loss.c_np or loss.d_np):
         raise OptionError(names["length"], "a section with loss must have a length or delay above zero")
     label = spec.label or (cable.name if cable else f"{z0:g} ohm line")
-    return Section(z0, delay_s, loss, length_m, vf, label), notes
+    loss_from = "points" if spec.loss else ("catalog" if cable else "none")
+    tol = _tolerance(spec, cable, z0, vf, length_m, delay_s, loss_from, names.get("tolerance", "tolerance"))
+    return Section(z0, delay_s, loss, length_m, vf, label, tolerance=tol), notes
 
 
 def line_from_options(*, cable=None, length=None, vf=None, delay=None, z0=None, loss=(), cables_file=None,
-                      line_file=None, allow_extrapolation: bool = False, names: dict | None = None
-                      ) -> tuple[Line, list[str]]:
+                      line_file=None, allow_extrapolation: bool = False, names: dict | None = None,
+                      tolerances=()) -> tuple[Line, list[str]]:
     """The line described by one section's values (or by a line file); ``names`` says how messages and notes
-    name each of ``cable``, ``length``, ``vf``, ``delay``, ``z0``, ``loss`` and ``line`` (default: so)."""
-    n = {**_OPT, "line": "line", **(names or {})}
+    name each of ``cable``, ``length``, ``vf``, ``delay``, ``z0``, ``loss``, ``line`` and ``tolerance``
+    (default: so). ``tolerances`` (``NAME=VALUE`` items) set the section's tolerances, or those of every
+    section of a line file (over the file's own)."""
+    n = {**_OPT, "line": "line", "tolerance": "tolerance", **(names or {})}
     given = [n[k] for k, v in (("cable", cable), ("length", length), ("vf", vf), ("delay", delay),
                                ("z0", z0), ("loss", loss)) if v]
     if line_file:
         if given:
             raise OptionError(n["line"], f"give either {n['line']} or {', '.join(given)}, not both")
-        return read_line_file(line_file, cables_file, allow_extrapolation)
+        return read_line_file(line_file, cables_file, allow_extrapolation, tolerances=tolerances,
+                              tolerance_name=n["tolerance"])
     if not given:
         raise OptionError(n["line"], f"say which line to remove: {n['cable']} ID {n['length']} L, or "
                                      f"{n['length']}/{n['vf']}/{n['loss']}, or {n['line']} FILE "
                                      "(see deembed correct --help)")
     cat = _cables.catalog(cables_file)
-    sec, notes = build_section(SectionSpec(cable, length, vf, delay, z0, list(loss or [])), cat,
-                               {k: n[k] for k in SECTION_KEYS})
+    tol = parse_tolerance_items(tolerances, n["tolerance"])
+    sec, notes = build_section(SectionSpec(cable, length, vf, delay, z0, list(loss or []), tolerance=tol), cat,
+                               {k: n[k] for k in (*SECTION_KEYS, "tolerance")})
     return Line((sec,)), notes
 
 
-def read_line_file(path, cables_file=None, allow_extrapolation: bool = False) -> tuple[Line, list[str]]:
-    """A line from a TOML line description or a measured/characterized 2-port Touchstone file."""
+def read_line_file(path, cables_file=None, allow_extrapolation: bool = False, tolerances=(),
+                   tolerance_name: str = "tolerance") -> tuple[Line, list[str]]:
+    """A line from a TOML line description or a measured/characterized 2-port Touchstone file.
+
+    A section may carry ``tolerance = { length = "0.2m", vf = "0.02", loss = "15%", z0 = "2ohm" }`` (or
+    ``delay = "1ns"`` for a section given by its delay); ``tolerances`` (``NAME=VALUE`` items, the command
+    line's) override them for every section."""
     p = str(path)
     if not p.lower().endswith(".toml"):
         return _two_port_line(p, allow_extrapolation), []
@@ -148,7 +252,8 @@ def read_line_file(path, cables_file=None, allow_extrapolation: bool = False) ->
     sections = data.get("section")
     if not isinstance(sections, list) or not sections or not all(isinstance(e, dict) for e in sections):
         raise InputFileError(p, "no [[section]] tables; describe the line as one or more [[section]] tables")
-    known = {"cable", "length", "vf", "delay", "z0", "loss", "label", "measured"}
+    known = {"cable", "length", "vf", "delay", "z0", "loss", "label", "measured", "tolerance"}
+    cli_tol = parse_tolerance_items(tolerances, tolerance_name)
     parts, notes = [], []
     base = os.path.dirname(os.path.abspath(p))
     for i, entry in enumerate(sections, 1):
@@ -166,7 +271,7 @@ def read_line_file(path, cables_file=None, allow_extrapolation: bool = False) ->
         if "measured" in entry:
             parts.append(_two_port_line(os.path.join(base, str(entry["measured"])), allow_extrapolation).parts[0])
             continue
-        sec, sec_notes = section_from_table(entry, cat, p, where)
+        sec, sec_notes = section_from_table(entry, cat, p, where, tolerances=cli_tol)
         parts.append(sec)
         notes += [f"{where}: {n}" for n in sec_notes]
     return Line(tuple(parts), name=str(data.get("name", ""))), notes
@@ -176,7 +281,7 @@ def as_text(v):
     return None if v is None else str(v)
 
 
-def section_from_table(entry: dict, cat: dict, path: str, where: str, label: str | None = None):
+def section_from_table(entry: dict, cat: dict, path: str, where: str, label: str | None = None, tolerances=None):
     """One section from a TOML table (a line file's ``[[section]]``, a site file's feed): (section, notes).
 
     The keys are those of :data:`SECTION_KEYS`; ``loss`` may be one string or a list. A bad value raises
@@ -184,10 +289,18 @@ def section_from_table(entry: dict, cat: dict, path: str, where: str, label: str
     """
     loss = entry.get("loss", [])
     loss = [loss] if isinstance(loss, str) else list(loss)
-    spec = SectionSpec(entry.get("cable"), as_text(entry.get("length")), entry.get("vf"), as_text(entry.get("delay")),
-                       entry.get("z0"), loss, label if label is not None else entry.get("label"))
+    tol_entry = entry.get("tolerance", {})
+    if not isinstance(tol_entry, dict):
+        raise InputFileError(path, f"{where}: 'tolerance' must be a table, e.g. tolerance = {{ length = \"0.2m\", "
+                                   "loss = \"15%\" }")
     try:
-        return build_section(spec, cat, {k: f"{where} '{k}'" for k in SECTION_KEYS})
+        tol = {**parse_tolerance_items(tol_entry, f"{where} 'tolerance'"), **(tolerances or {})}
+    except OptionError as exc:
+        raise InputFileError(path, str(exc)) from None
+    spec = SectionSpec(entry.get("cable"), as_text(entry.get("length")), entry.get("vf"), as_text(entry.get("delay")),
+                       entry.get("z0"), loss, label if label is not None else entry.get("label"), tolerance=tol)
+    try:
+        return build_section(spec, cat, {k: f"{where} '{k}'" for k in (*SECTION_KEYS, "tolerance")})
     except OptionError as exc:
         raise InputFileError(path, str(exc)) from None
 
@@ -203,5 +316,5 @@ def _two_port_line(path: str, allow_extrapolation: bool = False) -> Line:
     return Line((MeasuredTwoPort(sw.freq_hz, sw.s, label="measured 2-port", source=path),))
 
 
-__all__ = ["SECTION_KEYS", "SectionSpec", "build_section", "line_from_options", "read_line_file",
-           "section_from_table"]
+__all__ = ["SECTION_KEYS", "SectionSpec", "TOLERANCE_NAMES", "build_section", "line_from_options",
+           "parse_tolerance_items", "read_line_file", "section_from_table"]

@@ -53,7 +53,7 @@ def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *
 
 def compare_files(baseline: str, after: str, line, *, after_line: str | None = None, limits: Limits | None = None,
                   port: int | None = None, out: str | None = None, cables: str | None = None,
-                  extrapolate: bool = False, inputs=(), title: str = "") -> dict:
+                  extrapolate: bool = False, inputs=(), title: str = "", settings=None, tolerances=()) -> dict:
     """Correct a baseline and an after-work sweep and compare them; write the outputs when ``out`` is given.
 
     Parameters
@@ -72,6 +72,10 @@ def compare_files(baseline: str, after: str, line, *, after_line: str | None = N
         For reading ``after_line`` (a cable catalog of one's own; a characterized line beyond its range).
     inputs : iterable of str
         Further input files no output may overwrite (line and catalog files).
+    settings : UncertaintySettings, optional
+        How the intervals are worked out (default: 1000 draws, seed 1, hobby calibration; 0 draws for none).
+    tolerances : iterable of str
+        ``NAME=VALUE`` line tolerances for ``after_line`` (as ``--tol``).
 
     Returns
     -------
@@ -82,21 +86,22 @@ def compare_files(baseline: str, after: str, line, *, after_line: str | None = N
 
     result, _, _ = compare_files_with_corrections(baseline, after, line, after_line=after_line, limits=limits,
                                                   port=port, out=out, cables=cables, extrapolate=extrapolate,
-                                                  inputs=inputs, title=title)
+                                                  inputs=inputs, title=title, settings=settings,
+                                                  tolerances=tolerances)
     return result
 
 
 def compare_files_with_corrections(baseline: str, after: str, line, *, after_line: str | None = None,
                                    limits: Limits | None = None, port: int | None = None, out: str | None = None,
                                    cables: str | None = None, extrapolate: bool = False, inputs=(),
-                                   title: str = "") -> tuple:
+                                   title: str = "", settings=None, tolerances=()) -> tuple:
     """:func:`compare_files`, also returning both corrections: ``(result, before, after)`` (for recording)."""
     other = line
     if after_line:
-        other, _ = read_line_file(after_line, cables, extrapolate)
+        other, _ = read_line_file(after_line, cables, extrapolate, tolerances=tolerances)
     before = correct(read_sweep(baseline, port=port, expect_ports=1), line)
     later = correct(read_sweep(after, port=port, expect_ports=1), other)
-    result = compare_corrections(before, later, limits)
+    result = compare_corrections(before, later, limits, settings=settings)
     if out:
         prepare_out_dir(out)
         written = write_compare_outputs(result, before, later, compare_paths(after, out),

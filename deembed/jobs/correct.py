@@ -16,7 +16,8 @@ from ..physics.deembedding import correct
 from ..base.errors import OptionError
 from ..io.atomic import check_not_input
 from ..physics.budget import power_budget
-from ..analysis.findings import trim_advice
+from ..analysis.findings import trim_advice, trim_resonance
+from ..analysis.trust import UncertaintySettings, assess, resonance_draws
 from ..analysis.bandcheck import band_check
 from ..io.bands import load_bands
 from ..analysis.summary import ranges_text
@@ -47,6 +48,7 @@ class Options:
     plots: bool = True
     html: bool = True
     notes: list = field(default_factory=list)
+    uncertainty: UncertaintySettings | None = field(default_factory=UncertaintySettings)
 
 
 def output_paths(sweep_path: str, out_dir: str) -> dict:
@@ -104,21 +106,15 @@ def analyse(sweep, line, opts: Options):
     """Correct a sweep and work out everything the outputs show. Returns (correction, summary, table)."""
     corr = correct(sweep, line)
     check_finite(corr)
+    a = assess(corr.freq_hz, corr.gamma_analyzer, corr.gamma_feedpoint, line, thresholds=opts.thresholds,
+               settings=opts.uncertainty)
     summary = summarise(corr, thresholds=opts.thresholds, notes=list(opts.notes) + list(getattr(sweep, "notes", ())),
-                        sweep_info={"comments": list(getattr(sweep, "comments", ()))})
+                        sweep_info={"comments": list(getattr(sweep, "comments", ()))}, assessment=a)
     budget = budget_columns(corr, opts.power_w) if opts.power_w else None
-    table = table_columns(corr, budget)
+    table = table_columns(corr, budget, swr_band=a.swr_band)
     summary["along_the_line"] = for_correction(corr.freq_hz, corr.gamma_analyzer, line)[0]
     if opts.target_hz is not None:
-
-        res = summary["feedpoint"].get("resonances_hz") or []
-        if res:
-            near = min(res, key=lambda r: abs(r - opts.target_hz))
-            summary["feedpoint"]["trim"] = trim_advice(near, opts.target_hz)
-        else:
-            summary["feedpoint"]["trim"] = None
-            summary["warnings"].append("no feedpoint resonance inside the sweep: no trimming advice; "
-                                       "sweep a wider range around the target")
+        summary["feedpoint"]["trim"] = trim_for(a, summary, opts.target_hz)
     if opts.power_w:
         summary["power"] = budget_summary(corr, budget, opts.power_w)
     if opts.bands or opts.bands_file:
@@ -131,6 +127,32 @@ def analyse(sweep, line, opts: Options):
             "analyzer": band_check(corr.freq_hz, corr.gamma_analyzer, bands, limit),
         }
     return corr, summary, table
+
+
+def trim_for(a, summary: dict, target_hz: float):
+    """Trimming advice for the series resonance the user means (see :func:`trim_resonance`), with its interval;
+    a warning goes into the summary when there is none or the target is too far."""
+    fp = summary["feedpoint"]
+    primary = fp.get("q_freq_hz") or _primary_hz(a)
+    chosen = trim_resonance(fp.get("resonances") or [], target_hz, primary)
+    if chosen is None:
+        summary["warnings"].append("no series resonance at the feedpoint inside the sweep: no trimming advice; "
+                                   "sweep a wider range around the target")
+        return None
+    j = [r["freq_hz"] for r in fp["resonances"]].index(chosen["freq_hz"])
+    cov = a.settings.coverage if a.settings is not None else 0.95
+    trim = trim_advice(chosen["freq_hz"], target_hz, resonance_draws_hz=resonance_draws(a, j), coverage=cov)
+    if trim["refused"]:
+        summary["warnings"].append(f"no trimming advice: {trim['refused']}")
+    return trim
+
+
+def _primary_hz(a):
+    ev = a.events_fp
+    if ev.primary is None or ev.nominal is None:
+        return None
+    v = ev.nominal.get(f"res_hz_{ev.primary}")
+    return v if v is not None and np.isfinite(v) else None
 
 
 def check_finite(corr) -> None:
@@ -200,7 +222,7 @@ def write_table_csv(table: dict, path: str) -> None:
 
 def write_plots(corr, table: dict, paths: dict, opts: Options) -> dict:
 
-    figs = plots.correction_plots(corr, table if opts.power_w else None, opts.thresholds)
+    figs = plots.correction_plots(corr, table, opts.thresholds)
     along_info, along_data = for_correction(corr.freq_hz, corr.gamma_analyzer, corr.line)
     if along_data is not None:
         trace, along_summary = along_data

@@ -58,6 +58,28 @@ class LossModel:
         per_m = length_m / M_PER_100FT / DB_PER_NP
         return cls(k1_db_per_100ft * per_m / 1e3, k2_db_per_100ft * per_m / 1e6)
 
+    @staticmethod
+    def fit_misfit(model: "LossModel", points, *, rel_tol: float = 0.005, abs_tol_db: float = 0.005) -> str | None:
+        """A warning when a fitted model does not honour the given loss points, else None.
+
+        Two points are met exactly whenever a physical fit exists (both coefficients >= 0: the loss rises at
+        least as fast as sqrt(f) and no faster than f); otherwise, and for three or more points that no
+        c sqrt(f) + d f passes through, the warning lists each point beside the fitted value.
+        A point counts as met within 0.5 % or 0.005 dB (our choice: the printed precision).
+        """
+        pts = [(float(db), float(hz)) for db, hz in points]
+        if len(pts) < 2:
+            return None
+        fitted = [float(model.db_at(hz)) for _, hz in pts]
+        if all(abs(fv - db) <= max(rel_tol * db, abs_tol_db) for (db, _), fv in zip(pts, fitted)):
+            return None
+        from ..base.units import fmt_freq
+
+        pairs = "; ".join(f"{db:.3g} dB at {fmt_freq(hz)} -> {fv:.3g} dB" for (db, hz), fv in zip(pts, fitted))
+        return ("the loss points cannot all be met by a physical line loss (conductor loss rising as sqrt(f) plus "
+                "dielectric loss rising as f, neither negative), so the nearest such loss is used: given -> used: "
+                f"{pairs}. Check the figures, or describe the line by cable and length")
+
     @classmethod
     def fit(cls, points, option: str = "loss") -> "LossModel":
         """Fit to measured or quoted points [(dB, Hz), ...].
@@ -110,6 +132,9 @@ class Section:
     length_m: float | None = None
     vf: float | None = None
     label: str = "line"
+    tolerance: object = field(default=None, compare=False)
+    """How well the section is known (:class:`deembed.physics.tolerance.Tolerance`), for the uncertainty;
+    None means the defaults for how it is described."""
 
     @classmethod
     def from_length(cls, z0_ohm, vf, length_m, loss=None, label="line") -> "Section":

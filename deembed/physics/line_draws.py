@@ -44,7 +44,9 @@ def section_parts(z0_ohm, delay_s, c_np, d_np, freq_hz):
     zs_n = 2 * (c_np * sf) + jwt          # series impedance / Z0
     yp_n = 2 * (d_np * f) + jwt           # shunt admittance * Z0
     gl = np.sqrt(zs_n * yp_n)
-    zc = z0_ohm * (zs_n / gl)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        zc = zs_n / gl
+    zc = z0_ohm * np.where(np.isfinite(zc), zc, 1.0)   # at 0 Hz: the nominal Z0
     e = np.exp(gl)
     ei = 1 / e
     ch = (e + ei) * 0.5
@@ -69,7 +71,10 @@ def section_s_terms(z0_ohm, delay_s, c_np, d_np, freq_hz, z_ref_ohm: float = 50.
     gl *= zs_n
     gl = np.sqrt(gl, out=gl)
     zc = zs_n
-    zc /= gl
+    with np.errstate(divide="ignore", invalid="ignore"):
+        zc /= gl
+    if not np.all(np.isfinite(zc)):  # at 0 Hz Zc is 0/0; its limit is the nominal Z0 (R ~ sqrt f, G ~ f)
+        zc = np.where(np.isfinite(zc), zc, 1.0)
     zc *= z0_ohm / z_ref_ohm
     rho = (zc - 1) / (zc + 1)
     np.negative(gl, out=gl)

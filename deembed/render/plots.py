@@ -165,11 +165,19 @@ def swr_scale(ax, traces, limits=(2.0,), label_at=None) -> None:
     ax.set_ylim(1.0, top * 1.05)
 
 
-def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends"):
-    """SWR against frequency at the analyzer and at the feedpoint, on one chart."""
+def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends", band=None, coverage: float = 0.95):
+    """SWR against frequency at the analyzer and at the feedpoint, on one chart.
+
+    ``band`` (low, high), arrays like the sweep: the feedpoint SWR's coverage interval at each frequency,
+    shaded behind the feedpoint trace."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
     s_sh, s_fp = rf.swr(corr.gamma_analyzer), rf.swr(corr.gamma_feedpoint)
+    if band is not None and band[0] is not None and band[1] is not None:
+        lo = np.asarray(band[0], dtype=float)
+        hi = np.minimum(np.asarray(band[1], dtype=float), 1e3)
+        ax.fill_between(f, lo, hi, where=np.isfinite(lo), color=FEEDPOINT_COLOUR, alpha=0.18, lw=0,
+                        label=f"feedpoint, {coverage:.0%} interval")
     _trace(ax, f, s_sh, color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"], **_marks(f))
     _trace(ax, f, s_fp, color=FEEDPOINT_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
@@ -285,7 +293,8 @@ def correction_plot(key: str, corr, table: dict | None = None, thresholds=(2.0,)
     """The plot ``key`` (one of :data:`PLOT_KEYS`) of a correction, or None when it has nothing to show
     (the power budget without budget columns in ``table``)."""
     if key == "swr_png":
-        return swr_plot(corr, limits=swr_marks(thresholds))
+        band = (table.get("feedpoint_swr_low"), table.get("feedpoint_swr_high")) if table else None
+        return swr_plot(corr, limits=swr_marks(thresholds), band=band)
     if key == "return_loss_png":
         return return_loss_plot(corr)
     if key == "impedance_png":

@@ -21,6 +21,7 @@ from .safety import SAFETY_FOOT, SAFETY_ITEMS
 from .plots import FEEDPOINT_COLOUR, GRID_COLOUR, ANALYZER_COLOUR
 from ..base.units import fmt_freq
 from ..base.verdicts import TEXT as VERDICT_TEXT, WITHIN
+from .intervals import fmt_freq_interval, fmt_number
 
 LINE_LOSS_COLOUR = "#8b6c3e"  # the "lost in the line" trace of plots.budget_plot
 MAX_RESONANCES = 4
@@ -129,7 +130,13 @@ def _glance(summary: dict, fq: _Freq) -> str:
 
     def low(end):
         m = end.get("min_swr") or {}
-        return _num(m.get("swr")), fq(m.get("freq_hz"))
+        u = end.get("uncertainty") or {}
+        if _finite(m.get("swr")) and u.get("min_swr"):
+            text = fmt_number(m["swr"], u["min_swr"])          # "1.20 (1.12 to 1.29)"
+            value, _, rest = text.partition(" (")
+            return (_e(value), _e(f"{rest.rstrip(')')} ({u['coverage']:.0%}), at ")
+                    + _e(fmt_freq_interval(m.get("freq_hz"), u.get("min_swr_freq_hz"))))
+        return _num(m.get("swr")), "at " + fq(m.get("freq_hz"))
 
     fp_s, fp_f = low(fp)
     sh_s, sh_f = low(sh)
@@ -137,9 +144,9 @@ def _glance(summary: dict, fq: _Freq) -> str:
     return f"""
 <div class="glance">
   <div class="stat feed"><span class="label">Lowest SWR at the feedpoint</span>
-    <span class="value">{fp_s}</span><span class="sub">at {fp_f}</span></div>
+    <span class="value">{fp_s}</span><span class="sub">{fp_f}</span></div>
   <div class="stat analyzer"><span class="label">Lowest SWR seen at the analyzer</span>
-    <span class="value">{sh_s}</span><span class="sub">at {sh_f}</span></div>
+    <span class="value">{sh_s}</span><span class="sub">{sh_f}</span></div>
   <div class="stat line"><span class="label">Line loss, one way (matched)</span>
     <span class="value">{_num(ml.get('at_low'))}&ndash;{_num(ml.get('at_high'))} dB</span>
     <span class="sub">across the sweep</span></div>
@@ -277,9 +284,17 @@ def _resonances_html(end: dict, fq: _Freq) -> str:
         key = (lambda r: abs(r["freq_hz"] - centre)) if _finite(centre) else (lambda r: r["freq_hz"])
         chosen = sorted(sorted(items, key=key)[:MAX_RESONANCES], key=lambda r: r["freq_hz"])
     lis = []
+    u = end.get("uncertainty") or {}
+    ivs = u.get("resonances_hz") or []
+    lost = u.get("not_resolved") or {}
     for r in chosen:
         r_ohm = f", R {r['r_ohm']:.1f} &Omega;" if _finite(r.get("r_ohm")) else ""
-        lis.append(f"<li>{fq(r['freq_hz'])} <span class='kind'>{_e(r.get('kind', ''))}{r_ohm}</span></li>")
+        j = items.index(r)
+        iv = ivs[j] if j < len(ivs) else None
+        where = _e(fmt_freq_interval(r["freq_hz"], iv)) if iv else fq(r["freq_hz"])
+        if f"resonances_hz[{j}]" in lost:
+            where += f" <span class='muted'>(not placed in {lost[f'resonances_hz[{j}]']:.0%} of the draws)</span>"
+        lis.append(f"<li>{where} <span class='kind'>{_e(r.get('kind', ''))}{r_ohm}</span></li>")
     more = len(items) - len(chosen)
     tail = (f"<li class='muted'>+{more} more crossing{'s' if more > 1 else ''} further from the best match"
             "</li>") if more > 0 else ""
@@ -312,9 +327,34 @@ def _spans_html(end: dict, key: str, freq_range, fq: _Freq) -> str:
 
 def _q_html(end: dict, fq: _Freq) -> tuple[str, str]:
     q, qf, qb = end.get("q"), end.get("q_freq_hz"), end.get("q_from_span")
-    q_imp = f"{q:.1f} <span class='muted'>at {fq(qf)}</span>" if _finite(q) else '<span class="muted">n/a</span>'
+    if not _finite(q):  # no resolved resonance near the match: neither Q means anything at this end
+        na = '<span class="muted">n/a (no resonance near the match)</span>'
+        return na, '<span class="muted">n/a</span>'
+    iv = (end.get("uncertainty") or {}).get("q")
+    q_imp = f"{_e(fmt_number(q, iv, default_decimals=1))} <span class='muted'>at {fq(qf)}</span>"
     q_bw = f"{qb:.1f}" if _finite(qb) else '<span class="muted">n/a</span>'
     return q_imp, q_bw
+
+
+def _trust(summary: dict) -> str:
+    """How far the findings can be trusted: the noise, how the intervals were made, what limits them."""
+    sw = summary["sweep"]
+    u = (summary.get("feedpoint") or {}).get("uncertainty") or {}
+    noise = sw.get("noise_gamma_rms")
+    parts = []
+    if _finite(noise):
+        parts.append(f"The sweep's noise, estimated from the sweep itself, is {noise:.2g} rms in &Gamma; at the "
+                     "analyzer.")
+    if u:
+        cal = ((u.get("sources") or {}).get("calibration") or {}).get("preset", "")
+        parts.append(f"Intervals beside the values hold the true value with {u['coverage']:.0%} probability: "
+                     f"{u['draws']} Monte Carlo draws (JCGM 101:2008, seed {u['seed']}) of the analyzer's noise and "
+                     f"calibration error{' (' + _e(cal) + ')' if cal else ''} and of the line's tolerances.")
+        if u.get("limited_by"):
+            parts.append(f"<strong>What limits this result:</strong> {_e(u['limited_by'])}.")
+    else:
+        parts.append("No uncertainty intervals were worked out for this run (--draws 0).")
+    return f"<p class='small' id='trust'>{' '.join(parts)}</p>"
 
 
 def _findings(summary: dict, fq: _Freq) -> str:
@@ -331,6 +371,10 @@ def _findings(summary: dict, fq: _Freq) -> str:
         m = end.get("min_swr") or {}
         if not _finite(m.get("swr")):
             return '<span class="muted">n/a</span>'
+        u = end.get("uncertainty") or {}
+        if u.get("min_swr"):
+            return (f"<strong>{_e(fmt_number(m['swr'], u['min_swr']))}</strong> <span class='muted'>at "
+                    f"{_e(fmt_freq_interval(m.get('freq_hz'), u.get('min_swr_freq_hz')))}</span>")
         return f"<strong>{m['swr']:.2f}</strong> <span class='muted'>at {fq(m.get('freq_hz'))}</span>"
 
     row("Lowest SWR", low(sh), low(fp))
@@ -354,6 +398,7 @@ def _findings(summary: dict, fq: _Freq) -> str:
   <h2>Findings at both ends</h2>
   <p>The left column is what the analyzer saw through the line; the right column is the antenna itself.
   A lossy line makes the analyzer end look better matched and broader than the antenna really is.</p>
+  {_trust(summary)}
   {table}
   {_trim(fp, fq)}
   {_bands(summary, fq)}
@@ -363,14 +408,27 @@ def _findings(summary: dict, fq: _Freq) -> str:
 
 def _trim(fp: dict, fq: _Freq) -> str:
     t = fp.get("trim")
-    if not t or not _finite(t.get("length_change_percent")):
+    if not t:
+        return ""
+    if t.get("refused"):
+        return f"""
+<div class="callout trim">
+  <h3>Trimming</h3>
+  <p><strong>No trimming advice</strong> for the target {fq(t.get('target_hz'))} from the resonance at
+  {fq(t.get('resonance_hz'))}: {_e(t['refused'])}.</p>
+</div>"""
+    if not _finite(t.get("length_change_percent")):
         return ""
     pct = t["length_change_percent"]
     verb = "Lengthen" if pct > 0 else "Shorten"
+    iv = t.get("length_change_percent_interval")
+    if iv and iv[0] * iv[1] > 0:
+        iv = sorted(abs(x) for x in iv)
+    amount = _e(fmt_number(abs(pct), iv, default_decimals=1, unit="%")).replace(" %", "&nbsp;%")
     return f"""
 <div class="callout trim">
   <h3>Trimming</h3>
-  <p><strong>{verb} the element by about {abs(pct):.1f}&nbsp;%</strong> to move its resonance from
+  <p><strong>{verb} the element by about {amount}</strong> to move its resonance from
   {fq(t.get('resonance_hz'))} to the target {fq(t.get('target_hz'))}.</p>
   <p class="small">A first estimate for a simple wire or element, from resonance scaling as one over length.
   Nearby objects, end effects, traps and loading change it: approach the length in small cuts and sweep again

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 from ..base.units import fmt_freq
 from .along import along_line_text
+from .intervals import fmt_freq_interval, fmt_number, fmt_shift_interval
 import os
 import sys
 from ..analysis.between import between_text
@@ -10,13 +11,40 @@ from ..analysis.limits import FIELD_OF_JSON, LIMIT_NAMES
 from ..base.verdicts import ERROR, TEXT as VERDICT_TEXT, WITHIN
 
 
-def _spans(spans, most: int = 2) -> str:
-    """The widest ``most`` spans, in frequency order, and how many more there are."""
+def _unc(end: dict) -> dict:
+    return end.get("uncertainty") or {}
+
+
+def _edge(value, iv, at_sweep_edge: bool) -> str:
+    if at_sweep_edge:
+        return f"{fmt_freq(value)} (sweep edge)"
+    return fmt_freq_interval(value, iv, default_digits=4)
+
+
+def _spans(spans, most: int = 2, cut=None, ivs=None) -> str:
+    """The widest ``most`` spans, in frequency order, and how many more there are; edges with their
+    intervals, and edges where the sweep cuts a span marked."""
     if not spans:
         return "none in sweep"
-    widest = sorted(sorted(spans, key=lambda sp: sp[1] - sp[0], reverse=True)[:most])
-    text = ", ".join(f"{fmt_freq(lo)} to {fmt_freq(hi)}" for lo, hi in widest)
+    cut = list(cut or [False] * len(spans))
+    ivs = list(ivs or [[None, None]] * len(spans))
+    order = sorted(range(len(spans)), key=lambda i: spans[i][1] - spans[i][0], reverse=True)[:most]
+    parts = []
+    for i in sorted(order):
+        lo, hi = spans[i]
+        iv_lo, iv_hi = (ivs[i] if i < len(ivs) and ivs[i] else [None, None])
+        parts.append(f"{_edge(lo, iv_lo, bool(cut[i]) and iv_lo is None and _at_edge(lo, spans))} to "
+                     f"{_edge(hi, iv_hi, bool(cut[i]) and iv_hi is None and _at_edge(hi, spans))}")
+    text = ", ".join(parts)
+    if any(cut[i] for i in order):
+        text += " (cut by the sweep)"
     return text + (f" (+{len(spans) - most} narrow)" if len(spans) > most else "")
+
+
+def _at_edge(value, spans) -> bool:
+    lows = [s[0] for s in spans]
+    highs = [s[1] for s in spans]
+    return value == min(lows) or value == max(highs)
 
 
 def _row(label: str, left: str, right: str) -> str:
@@ -30,7 +58,8 @@ def _min(end: dict) -> str:
     m = end.get("min_swr") or {}
     if m.get("swr") is None:
         return "n/a"
-    return f"{m['swr']:.2f} at {fmt_freq(m['freq_hz'], 6)}"
+    u = _unc(end)
+    return f"{fmt_number(m['swr'], u.get('min_swr'))} at {fmt_freq_interval(m['freq_hz'], u.get('min_swr_freq_hz'))}"
 
 
 def _res(end: dict) -> str:
@@ -39,16 +68,55 @@ def _res(end: dict) -> str:
         return "none in sweep"
     if len(items) > 3:  # the line's rotation makes many crossings at the analyzer end
         return f"{len(items)} crossings, {fmt_freq(items[0]['freq_hz'], 6)} to {fmt_freq(items[-1]['freq_hz'], 6)}"
-    return ", ".join(f"{fmt_freq(r['freq_hz'], 6)} ({r['kind']})" for r in items)
+    u = _unc(end)
+    ivs = u.get("resonances_hz") or [None] * len(items)
+    lost = u.get("not_resolved") or {}
+    cells = []
+    for j, (r, iv) in enumerate(zip(items, ivs)):
+        cell = f"{fmt_freq_interval(r['freq_hz'], iv)}, {r['kind']}"
+        if f"resonances_hz[{j}]" in lost:
+            cell += f" (not placed in {lost[f'resonances_hz[{j}]']:.0%} of the draws)"
+        cells.append(cell)
+    return "; ".join(cells)
 
 
 def _q(end: dict) -> str:
     q, qb = end.get("q"), end.get("q_from_span")
-    if q is None and qb is None:
-        return "n/a"
-    a = f"{q:.1f}" if q is not None else "n/a"
+    if q is None:  # no resolved resonance near the match: neither Q means anything here
+        return "n/a (no resonance near the match)"
+    a = fmt_number(q, _unc(end).get("q"), default_decimals=1) if q is not None else "n/a"
     b = f"{qb:.1f}" if qb is not None else "n/a"
     return f"{a} (from 2:1 span: {b})"
+
+
+def _trim(trim: dict) -> str:
+    head = f"\ntrim    resonance {fmt_freq(trim['resonance_hz'], 6)}, target {fmt_freq(trim['target_hz'], 6)}: "
+    if trim.get("refused"):
+        return head + f"no advice ({trim['refused']})"
+    pct = trim["length_change_percent"]
+    verb = "lengthen" if pct > 0 else "shorten"
+    iv = trim.get("length_change_percent_interval")
+    amount = fmt_number(abs(pct), sorted(abs(x) for x in iv) if iv and iv[0] * iv[1] > 0 else iv, default_decimals=1,
+                        unit="%")
+    return head + f"{verb} the element by about {amount} (first estimate; cut in small steps)"
+
+
+def _trust_lines(summary: dict) -> list[str]:
+    """The noise, how the intervals were made, and what limits the result."""
+    sw = summary["sweep"]
+    u = _unc(summary["feedpoint"])
+    out = []
+    noise = sw.get("noise_gamma_rms")
+    if noise is not None:
+        out.append(f"noise   {noise:.2g} rms in Gamma at the analyzer, estimated from the sweep")
+    if u:
+        src = u.get("sources") or {}
+        cal = (src.get("calibration") or {}).get("preset", "")
+        out.append(f"        intervals: {u['coverage']:.0%} coverage, {u['draws']} Monte Carlo draws (JCGM 101), "
+                   f"seed {u['seed']}" + (f", analyzer calibration '{cal}'" if cal else ""))
+        if u.get("limited_by"):
+            out.append(f"limits  what limits this result: {u['limited_by']}")
+    return out
 
 
 def correction_text(summary: dict, out_dir: str | None = None) -> str:
@@ -61,19 +129,25 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
         f"        matched loss {ln['matched_loss_db']['at_low']:.2f} dB at {fmt_freq(ln['low_hz'])}, "
         f"{ln['matched_loss_db']['at_high']:.2f} dB at {fmt_freq(ln['high_hz'])}",
         *([f"        between points: {between_text(ln['between_points'])}"] if ln.get("between_points") else []),
+    ]
+    lines += _trust_lines(summary)
+    lines += [
         "",
         f"{'':24}{'at the analyzer':34}{'at the feedpoint'}",
         _row("lowest SWR", _min(sh), _min(fp)),
         _row("resonance (X = 0)", _res(sh), _res(fp)),
     ]
     for key in (fp.get("swr_spans_hz") or {}):
-        lines.append(_row(f"SWR <= {key} span", _spans(sh["swr_spans_hz"].get(key)), _spans(fp["swr_spans_hz"][key])))
+        cells = []
+        for end in (sh, fp):
+            ivs = (_unc(end).get("swr_spans_hz") or {}).get(key)
+            cells.append(_spans((end.get("swr_spans_hz") or {}).get(key), cut=(end.get("swr_spans_cut_by_sweep_edge")
+                                                                              or {}).get(key), ivs=ivs))
+        lines.append(_row(f"SWR <= {key} span", *cells))
     lines.append(_row("Q near best match", _q(sh), _q(fp)))
     trim = fp.get("trim")
     if trim:
-        verb = "lengthen" if trim["length_change_percent"] > 0 else "shorten"
-        lines.append(f"\ntrim    resonance {fmt_freq(trim['resonance_hz'], 6)}, target {fmt_freq(trim['target_hz'], 6)}: "
-                     f"{verb} the element by about {abs(trim['length_change_percent']):.1f} % (first estimate; cut in small steps)")
+        lines.append(_trim(trim))
     bands = summary.get("bands")
     if bands:
         lines.append(f"\nbands   worst SWR in each band (limit {bands['swr_limit']:g}:1)      analyzer  feedpoint")
@@ -95,6 +169,16 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
     if out_dir:
         lines.append(f"\nresults in {out_dir}/ (open the .report.html, or .summary.json / .table.csv / .feedpoint.s1p)")
     return "\n".join(lines)
+
+
+def _signed(text: str) -> str:
+    """'0.000 (-0.002 to 0.003)' -> '+0.000 (-0.002 to +0.003)'."""
+    head, _, rest = text.partition(" (")
+    sign = lambda t: t if t.startswith("-") else "+" + t  # noqa: E731
+    if not rest:
+        return sign(head)
+    lo, _, hi = rest.rstrip(")").partition(" to ")
+    return f"{sign(head)} ({sign(lo)} to {sign(hi)})"
 
 
 def _num(v) -> str:
@@ -169,19 +253,30 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
         f"{fmt_freq(result['grid']['high_hz'])} ({result['grid']['method']})",
         "",
         f"{'':28}{'at the analyzer':28}{'at the feedpoint'}",
-        f"{'resonance':28}{'(not meaningful)':28}{freq(result['resonance_before_hz'])} -> {freq(result['resonance_after_hz'])}"
-        + ("" if shift is None else f" ({shift / 1e3:+.1f} kHz)"),
+        f"{'resonance':28}{'(not meaningful)':28}{freq(result['resonance_before_hz'])} -> {freq(result['resonance_after_hz'])}",
     ]
-    for label, key, spec in (("lowest SWR change", "min_swr_change", "+.3f"),
-                             ("2:1 bandwidth change (kHz)", "swr_2_width_change_hz", None),
-                             ("largest |Gamma| change", "largest_gamma_change", ".3f")):
+    if shift is not None:
+        iv = result.get("resonance_shift_interval_hz")
+        extra = "" if iv or result.get("uncertainty") is None else " (interval not placed: see the line's tolerances)"
+        lines.append(f"{'resonance shift':28}{'':28}{fmt_shift_interval(shift, iv)}{extra}")
+    for label, key, spec, ivkey in (("lowest SWR change", "min_swr_change", "+.3f", "min_swr_change_interval"),
+                                    ("2:1 bandwidth change (kHz)", "swr_2_width_change_hz", None,
+                                     "swr_2_width_change_interval_hz"),
+                                    ("largest |Gamma| change", "largest_gamma_change", ".3f", None)):
+        iv = result.get(ivkey) if ivkey else None
         if spec is None:
             a = "n/a" if sh is None else f"{sh[key] / 1e3:+.1f}"
-            b = f"{fp[key] / 1e3:+.1f}"
+            b = fmt_shift_interval(fp[key], iv).removesuffix(" kHz").replace(" kHz (", " (") if iv else \
+                f"{fp[key] / 1e3:+.1f}"
         else:
             a = "n/a" if sh is None else num(sh[key], spec)
             b = num(fp[key], spec)
+            if iv and fp[key] is not None:
+                b = _signed(fmt_number(fp[key], iv, default_decimals=3))
         lines.append(f"{label:28}{a:28}{b}")
+    u = result.get("uncertainty")
+    if u:
+        lines.append(f"{'':28}intervals: {u['coverage']:.0%} coverage, {u['draws']} draws; {u['method'].split('; ', 1)[-1]}")
     ln = result["line"]
     if ln["loss_change_db"] is not None:
         lines.append(f"\nline     {ln['before']}\n  now    {ln['after']}\n         matched loss change "
@@ -199,6 +294,8 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
         names = ", ".join((limit_names or LIMIT_NAMES).get(FIELD_OF_JSON[k], k) for k in v["limits_exceeded"])
         lines.append(f"verdict  {VERDICT_TEXT[v['status']]} ({names})")
         lines += [f"         - {r}" for r in v["reasons"]]
+    for k, text in (v.get("certainty_text") or {}).items():
+        lines.append(f"         {(limit_names or LIMIT_NAMES).get(FIELD_OF_JSON.get(k, k), k)}: {text}")
     lines.append(f"cause    {result['cause']['code']}: {result['cause']['text']}")
     along = result.get("along_the_line")
     if along:
