@@ -22,6 +22,7 @@ class AlongOptions:
     """What the user asked for beyond the sweep and the line."""
 
     port: int | None = None
+    columns: object = None          # a --columns text or a ColumnMap, for sweeps exported as text tables
     lowpass: bool = False
     beta: float = td.DEFAULT_KAISER_BETA
     pad: int = td.DEFAULT_PAD

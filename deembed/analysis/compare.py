@@ -352,6 +352,11 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         ``cause``
         ``{"code", "text"}``; ``notes``.
     """
+    for c in (before, after):
+        if getattr(c, "has_phase", True) is False:
+            raise InputFileError(c.source, "this sweep holds SWR or return loss only, without phase; comparing with a "
+                                           "baseline (resonance shift, the antenna-or-line cause) needs the phase: "
+                                           "export R and X, or a Touchstone file")
     limits = limits or Limits()
     al = align(before, after)
     f = al.freq_hz

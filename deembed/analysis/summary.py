@@ -147,3 +147,86 @@ def summarise(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | 
     if sweep_info:
         summary["sweep"].update(sweep_info)
     return summary
+
+
+# ------------------------------------------------------------------------------- sweeps without phase
+
+def magnitude_table(corr, budget: dict | None = None) -> dict:
+    """Per-frequency columns of a magnitude-only correction: |Gamma|, SWR and return loss at both ends, the
+    feedpoint's bound (``_low``/``_high``), the line's matched loss; the budget with a power."""
+    lo, hi = corr.gamma_feedpoint_mag_low, corr.gamma_feedpoint_mag_high
+    cols = {"freq_hz": corr.freq_hz}
+    for end, m in (("analyzer", corr.gamma_analyzer_mag), ("feedpoint", corr.gamma_feedpoint_mag)):
+        cols[f"{end}_gamma_mag"] = m
+        cols[f"{end}_swr"] = rf.swr(m)
+        cols[f"{end}_return_loss_db"] = rf.return_loss_db(m)
+    cols["feedpoint_gamma_mag_low"] = lo
+    cols["feedpoint_gamma_mag_high"] = hi
+    cols["feedpoint_swr_low"] = rf.swr(lo)
+    cols["feedpoint_swr_high"] = rf.swr(hi)
+    cols["line_matched_loss_db"] = corr.matched_loss_db
+    if budget:
+        cols.update(budget)
+    return cols
+
+
+MAG_BOUND_WARN = 0.05
+"""Half-width of the |Gamma| interval above which a magnitude-only correction is flagged as loose (our choice,
+common practice, no source: 0.05 in |Gamma| is about 0.1 in SWR near 1.5:1)."""
+
+
+def magnitude_warnings(corr) -> list[str]:
+    """Warnings of a magnitude-only correction: what is missing, where the estimate breaks down."""
+    f = corr.freq_hz
+    out = ["no phase in this sweep: the feedpoint SWR comes from the matched-loss relation |Gamma_feedpoint| = "
+           "|Gamma_analyzer| / |S21|^2, exact only for a line matched to 50 ohm; the interval given with it holds the "
+           "true value whatever the phase (it comes from the line's own mismatch, e.g. its complex Z0). Resonance, "
+           "impedance and Q need phase"]
+    bad_in = corr.gamma_analyzer_mag > 1
+    if bad_in.any():
+        out.append(f"the sweep itself shows |Gamma| above 1 (return loss below 0 dB) at {int(bad_in.sum())} of "
+                   f"{f.size} points "
+                   f"({ranges_text(f, bad_in)}): check the analyzer's calibration and reference plane")
+    over = ~(corr.gamma_feedpoint_mag < 1)
+    if over.any():
+        out.append(f"the feedpoint estimate reaches |Gamma| 1 or more at {int(over.sum())} of {f.size} points "
+                   f"({ranges_text(f, over)}): the line loss given is more than the sweep allows there (check the "
+                   "loss and length); those points are left out of the lowest SWR and the spans")
+    half = np.maximum(corr.gamma_feedpoint_mag_high - corr.gamma_feedpoint_mag,
+                      corr.gamma_feedpoint_mag - corr.gamma_feedpoint_mag_low)
+    loose = half > MAG_BOUND_WARN
+    if loose.any():
+        worst = float(np.nanmax(np.where(np.isfinite(half), half, np.nan))) if np.isfinite(half).any() else float("inf")
+        out.append(f"the line is far from matched to 50 ohm at {int(loose.sum())} of {f.size} points "
+                   f"({ranges_text(f, loose)}; |Gamma| uncertain by up to {worst:.2f}): the magnitude-only estimate is "
+                   "loose there; a sweep with phase (R and X) removes that uncertainty")
+    two_way = 2 * np.asarray(corr.matched_loss_db)
+    hot = two_way > TWO_WAY_LOSS_WARN_DB
+    if hot.any():
+        worst = float(np.max(two_way))
+        out.append(f"two-way line loss exceeds {TWO_WAY_LOSS_WARN_DB:g} dB ({ranges_text(f, hot)}; up to {worst:.1f} dB): "
+                   f"small measurement errors grow about {10 ** (worst / 20):.1f}x at the feedpoint there, so treat "
+                   "those corrected values as rough")
+    return out
+
+
+def magnitude_summary(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | None = None) -> dict:
+    """The summary of a magnitude-only correction, in the shape of :func:`summarise` (JSON-ready): both ends'
+    findings without resonance and Q (``not_available`` says why), the feedpoint's with its bounds."""
+    from .magnitude import magnitude_findings
+
+    ok = corr.gamma_feedpoint_mag < 1
+    est = np.where(ok, corr.gamma_feedpoint_mag, np.nan)
+    summary = {
+        "sweep": {"file": corr.source, "points": int(corr.freq_hz.size), "phase": False,
+                  "low_hz": float(corr.freq_hz[0]), "high_hz": float(corr.freq_hz[-1])},
+        "line": line_summary(corr.line, corr.freq_hz),
+        "feedpoint": magnitude_findings(corr.freq_hz, est, thresholds,
+                                        gamma_mag_low=corr.gamma_feedpoint_mag_low,
+                                        gamma_mag_high=np.where(ok, corr.gamma_feedpoint_mag_high, np.inf)),
+        "analyzer": magnitude_findings(corr.freq_hz, corr.gamma_analyzer_mag, thresholds),
+        "warnings": list(notes) + magnitude_warnings(corr),
+    }
+    if sweep_info:
+        summary["sweep"].update(sweep_info)
+    return summary

@@ -116,14 +116,61 @@ def parse_positive(text, option: str, what: str = "value", upper: float | None =
     return v
 
 
-def fmt_freq(hz: float, digits: int = 4) -> str:
-    """Readable frequency: 14.2 MHz, 7.1 kHz."""
-    if hz is None or not math.isfinite(hz):
-        return "n/a"
+def _freq_unit(hz: float):
     for unit, scale in (("GHz", 1e9), ("MHz", 1e6), ("kHz", 1e3)):
         if abs(hz) >= scale:
-            return f"{hz / scale:.{digits}g} {unit}"
-    return f"{hz:.{digits}g} Hz"
+            return unit, scale
+    return "Hz", 1.0
+
+
+def fmt_freq(hz: float, digits: int = 4, resolution_hz: float | None = None) -> str:
+    """Readable frequency: 14.2 MHz, 7.1 kHz.
+
+    With ``resolution_hz`` (a sweep's step, say) the number gets the decimals that resolution supports and no
+    more: 6.848 MHz on a 2 kHz grid, 145.60 MHz on a 20 kHz grid. Otherwise ``digits`` significant digits.
+    """
+    if hz is None or not math.isfinite(hz):
+        return "n/a"
+    unit, scale = _freq_unit(hz)
+    if resolution_hz is not None and math.isfinite(resolution_hz) and resolution_hz > 0:
+        decimals = max(0, math.ceil(-math.log10(resolution_hz / scale) - 1e-9))
+        return f"{hz / scale:.{min(decimals, 12)}f} {unit}"
+    return f"{hz / scale:.{digits}g} {unit}"
+
+
+def fmt_span(lo_hz: float, hi_hz: float, resolution_hz: float | None = None) -> str:
+    """'6.848 MHz to 7.065 MHz'. Both edges in the same unit, with the decimals the resolution supports, and never
+    the same text twice: a span narrower than the resolution gets as many more decimals as it takes to tell its
+    edges apart, and a span of one point is written as that point."""
+    if lo_hz is None or hi_hz is None or not (math.isfinite(lo_hz) and math.isfinite(hi_hz)):
+        return "n/a"
+    if hi_hz == lo_hz:
+        return f"{fmt_freq(lo_hz, resolution_hz=resolution_hz)} (one point)"
+    unit, scale = _freq_unit(max(abs(lo_hz), abs(hi_hz)))
+    if resolution_hz is not None and math.isfinite(resolution_hz) and resolution_hz > 0:
+        decimals = max(0, math.ceil(-math.log10(resolution_hz / scale) - 1e-9))
+    else:
+        decimals = 3
+    decimals = min(decimals, 12)
+    while f"{lo_hz / scale:.{decimals}f}" == f"{hi_hz / scale:.{decimals}f}" and decimals < 12:
+        decimals += 1
+    return f"{lo_hz / scale:.{decimals}f} to {hi_hz / scale:.{decimals}f} {unit}"
+
+
+SWR_PRINT_MAX = 99.0
+"""SWR above this prints as "> 99": beyond it the figure says nothing a technician can use (|Gamma| > 0.98)."""
+
+
+def fmt_swr(swr, decimals: int = 2) -> str:
+    """An SWR for people: '1.46', '> 99' above 99 (or infinite), 'n/a' for None/NaN."""
+    if swr is None or (isinstance(swr, float) and math.isnan(swr)):
+        return "n/a"
+    v = float(swr)
+    if math.isnan(v):
+        return "n/a"
+    if v > SWR_PRINT_MAX:
+        return f"> {SWR_PRINT_MAX:g}"
+    return f"{v:.{decimals}f}"
 
 
 _CAPACITANCE = {"f": 1.0, "uf": 1e-6, "µf": 1e-6, "nf": 1e-9, "pf": 1e-12, "ff": 1e-15}

@@ -6,12 +6,13 @@ Exit status: 0 when everything is within its limits, 1 when a limit is exceeded,
 from __future__ import annotations
 
 import json
+import os
 import sys
 from typing import List, Optional
 
 import typer
 
-from .options import (CableOpt, CablesOpt, CalOpt, DelayOpt, DrawsOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt,
+from .options import (CableOpt, CablesOpt, ColumnsOpt, CalOpt, DelayOpt, DrawsOpt, ExtrapolateOpt, LengthOpt, LineOpt, LossOpt,
                       NameOpt, PortOpt, RecordOpt, SeedOpt, TolOpt, VfOpt, Z0Opt, OPTION_FOR_FIELD, build_line,
                       check_port, record_options, uncertainty_settings)
 from ..base.verdicts import WITHIN
@@ -44,6 +45,7 @@ def compare_command(
                                              "characterization (.toml/.s2p) for the AFTER sweep; the baseline "
                                              "keeps the line options."),
     port: Optional[int] = PortOpt,
+    columns: Optional[str] = ColumnsOpt,
     max_shift: Optional[str] = MaxShiftOpt,
     max_swr_rise: Optional[str] = MaxSwrRiseOpt,
     max_gamma_change: Optional[str] = MaxGammaOpt,
@@ -71,6 +73,7 @@ def compare_command(
     from ..io.jsonfile import to_jsonable
     from ..jobs.compare import compare_files_with_corrections
     from ..render.text import compare_text
+    from ..io.tablesweep import parse_columns
 
     check_port(port)
     limits = parse_limits({"max_shift": max_shift, "max_swr_rise": max_swr_rise,
@@ -86,13 +89,14 @@ def compare_command(
                                                            extrapolate=extrapolate, inputs=[line],
                                                            settings=settings if settings is not None
                                                            else UncertaintySettings(draws=0),
-                                                           tolerances=tol or ())
+                                                           tolerances=tol or (),
+                                                           columns=parse_columns(columns) if columns else None)
     if as_json:
         print(json.dumps(to_jsonable(result), indent=2, allow_nan=False))
     else:
         print(compare_text(result, OPTION_FOR_FIELD))
         if out:
-            print(f"\nresults in {out}/ (open the .compare.html)")
+            print(f"\nresults in {os.path.join(out, '')} (open the .compare.html)")
     if record is not None:
         from ..jobs.record import record_comparison, recorded_text
 

@@ -7,7 +7,7 @@ from typing import List, Optional
 
 import typer
 
-from .options import (CableOpt, CablesOpt, CalOpt, DateOpt, DelayOpt, DrawsOpt, ExtrapolateOpt, LengthOpt, LineOpt,
+from .options import (CableOpt, CablesOpt, ColumnsOpt, CalOpt, DateOpt, DelayOpt, DrawsOpt, ExtrapolateOpt, LengthOpt, LineOpt,
                       LossOpt, NameOpt, PortOpt, RecordOpt, SeedOpt, TolOpt, VfOpt, Z0Opt, build_line, check_port,
                       parse_thresholds, record_options, uncertainty_settings)
 
@@ -24,6 +24,7 @@ def correct_command(
     cables: Optional[str] = CablesOpt,
     extrapolate: bool = ExtrapolateOpt,
     port: Optional[int] = PortOpt,
+    columns: Optional[str] = ColumnsOpt,
     out: str = typer.Option("deembed-out", "--out", help="Folder for the results (created if needed)."),
     swr_limits: str = typer.Option("1.5,2,3", "--swr-limits", help="SWR thresholds for bandwidth spans."),
     target: Optional[str] = typer.Option(None, "--target", help="Wanted resonant frequency, e.g. 14.15MHz: trimming advice."),
@@ -44,6 +45,7 @@ def correct_command(
     from ..io.jsonfile import to_jsonable
     from ..jobs import correct as workflow
     from ..base.units import parse_frequency, parse_power
+    from ..io.tablesweep import parse_columns
 
     check_port(port)
     the_date, _ = record_options(record, date, name)
@@ -55,6 +57,7 @@ def correct_command(
         power_w=parse_power(power) if power else None,
         bands=bands, bands_file=bands_file, plots=not no_plots, html=not no_plots, notes=notes,
         uncertainty=settings,
+        columns=parse_columns(columns) if columns is not None else None,
     )
     corr, summary, _ = workflow.correct_file(sweep, the_line, out, opts, line_inputs=[line, cables])
     if as_json:

@@ -7,7 +7,7 @@ from typing import List, Optional
 import typer
 
 from ..base.errors import OptionError
-from .options import CableOpt, CablesOpt, DelayOpt, LengthOpt, LineOpt, LossOpt, VfOpt, Z0Opt
+from .options import CableOpt, CablesOpt, ColumnsOpt, DelayOpt, LengthOpt, LineOpt, LossOpt, VfOpt, Z0Opt
 
 
 def _db(text: str, option: str) -> float:
@@ -31,6 +31,7 @@ def locate_command(
     line: Optional[str] = LineOpt,
     cables: Optional[str] = CablesOpt,
     port: Optional[int] = typer.Option(None, "--port", help="For a 2-port file: which port's reflection to use (1 or 2)."),
+    columns: Optional[str] = ColumnsOpt,
     out: str = typer.Option("deembed-out", "--out", help="Folder for the results (created if needed)."),
     unit: str = typer.Option("m", "--unit", help="Distance unit for display: m or ft (JSON is always in m)."),
     lowpass: bool = typer.Option(False, "--lowpass", help="Low-pass view (signed reflections and impedance along "
@@ -68,7 +69,9 @@ def locate_command(
         raise OptionError("--pad", f"{pad}: use a padding factor from 1 to 64")
     view = job.line_view(cable=cable, length=length, vf=vf, delay=delay, z0=z0, loss=loss or (), line=line,
                          cables=cables)
-    opts = job.LocateOptions(port=port, lowpass=lowpass, beta=beta, pad=pad,
+    from ..io.tablesweep import parse_columns
+
+    opts = job.LocateOptions(port=port, columns=parse_columns(columns) if columns else None, lowpass=lowpass, beta=beta, pad=pad,
                              threshold_db=_db(threshold, "--threshold"),
                              floor_db=_db(floor, "--floor") if floor else None, unit=unit, keep=keep, remove=remove,
                              resolve=resolve, plots=not no_plots)

@@ -36,6 +36,13 @@ ExtrapolateOpt = typer.Option(False, "--extrapolate", help="Allow a characterize
                                                            "frequencies it was measured over.")
 
 
+ColumnsOpt = typer.Option(None, "--columns", metavar="MAP",
+                          help="For a sweep exported as a text table (CSV, semicolons, tabs or spaces): its columns "
+                               "in order, the frequency with its unit and then r,x (ohm) or re,im (reflection) or "
+                               "rl,phase (dB, degrees) or swr or rl alone; - skips a column. E.g. freq:MHz,r,x or "
+                               "freq:kHz,-,swr.")
+
+
 PortOpt = typer.Option(None, "--port", help="For a 2-port file: which port's reflection to use (1 or 2).")
 
 

@@ -12,7 +12,7 @@ from ..base.errors import InputFileError, OptionError
 from .tablesweep import COLUMNS_EXAMPLES, read_table_sweep
 from .touchstone import read_sweep
 
-__all__ = ["read_any_sweep"]
+__all__ = ["read_any_sweep", "read_phase_sweep"]
 
 _SNP = re.compile(r"\.s\d+p\Z", re.I)
 
@@ -68,3 +68,17 @@ def read_any_sweep(path, columns=None, *, port: int | None = None, expect_ports:
         raise InputFileError(str(path), f"this is a text table, not Touchstone: say what its columns hold with "
                                         f"{how} (the others: {COLUMNS_EXAMPLES.split(' or ', 1)[1]})")
     return read_sweep(path, port=port, expect_ports=expect_ports)
+
+
+def read_phase_sweep(path, columns=None, *, port: int | None = None, option: str = "--columns", needs: str = ""):
+    """:func:`read_any_sweep` for work that needs the phase (comparison, the look along the line): a sweep of
+    SWR or return loss alone is refused with the reason and what to export instead."""
+    from .tablesweep import MagnitudeSweep
+
+    sw = read_any_sweep(path, columns, port=port, expect_ports=1, option=option)
+    if isinstance(sw, MagnitudeSweep):
+        what = "SWR" if sw.quantity == "swr" else "return loss"
+        raise InputFileError(str(path), f"this sweep holds {what} only, without phase; {needs or 'this'} needs the "
+                                        "reflection's phase: export R and X (freq:MHz,r,x), the reflection's real and "
+                                        "imaginary parts, or return loss with phase, or a Touchstone file")
+    return sw

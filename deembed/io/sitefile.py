@@ -55,7 +55,7 @@ SITE_KEYS = ("name", "cables", "limits", "history", "antenna")
 """Keys of the site file's top level."""
 
 ANTENNA_KEYS = ("name", "line", "cable", "length", "vf", "delay", "z0", "loss", "baseline", "latest", "after_line",
-             "port", "limits")
+             "port", "limits", "columns")
 """Keys of one ``[[antenna]]`` entry."""
 
 

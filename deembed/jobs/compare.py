@@ -13,7 +13,7 @@ from ..analysis.limits import Limits
 from ..io.atomic import check_not_input, stem_of, write_text_atomic
 from ..io.jsonfile import to_jsonable
 from ..io.linefile import read_line_file
-from ..io.touchstone import read_sweep
+from ..io.anysweep import read_phase_sweep
 from ..physics.deembedding import correct
 from ..analysis.along import compare_along
 from ..render.compare_page import along_overlay, compare_html, compare_plot
@@ -53,7 +53,8 @@ def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *
 
 def compare_files(baseline: str, after: str, line, *, after_line: str | None = None, limits: Limits | None = None,
                   port: int | None = None, out: str | None = None, cables: str | None = None,
-                  extrapolate: bool = False, inputs=(), title: str = "", settings=None, tolerances=()) -> dict:
+                  extrapolate: bool = False, inputs=(), title: str = "", settings=None, tolerances=(),
+                  columns=None) -> dict:
     """Correct a baseline and an after-work sweep and compare them; write the outputs when ``out`` is given.
 
     Parameters
@@ -87,20 +88,21 @@ def compare_files(baseline: str, after: str, line, *, after_line: str | None = N
     result, _, _ = compare_files_with_corrections(baseline, after, line, after_line=after_line, limits=limits,
                                                   port=port, out=out, cables=cables, extrapolate=extrapolate,
                                                   inputs=inputs, title=title, settings=settings,
-                                                  tolerances=tolerances)
+                                                  tolerances=tolerances, columns=columns)
     return result
 
 
 def compare_files_with_corrections(baseline: str, after: str, line, *, after_line: str | None = None,
                                    limits: Limits | None = None, port: int | None = None, out: str | None = None,
                                    cables: str | None = None, extrapolate: bool = False, inputs=(),
-                                   title: str = "", settings=None, tolerances=()) -> tuple:
+                                   title: str = "", settings=None, tolerances=(), columns=None) -> tuple:
     """:func:`compare_files`, also returning both corrections: ``(result, before, after)`` (for recording)."""
     other = line
     if after_line:
         other, _ = read_line_file(after_line, cables, extrapolate, tolerances=tolerances)
-    before = correct(read_sweep(baseline, port=port, expect_ports=1), line)
-    later = correct(read_sweep(after, port=port, expect_ports=1), other)
+    need = "comparing with a baseline (resonance shift, the antenna-or-line cause)"
+    before = correct(read_phase_sweep(baseline, columns, port=port, needs=need), line)
+    later = correct(read_phase_sweep(after, columns, port=port, needs=need), other)
     result = compare_corrections(before, later, limits, settings=settings)
     if out:
         prepare_out_dir(out)

@@ -28,7 +28,10 @@ from ..io.touchstone import write_touchstone
 from ..render.report import write_report
 from ..io.atomic import atomic_path, stem_of
 from ..render import plots
-from ..io.touchstone import read_sweep
+from ..io.anysweep import read_any_sweep
+from ..io.tablesweep import MagnitudeSweep
+from ..physics.magnitude import correct_magnitude
+from ..analysis.summary import magnitude_summary, magnitude_table
 from ..io.jsonfile import to_jsonable
 from ..io.numtext import is_float_table, table_blocks, write_csv_chunks
 from ..analysis.along import for_correction
@@ -49,6 +52,8 @@ class Options:
     html: bool = True
     notes: list = field(default_factory=list)
     uncertainty: UncertaintySettings | None = field(default_factory=UncertaintySettings)
+    columns: object = None          # a --columns text or a ColumnMap, for sweeps exported as text tables
+    columns_option: str = "--columns"
 
 
 def output_paths(sweep_path: str, out_dir: str) -> dict:
@@ -237,10 +242,80 @@ def correct_file(sweep_path: str, line, out_dir: str, opts: Options | None = Non
     """Read, correct, analyse and write. Returns (correction, summary, written paths)."""
 
     opts = opts or Options()
-    sweep = read_sweep(sweep_path, port=opts.port, expect_ports=1)
+    sweep = read_any_sweep(sweep_path, opts.columns, port=opts.port, expect_ports=1, option=opts.columns_option)
     paths = output_paths(sweep_path, out_dir)
     refuse_overwriting_inputs(paths, [sweep_path, opts.bands_file, *line_inputs])
+    if isinstance(sweep, MagnitudeSweep):
+        corr, summary, table = analyse_magnitude(sweep, line, opts)
+        prepare_out_dir(out_dir)
+        written = write_magnitude_outputs(corr, summary, table, paths, opts)
+        return corr, summary, written
     corr, summary, table = analyse(sweep, line, opts)
     prepare_out_dir(out_dir)
     written = write_outputs(corr, summary, table, paths, opts)
     return corr, summary, written
+
+
+# ------------------------------------------------------------------------------- sweeps without phase
+
+def analyse_magnitude(sweep, line, opts: Options):
+    """A sweep of SWR or return loss alone: the feedpoint's |Gamma| through the matched-loss relation, with its
+    bound (:mod:`deembed.physics.magnitude`). Returns (correction, summary, table)."""
+    corr = correct_magnitude(sweep, line)
+    notes = list(opts.notes) + list(sweep.notes)
+    summary = magnitude_summary(corr, thresholds=opts.thresholds, notes=notes,
+                                sweep_info={"comments": list(sweep.comments), "quantity": sweep.quantity})
+    budget = None
+    if opts.power_w:
+        budget = budget_columns_mag(corr, opts.power_w)
+        summary["power"] = budget_summary_mag(corr, budget, opts.power_w)
+    table = magnitude_table(corr, budget)
+    if opts.target_hz is not None:
+        summary["feedpoint"]["trim"] = None
+        summary["warnings"].append("no trimming advice: it needs the feedpoint resonance, which a sweep without "
+                                   "phase cannot give")
+    if opts.bands or opts.bands_file:
+        bands = load_bands(opts.bands_file)
+        limit = 2.0 if 2.0 in opts.thresholds else opts.thresholds[0]
+        summary["bands"] = {
+            "swr_limit": limit,
+            "feedpoint": band_check(corr.freq_hz, corr.gamma_feedpoint_mag, bands, limit),
+            "analyzer": band_check(corr.freq_hz, corr.gamma_analyzer_mag, bands, limit),
+        }
+    return corr, summary, table
+
+
+def budget_columns_mag(corr, power_w: float) -> dict:
+    """The power budget per frequency from |Gamma| at the feedpoint (the budget needs only its size)."""
+    g = np.minimum(corr.gamma_feedpoint_mag, 1.0)
+    b = power_budget(power_w, corr.matched_loss_db, g)
+    return {
+        "budget_forward_at_antenna_w": b["at_antenna"]["forward_w"],
+        "budget_reflected_at_antenna_w": b["at_antenna"]["reflected_w"],
+        "budget_delivered_w": b["at_antenna"]["delivered_w"],
+        "budget_reflected_at_tx_w": b["at_transmitter"]["reflected_w"],
+        "budget_line_dissipated_w": b["line"]["dissipated_w"],
+        "budget_retuned_delivered_w": b["matched_at_transmitter"]["delivered_w"],
+    }
+
+
+def budget_summary_mag(corr, budget: dict, power_w: float) -> dict:
+    i = int(np.nanargmin(corr.gamma_feedpoint_mag))
+    return {"transmitter_w": power_w, "at_freq_hz": float(corr.freq_hz[i]),
+            **{k.removeprefix("budget_"): float(v[i]) for k, v in budget.items()}}
+
+
+def write_magnitude_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options) -> dict:
+    """The table, the summary and the SWR plot. No Touchstone file and no HTML report: without phase there is
+    no reflection coefficient to write, and the report's Smith chart and impedance plots need one."""
+    written = {}
+    write_table_csv(table, paths["table_csv"])
+    written["table_csv"] = paths["table_csv"]
+    if opts.plots:
+        fig = plots.magnitude_swr_plot(corr, tuple(t for t in opts.thresholds if t <= 3))
+        plots.save(fig, paths["swr_png"])
+        written["swr_png"] = paths["swr_png"]
+    written["summary_json"] = paths["summary_json"]
+    summary["outputs"] = {k: os.path.basename(v) for k, v in written.items()}
+    write_text_atomic(paths["summary_json"], json.dumps(to_jsonable(summary), indent=2, allow_nan=False) + "\n")
+    return written

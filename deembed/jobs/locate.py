@@ -24,7 +24,8 @@ from ..io import cables as cables_mod
 from ..io.atomic import atomic_path, check_not_input, write_text_atomic
 from ..io.jsonfile import to_jsonable
 from ..io.linefile import line_from_options
-from ..io.touchstone import read_sweep, write_touchstone
+from ..io.anysweep import read_phase_sweep
+from ..io.touchstone import write_touchstone
 from ..physics import runmap as rm
 from ..physics import timedomain as td
 from ..physics.line import LossModel
@@ -194,7 +195,8 @@ def band_edge_text(edge: dict) -> str:
 
 def locate_file(sweep_path: str, view: LineView, out_dir: str, opts: LocateOptions) -> tuple[dict, dict]:
     """Read, look along the line, gate if asked, and write. Returns (summary, written paths)."""
-    sweep = read_sweep(sweep_path, port=opts.port, expect_ports=1)
+    sweep = read_phase_sweep(sweep_path, opts.columns, port=opts.port,
+                             needs="looking along the line (a time-domain transform)")
     paths = output_paths(sweep_path, out_dir)
     for p in paths.values():
         check_not_input(p, [sweep_path, *[i for i in view.inputs if i]], "--out")

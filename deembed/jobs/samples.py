@@ -187,6 +187,51 @@ def wide_sweep(rng=None, wet: bool = True):
     return f, np.where(mag > 0.998, g * (0.998 / np.maximum(mag, 1e-12)), g)
 
 
+# ------------------------------------------------------------ text-table samples (analyzers that export CSV)
+
+CSV_HEAD = ("Ridgeback Hill (invented station for the deembed demo): generated from physical models, "
+            "not a measurement. Regenerate with: python sample_sweeps/generate.py")
+
+
+def table_station():
+    """The two feeds whose sweeps come as text tables: an 80 m inverted-L (R and X exported) and a
+    10 m vertical swept with an analyzer that exports SWR only."""
+    cat = catalog()
+    return {
+        "inverted-l-80m": dict(line=Line((cat["rg213"].section(30.0),), name="80 m inverted-L feed"),
+                               f=np.linspace(3.40e6, 3.90e6, 251),
+                               z=lambda f: series_antenna_z(f, 3.62e6, 38.0, 14.0, 4.0)),
+        "vertical-10m": dict(line=Line((cat["rg8x"].section(25.0),), name="10 m vertical feed"),
+                             f=np.linspace(27.8e6, 29.8e6, 401),
+                             z=lambda f: series_antenna_z(f, 28.75e6, 40.0, 22.0, 1.5)),
+    }
+
+
+def table_sweeps(rng=None) -> dict:
+    """name -> (freq_hz, gamma at the analyzer end, with trace noise)."""
+    rng = rng or np.random.default_rng(SEED + 2)
+    out = {}
+    for name, st in table_station().items():
+        f = st["f"]
+        g_in = embed_gamma(rf.gamma_from_z(st["z"](f)), st["line"].s_params(f))
+        out[name] = (f, _noisy(g_in, rng))
+    return out
+
+
+def table_texts() -> dict:
+    """file name -> text of the two text-table samples."""
+    sw = table_sweeps()
+    f, g = sw["inverted-l-80m"]
+    z = rf.z_from_gamma(g)
+    rx = [CSV_HEAD, "80 m inverted-L, swept at the analyzer end (30 m of RG-213)", "Freq (MHz),R (ohm),X (ohm)"]
+    rx += [f"{fi / 1e6:.4f},{zi.real:.2f},{zi.imag:.2f}" for fi, zi in zip(f, z)]
+    f, g = sw["vertical-10m"]
+    s = rf.swr(g)
+    sv = [CSV_HEAD, "10 m vertical, swept at the analyzer end (25 m of RG-8X)", "kHz;SWR"]
+    sv += [f"{fi / 1e3:.1f};{si:.3f}" for fi, si in zip(f, s)]
+    return {"inverted-l-80m.rx.csv": "\n".join(rx) + "\n", "vertical-10m.swr.csv": "\n".join(sv) + "\n"}
+
+
 def write_samples(folder: str) -> list[str]:
     """Write the station's sweeps and line descriptions into ``folder``; returns the paths."""
 
@@ -216,7 +261,7 @@ def write_samples(folder: str) -> list[str]:
     write_text_atomic(p, DIPOLE_LINE_TOML)
     written.append(p)
     for name, text in (("vertical-2m.line.toml", VERTICAL_LINE_TOML), ("ridgeback-hill.site.toml", SITE_TOML),
-                       ("groundplane-30m.line.toml", WIDE_LINE_TOML)):
+                       ("groundplane-30m.line.toml", WIDE_LINE_TOML), *table_texts().items()):
         p = os.path.join(folder, name)
         write_text_atomic(p, text)
         written.append(p)

@@ -64,6 +64,21 @@ def _failed(job: AntennaJob, message: str) -> dict:
             "baseline": None, "comparisons": []}
 
 
+def _columns(job: AntennaJob):
+    """The entry's ``columns`` key (for sweeps exported as text tables), checked; None without one."""
+    v = job.entry.get("columns")
+    if v is None:
+        return None
+    from ..io.tablesweep import parse_columns
+
+    if not isinstance(v, str):
+        raise InputFileError(job.site_file, f"{job.where}: 'columns' should be text, e.g. columns = \"freq:MHz,r,x\"")
+    try:
+        return parse_columns(v, f"{job.where}: 'columns'")
+    except OptionError as exc:
+        raise InputFileError(job.site_file, str(exc)) from None
+
+
 def _run_antenna(job: AntennaJob) -> dict:
 
     files = read_antenna(job)
@@ -79,8 +94,13 @@ def _run_antenna(job: AntennaJob) -> dict:
     line_inputs = [job.cables, files.line_file] + ([files.after_line_file] if files.after_line_file else [])
     out = job.out_dir
     rel = lambda p: os.path.relpath(p, os.path.dirname(out))  # noqa: E731  (relative to the site's folder)
-    opts = workflow.Options(port=port, notes=notes)
+    columns = _columns(job)
+    opts = workflow.Options(port=port, notes=notes, columns=columns, columns_option=f"{job.where}: 'columns'")
     base_corr, base_summary, base_written = workflow.correct_file(baseline, line, out, opts, line_inputs=line_inputs)
+    if getattr(base_corr, "has_phase", True) is False:
+        raise InputFileError(baseline, "this sweep holds SWR or return loss only, without phase; the site check "
+                                       "compares with the baseline (resonance shift, the antenna-or-line cause), "
+                                       "which needs the phase: export R and X, or a Touchstone file")
     result = {"name": job.name, "slug": job.slug, "verdict": WITHIN, "error": None,
               "line": line.describe(), "after_line": other.describe() if other is not line else None,
               "limits": limits.as_dict(),
@@ -94,7 +114,8 @@ def _run_antenna(job: AntennaJob) -> dict:
         records.append(build_record(site=job.site_name, antenna=job.name, sweep_path=baseline, date=d,
                                     date_source=src, role="baseline", corr=base_corr, summary=base_summary))
     for sweep in latest:
-        a_opts = workflow.Options(port=port, notes=after_notes)
+        a_opts = workflow.Options(port=port, notes=after_notes, columns=columns,
+                                  columns_option=f"{job.where}: 'columns'")
         corr, summary, written = workflow.correct_file(sweep, other, out, a_opts,
                                                        line_inputs=line_inputs + [baseline])
         res = compare_corrections(base_corr, corr, limits)

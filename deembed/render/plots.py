@@ -186,6 +186,24 @@ def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends", band=None, 
     return fig
 
 
+def magnitude_swr_plot(corr, limits=(2.0,), ax=None, title="SWR at both ends (sweep without phase)"):
+    """SWR at the analyzer and the feedpoint estimate of a magnitude-only correction, with the band that holds
+    the true feedpoint SWR whatever the phase."""
+    fig, ax = _axes(ax)
+    f = _mhz(corr.freq_hz)
+    s_sh = rf.swr(corr.gamma_analyzer_mag)
+    s_fp = rf.swr(corr.gamma_feedpoint_mag)
+    lo, hi = rf.swr(corr.gamma_feedpoint_mag_low), rf.swr(corr.gamma_feedpoint_mag_high)
+    ax.fill_between(f, lo, np.where(np.isfinite(hi), hi, np.nan), color=FEEDPOINT_COLOUR, alpha=0.18, lw=0,
+                    label="feedpoint: true SWR lies in this band")
+    _trace(ax, f, s_sh, color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"], **_marks(f))
+    _trace(ax, f, s_fp, color=FEEDPOINT_COLOUR, lw=2.0, label="at the feedpoint (estimated from |Gamma|)", **_marks(f))
+    _xrange(ax, f)
+    swr_scale(ax, [s_sh, s_fp], limits, label_at=f[0])
+    finish(ax, "SWR", title)
+    return fig
+
+
 def return_loss_plot(corr, ax=None):
     """Return loss (positive dB) at both ends."""
     fig, ax = _axes(ax)

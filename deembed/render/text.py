@@ -1,7 +1,7 @@
 """Plain-text renderings of results for the terminal."""
 from __future__ import annotations
 
-from ..base.units import fmt_freq
+from ..base.units import SWR_PRINT_MAX, fmt_freq, fmt_span, fmt_swr
 from .along import along_line_text
 from .intervals import fmt_freq_interval, fmt_number, fmt_shift_interval
 import os
@@ -33,8 +33,9 @@ def _spans(spans, most: int = 2, cut=None, ivs=None) -> str:
     for i in sorted(order):
         lo, hi = spans[i]
         iv_lo, iv_hi = (ivs[i] if i < len(ivs) and ivs[i] else [None, None])
-        parts.append(f"{_edge(lo, iv_lo, bool(cut[i]) and iv_lo is None and _at_edge(lo, spans))} to "
-                     f"{_edge(hi, iv_hi, bool(cut[i]) and iv_hi is None and _at_edge(hi, spans))}")
+        a = _edge(lo, iv_lo, bool(cut[i]) and iv_lo is None and _at_edge(lo, spans))
+        b = _edge(hi, iv_hi, bool(cut[i]) and iv_hi is None and _at_edge(hi, spans))
+        parts.append(fmt_span(lo, hi) if a == b else f"{a} to {b}")  # never "a to a"
     text = ", ".join(parts)
     if any(cut[i] for i in order):
         text += " (cut by the sweep)"
@@ -59,15 +60,21 @@ def _min(end: dict) -> str:
     if m.get("swr") is None:
         return "n/a"
     u = _unc(end)
-    return f"{fmt_number(m['swr'], u.get('min_swr'))} at {fmt_freq_interval(m['freq_hz'], u.get('min_swr_freq_hz'))}"
+    swr = fmt_swr(m["swr"]) if m["swr"] > SWR_PRINT_MAX else fmt_number(m["swr"], u.get("min_swr"))
+    text = f"{swr} at {fmt_freq_interval(m['freq_hz'], u.get('min_swr_freq_hz'))}"
+    if m.get("swr_low") is not None or m.get("swr_high") is not None:  # a sweep without phase: the bound
+        text += f" (true: {fmt_swr(m.get('swr_low'))} to {fmt_swr(m.get('swr_high'))})"
+    return text
 
 
 def _res(end: dict) -> str:
+    if end.get("phase") is False:
+        return "n/a (needs phase)"
     items = end.get("resonances") or []
     if not items:
         return "none in sweep"
     if len(items) > 3:  # the line's rotation makes many crossings at the analyzer end
-        return f"{len(items)} crossings, {fmt_freq(items[0]['freq_hz'], 6)} to {fmt_freq(items[-1]['freq_hz'], 6)}"
+        return f"{len(items)} crossings, {fmt_span(items[0]['freq_hz'], items[-1]['freq_hz'])}"
     u = _unc(end)
     ivs = u.get("resonances_hz") or [None] * len(items)
     lost = u.get("not_resolved") or {}
@@ -82,6 +89,8 @@ def _res(end: dict) -> str:
 
 def _q(end: dict) -> str:
     q, qb = end.get("q"), end.get("q_from_span")
+    if end.get("phase") is False:
+        return f"n/a (from 2:1 span: {'n/a' if qb is None else f'{qb:.1f}'})"
     if q is None:  # no resolved resonance near the match: neither Q means anything here
         return "n/a (no resonance near the match)"
     a = fmt_number(q, _unc(end).get("q"), default_decimals=1) if q is not None else "n/a"
@@ -119,12 +128,22 @@ def _trust_lines(summary: dict) -> list[str]:
     return out
 
 
+def results_line(out_dir: str, files: dict | None) -> str:
+    """Where the results went, naming the files that were written (no report named when none was)."""
+    folder = os.path.join(out_dir, "")
+    names = list((files or {}).values())
+    if any(n.endswith(".report.html") for n in names):
+        return f"results in {folder} (open the .report.html; also .summary.json, .table.csv, .feedpoint.s1p)"
+    shown = ", ".join(n for n in names if not n.endswith(".png")) or "nothing"
+    return f"results in {folder} ({shown})"
+
+
 def correction_text(summary: dict, out_dir: str | None = None) -> str:
     """A short readable summary of one correction, both ends side by side."""
     sw, ln = summary["sweep"], summary["line"]
     fp, sh = summary["feedpoint"], summary["analyzer"]
     lines = [
-        f"sweep   {sw['file']}: {sw['points']} points, {fmt_freq(sw['low_hz'])} to {fmt_freq(sw['high_hz'])}",
+        f"sweep   {sw['file']}: {sw['points']} points, {fmt_span(sw['low_hz'], sw['high_hz'])}",
         f"line    {ln['description']}",
         f"        matched loss {ln['matched_loss_db']['at_low']:.2f} dB at {fmt_freq(ln['low_hz'])}, "
         f"{ln['matched_loss_db']['at_high']:.2f} dB at {fmt_freq(ln['high_hz'])}",
@@ -133,7 +152,7 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
     lines += _trust_lines(summary)
     lines += [
         "",
-        f"{'':24}{'at the analyzer':34}{'at the feedpoint'}",
+        f"{'':24}{'at the analyzer':34}{'at the feedpoint' if sw.get('phase', True) else 'at the feedpoint (no phase)'}",
         _row("lowest SWR", _min(sh), _min(fp)),
         _row("resonance (X = 0)", _res(sh), _res(fp)),
     ]
@@ -145,6 +164,8 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
                                                                               or {}).get(key), ivs=ivs))
         lines.append(_row(f"SWR <= {key} span", *cells))
     lines.append(_row("Q near best match", _q(sh), _q(fp)))
+    if fp.get("phase") is False:
+        lines.append(f"\nresonance and Q: {fp['not_available']['resonances']}")
     trim = fp.get("trim")
     if trim:
         lines.append(_trim(trim))
@@ -153,7 +174,8 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
         lines.append(f"\nbands   worst SWR in each band (limit {bands['swr_limit']:g}:1)      analyzer  feedpoint")
         for b_sh, b_fp in zip(bands["analyzer"], bands["feedpoint"]):
             mark = VERDICT_TEXT[b_fp["verdict"]]
-            lines.append(f"        {b_fp['name']:36}{_num(b_sh.get('worst_swr')):>10}{_num(b_fp.get('worst_swr')):>11}  {mark}")
+            lines.append(f"        {b_fp['name']:36}{fmt_swr(b_sh.get('worst_swr')):>10}"
+                         f"{fmt_swr(b_fp.get('worst_swr')):>11}  {mark}")
     power = summary.get("power")
     if power:
         lines.append(f"\npower   {power['transmitter_w']:g} W at {fmt_freq(power['at_freq_hz'], 6)}: "
@@ -167,7 +189,7 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
         lines.append("")
         lines += [f"warning: {w}" for w in summary["warnings"]]
     if out_dir:
-        lines.append(f"\nresults in {out_dir}/ (open the .report.html, or .summary.json / .table.csv / .feedpoint.s1p)")
+        lines.append("\n" + results_line(out_dir, summary.get("outputs")))
     return "\n".join(lines)
 
 
@@ -193,13 +215,13 @@ def budget_text(b: dict, power_w: float, loss_db: float) -> str:
     ]
     if "inferred_from_measured_swr" in b:
         lines.append(f"antenna SWR inferred from {b['inferred_from_measured_swr']:g}:1 read at the transmitter: "
-                     f"{a['swr']:.2f}:1")
+                     f"{fmt_swr(a['swr'])}:1")
     lines += [
         "",
         "reflected power absorbed at the transmitter end (no matching unit):",
         f"  at the antenna      forward {a['forward_w']:.2f} W, reflected {a['reflected_w']:.2f} W, "
-        f"delivered {a['delivered_w']:.2f} W, SWR {a['swr']:.2f}:1",
-        f"  at the transmitter  reflected back {t['reflected_w']:.2f} W, SWR {t['swr']:.2f}:1, "
+        f"delivered {a['delivered_w']:.2f} W, SWR {fmt_swr(a['swr'])}:1",
+        f"  at the transmitter  reflected back {t['reflected_w']:.2f} W, SWR {fmt_swr(t['swr'])}:1, "
         f"return loss {t['return_loss_db']:.2f} dB",
         f"  lost in the line    {ln['dissipated_w']:.2f} W",
         "",
@@ -249,8 +271,8 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
     lines = [
         f"baseline {result['baseline']['file']}",
         f"after    {result['after']['file']}",
-        f"compared on {result['grid']['points']} points, {fmt_freq(result['grid']['low_hz'])} to "
-        f"{fmt_freq(result['grid']['high_hz'])} ({result['grid']['method']})",
+        f"compared on {result['grid']['points']} points, "
+        f"{fmt_span(result['grid']['low_hz'], result['grid']['high_hz'])} ({result['grid']['method']})",
         "",
         f"{'':28}{'at the analyzer':28}{'at the feedpoint'}",
         f"{'resonance':28}{'(not meaningful)':28}{freq(result['resonance_before_hz'])} -> {freq(result['resonance_after_hz'])}",
@@ -318,7 +340,7 @@ def report_text(r: dict) -> str:
     m = r["model"]
     out = [f"Feed-line characterization  ->  {r.get('out', '')}",
            f"  method     {_METHOD_TEXT.get(r['method'], r['method'])}",
-           f"  sweep      {fmt_freq(r['low_hz'])} to {fmt_freq(r['high_hz'])}, {r['points']} points"]
+           f"  sweep      {fmt_span(r['low_hz'], r['high_hz'])}, {r['points']} points"]
     std = r.get("standards", {})
     if std and (std.get("open_c_f") or std.get("short_l_h") or std.get("load_r_ohm", 50.0) != 50.0):
         out.append(f"  standards  open {std['open_c_f'] * 1e15:g} fF, short {std['short_l_h'] * 1e12:g} pH, "
