@@ -207,3 +207,29 @@ def test_invented_history_flags_the_wet_line_only():
     dry_db = float(sh.antennas()["2 m vertical"][1](0.0).matched_loss_db(np.array([146e6]))[0])
     rise = trends["2 m vertical"].slopes["line_loss_db"]
     assert rise["interval"][0] <= sh.WATER_LOSS_GROWTH_PER_YEAR * dry_db <= rise["interval"][1]
+
+
+def test_recorded_intervals_from_the_uncertainty_block():
+    """Intervals the findings carry reach the record; one of 68.27 % coverage is re-scaled to 95 % about
+    the value with the normal quantiles (scipy.stats.norm), so every stored interval means the same."""
+    from deembed.analysis.recording import sweep_values
+    from deembed.analysis.summary import summarise
+    from deembed.io.sweep import one_port
+    from deembed.jobs import sample_history as sh
+    from deembed.physics.deembedding import correct
+
+    _, f, g = sh.history_sweeps()[("40 m dipole", sh.SWEEP_DATES[0])]
+    corr = correct(one_port(f, g), sh.antennas()["40 m dipole"][1](0.0))
+    summary = summarise(corr)
+    fp = summary["feedpoint"]
+    lo, hi = fp["min_swr"]["swr"] - 0.02, fp["min_swr"]["swr"] + 0.03
+    fp["uncertainty"] = {"coverage": 0.95, "min_swr": [lo, hi], "q": None,
+                         "resonances_hz": [[fp["resonances_hz"][0] - 1e3, fp["resonances_hz"][0] + 1e3]]}
+    vals = {(v.quantity, v.idx): v for v in sweep_values(corr, summary)}
+    assert (vals[("min_swr", 0)].low, vals[("min_swr", 0)].high) == (lo, hi)
+    assert vals[("resonances_hz", 0)].high - vals[("resonances_hz", 0)].low == pytest.approx(2e3)
+    assert vals[("q", 0)].low is None
+    fp["uncertainty"]["coverage"] = float(stats.norm.cdf(1) - stats.norm.cdf(-1))  # one standard deviation
+    v = {(v.quantity, v.idx): v for v in sweep_values(corr, summary)}[("min_swr", 0)]
+    assert v.value - v.low == pytest.approx(0.02 * stats.norm.ppf(0.975), rel=1e-9)
+    assert v.high - v.value == pytest.approx(0.03 * stats.norm.ppf(0.975), rel=1e-9)

@@ -17,10 +17,13 @@ the baseline into :class:`deembed.io.history.Value` rows:
   (:func:`deembed.analysis.compare.fit_line_change`): that is what shows water creeping into the run.
   When the comparison says the antenna changed (so the fit does not describe a line change) no line
   loss is recorded for that sweep.
-- for a comparison: ``resonance_shift_hz``, ``min_swr_change``, ``max_gamma_change`` (feedpoint).
+- for a comparison: ``resonance_shift_hz``, ``min_swr_change``, ``largest_gamma_change`` (feedpoint).
 
-Intervals: where the findings carry an uncertainty interval for a value (``<key>_interval`` beside
-it, ``[low, high]``), it is recorded as ``low``/``high``.
+Intervals: where the findings carry an uncertainty interval (the end's ``uncertainty`` block from the
+Monte Carlo step: ``resonance_hz``, ``resonances_hz``, ``min_swr``, ``min_swr_freq_hz``, ``swr_spans_hz``,
+``q``; a comparison's ``resonance_shift_interval_hz`` and ``min_swr_change_interval``) it is recorded as
+``low``/``high``, re-scaled to 95 % coverage (normal errors assumed) when it was made for another, so every
+stored interval means the same. The line's loss carries no interval yet.
 """
 from __future__ import annotations
 
@@ -43,21 +46,48 @@ def _num(x):
     return x if math.isfinite(x) else None
 
 
-def _interval(block: dict, key: str):
-    """``(low, high)`` recorded beside ``key`` in ``block``, or (None, None)."""
-    iv = block.get(f"{key}_interval")
-    if iv is None and isinstance(block.get("intervals"), dict):
-        iv = block["intervals"].get(key)
+Z95 = 1.959963984540054
+
+
+def _pair(iv):
     if isinstance(iv, dict):
         iv = [iv.get("low"), iv.get("high")]
     if isinstance(iv, (list, tuple)) and len(iv) == 2:
-        return _num(iv[0]), _num(iv[1])
+        lo, hi = _num(iv[0]), _num(iv[1])
+        if lo is not None and hi is not None:
+            return lo, hi
     return None, None
 
 
-def _v(quantity, value, unit, method="", idx=0, block=None, key=None):
-    lo, hi = _interval(block, key) if block is not None and key else (None, None)
-    return Value(quantity, _num(value), lo, hi, unit, method, idx)
+def _as_95(value, lo, hi, coverage):
+    """An interval of another coverage re-scaled to 95 % about the value (normal errors assumed), so that
+    every stored interval means the same."""
+    if lo is None or value is None or coverage is None or abs(coverage - 0.95) < 1e-9:
+        return lo, hi
+    from scipy import stats
+
+    k = Z95 / float(stats.norm.ppf(0.5 + coverage / 2))
+    return value - (value - lo) * k, value + (hi - value) * k
+
+
+def _v(quantity, value, unit, method="", idx=0, iv=None, coverage=None):
+    lo, hi = _pair(iv)
+    value = _num(value)
+    lo, hi = _as_95(value, lo, hi, coverage)
+    return Value(quantity, value, lo, hi, unit, method, idx)
+
+
+def _u(block: dict | None, *path):
+    """``block[path[0]][path[1]]...`` or None (the findings' ``uncertainty`` block, where present)."""
+    cur = block
+    for k in path:
+        if isinstance(cur, dict):
+            cur = cur.get(k)
+        elif isinstance(cur, list) and isinstance(k, int) and 0 <= k < len(cur):
+            cur = cur[k]
+        else:
+            return None
+    return cur
 
 
 def band_centre_hz(corr) -> float:
@@ -75,27 +105,30 @@ def sweep_values(corr, summary: dict, comparison: dict | None = None) -> tuple:
     """The values to record for one corrected sweep (see the module notes)."""
 
     fp = summary["feedpoint"]
+    u = fp.get("uncertainty") or {}
+    cov = u.get("coverage")
     out = []
+    res, how = _num(fp.get("resonance_hz")), "findings (the resonance nearest the lowest SWR)"
     near = (fp.get("min_swr") or {}).get("freq_hz")
-    res = None
-    if near is not None:
+    if res is None and near is not None:
         res = fitted_resonance(corr.freq_hz, corr.gamma_feedpoint, near)
-    out.append(_v("resonance_hz", res, "Hz", "quadratic fit of X(f) near the lowest SWR", block=fp,
-                  key="resonance_hz"))
+        how = "quadratic fit of X(f) near the lowest SWR"
+    out.append(_v("resonance_hz", res, "Hz", how, iv=u.get("resonance_hz"), coverage=cov))
     for i, r in enumerate(fp.get("resonances_hz") or []):
-        out.append(_v("resonances_hz", r, "Hz", "findings", idx=i))
+        out.append(_v("resonances_hz", r, "Hz", "findings", idx=i, iv=_u(u, "resonances_hz", i), coverage=cov))
     ms = fp.get("min_swr") or {}
-    out.append(_v("min_swr", ms.get("swr"), "", "findings", block=ms, key="swr"))
-    out.append(_v("min_swr_freq_hz", ms.get("freq_hz"), "Hz", "findings", block=ms, key="freq_hz"))
-    spans = fp.get("swr_spans_hz", fp.get("swr_spans_hz")) or {}
-    for k, lst in spans.items():
+    out.append(_v("min_swr", ms.get("swr"), "", "findings", iv=u.get("min_swr"), coverage=cov))
+    out.append(_v("min_swr_freq_hz", ms.get("freq_hz"), "Hz", "findings", iv=u.get("min_swr_freq_hz"),
+                  coverage=cov))
+    for k, lst in (fp.get("swr_spans_hz") or {}).items():
         for i, (lo, hi) in enumerate(lst):
-            out.append(_v(f"swr_span_{k}_low_hz", lo, "Hz", "findings", idx=i))
-            out.append(_v(f"swr_span_{k}_high_hz", hi, "Hz", "findings", idx=i))
-    out.append(_v("q", fp.get("q"), "", "from the impedance (Yaghjian-Best)", block=fp, key="q"))
-    q_span = fp.get("q_from_span", fp.get("q_from_span"))
-    out.append(_v("q_from_span", q_span, "", "from the 2:1 span", block=fp,
-                  key="q_from_span" if "q_from_span" in fp else "q_from_span"))
+            out.append(_v(f"swr_span_{k}_low_hz", lo, "Hz", "findings", idx=i,
+                          iv=_u(u, "swr_spans_hz", k, i, 0), coverage=cov))
+            out.append(_v(f"swr_span_{k}_high_hz", hi, "Hz", "findings", idx=i,
+                          iv=_u(u, "swr_spans_hz", k, i, 1), coverage=cov))
+    out.append(_v("q", fp.get("q"), "", "from the impedance (Yaghjian-Best)", iv=u.get("q"), coverage=cov))
+    out.append(_v("q_from_span", fp.get("q_from_span"), "", "from the 2:1 span", iv=u.get("q_from_span"),
+                  coverage=cov))
 
     fc, loss = line_loss_at_centre(corr)
     method = "the line's description at the band centre"
@@ -112,14 +145,15 @@ def sweep_values(corr, summary: dict, comparison: dict | None = None) -> tuple:
                 loss = None  # the antenna changed too: the fit says nothing about the line alone
         else:
             method = "the fresh line file at the band centre"
+        ccov = _u(comparison, "uncertainty", "coverage")
         out.append(_v("resonance_shift_hz", comparison.get("resonance_shift_hz"), "Hz", "against the baseline",
-                      block=comparison, key="resonance_shift_hz"))
+                      iv=comparison.get("resonance_shift_interval_hz"), coverage=ccov))
         out.append(_v("min_swr_change", comparison.get("min_swr_change"), "", "against the baseline",
-                      block=comparison, key="min_swr_change"))
-        out.append(_v("max_gamma_change", comparison.get("largest_gamma_change_feedpoint"), "",
-                      "against the baseline", block=comparison, key="largest_gamma_change_feedpoint"))
+                      iv=comparison.get("min_swr_change_interval"), coverage=ccov))
+        out.append(_v("largest_gamma_change", comparison.get("largest_gamma_change_feedpoint"), "",
+                      "against the baseline"))
     if loss is not None:
-        out.append(_v("line_loss_db", loss, "dB", method, block=summary.get("line") or {}, key="loss_at_centre_db"))
+        out.append(_v("line_loss_db", loss, "dB", method))
         out.append(_v("line_loss_freq_hz", fc, "Hz", "middle of the sweep"))
     return tuple(v for v in out if v.value is not None)
 
