@@ -215,6 +215,9 @@ class _SQLite:
         folder = os.path.dirname(os.path.abspath(path))
         if not os.path.isdir(folder):
             raise InputFileError(path, "its folder does not exist; create it or give another file name")
+        if create and not os.access(path if os.path.exists(path) else folder, os.W_OK):
+            raise InputFileError(path, "cannot write the history store there (no permission); give another "
+                                       "place with --record STORE, or --no-record for a site run")
         try:
             self.conn = sqlite3.connect(path, timeout=SQLITE_BUSY_TIMEOUT_S, isolation_level=None)
             self.conn.execute("PRAGMA foreign_keys = ON")
