@@ -142,3 +142,21 @@ def test_monte_carlo_offsets_fill_the_disk_uniformly():
     assert np.mean(np.abs(z[:, 2])) == pytest.approx(2 / 3 * 2e-3, rel=0.02)
     assert np.mean(np.abs(z[:, 2]) <= 1e-3) == pytest.approx(0.25, abs=0.015)
     np.testing.assert_allclose(z[:, 2], 2 * z[:, 1])  # one draw moves the whole sweep together
+
+
+def test_smoothing_keeps_an_edge_echo_and_averages_noise():
+    # A moving average of width W passes exp(-j 2 pi f t) with gain sinc(pi t W) (the Fourier transform of a
+    # rectangle, Oppenheim & Schafer 3rd ed. Table 2.3; from memory); with W = SMOOTH_STEPS x needed step =
+    # 1/(4 T2) and t = tau = T2/2 that is sin(pi/8)/(pi/8) = 0.974, the module's "97 %".
+    tau = 127e-9
+    w = bw.SMOOTH_STEPS * bw.needed_step_hz(2 * tau)
+    g = 3e6 + (w / 40) * np.arange(2000)  # 41 points per window, odd so the window is centred
+    echo = np.exp(-2j * np.pi * g * tau)
+    sm = bw.smooth(g, echo, w)
+    mid = slice(100, -100)
+    gain = np.abs(sm[mid]) / np.abs(echo[mid])
+    assert gain == pytest.approx(np.sin(np.pi / 8) / (np.pi / 8), rel=2e-3)
+    noise = RNG.standard_normal(g.size) + 1j * RNG.standard_normal(g.size)
+    ratio = np.sqrt(np.mean(np.abs(bw.smooth(g, noise, w)[mid]) ** 2) / np.mean(np.abs(noise) ** 2))
+    assert ratio == pytest.approx(1 / np.sqrt(41), rel=0.15)  # white noise: 1/sqrt(N) for N points averaged
+    np.testing.assert_allclose(bw.smooth(g, np.full(g.size, 2 - 1j), w), 2 - 1j, rtol=1e-12)
