@@ -261,3 +261,32 @@ def test_noise_in_the_standards_is_not_taken_for_an_interpolation_error(tmp_path
     assert bp["characterization_noise_error"] > bp["estimated_error"]  # the noise is what there is
     # what reaches the feedpoint is within the noise and the method's error together
     assert np.max(np.abs(res.gamma_feedpoint - truth)) <= bp["estimated_error"] + 3 * bp["characterization_noise_error"]
+
+
+def test_uncertainty_intervals_include_the_between_points_error(tmp_path):
+    # Monte Carlo (JCGM 101:2008) with the analyzer's calibration error switched off and a noise-free sweep:
+    # what is left is the line between its points. Its band must hold the true feedpoint SWR (scikit-rf's
+    # antenna) wherever the estimate is honest, i.e. everywhere (the estimate errs on the high side).
+    from deembed.analysis.trust import UncertaintySettings, assess
+    from deembed.analysis.uncertainty import CAL_PRESETS
+    from deembed.physics.rf import swr
+
+    grid = np.linspace(3e6, 30e6, 41)  # the coarse grid: an error worth drawing
+    path, _ = _characterize_file(tmp_path, mixed_run(grid), grid)
+    f2 = _other_points()
+    sweep, truth = _sweep(mixed_run, f2)
+    line = line_from_characterization(path)
+    res = correct(sweep, line)
+    st = UncertaintySettings(draws=2000, seed=3, coverage=0.99, calibration=CAL_PRESETS["none"])
+    a = assess(f2, sweep.gamma, res.gamma_feedpoint, line, settings=st)
+    lo, hi = a.swr_band
+    true_swr = swr(truth)
+    assert np.all((true_swr >= lo * (1 - 1e-9)) & (true_swr <= hi * (1 + 1e-9)))
+    assert np.max(hi - lo) > 0.01  # the band is not empty: the between-points term is drawn
+    share = a.mc.feedpoint.inputs
+    assert any(name == "line between characterized points" for name, _ in share)
+    # on the characterization's own points there is nothing to draw
+    sweep_g, _ = _sweep(mixed_run, grid)
+    res_g = correct(sweep_g, line)
+    a_g = assess(grid, sweep_g.gamma, res_g.gamma_feedpoint, line, settings=st)
+    assert not any(name == "line between characterized points" for name, _ in a_g.mc.feedpoint.inputs)

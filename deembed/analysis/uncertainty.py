@@ -35,6 +35,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..physics.between import unit_disc
 from ..physics.line_draws import cascade_parts, s_terms, section_parts, section_s_terms
 from ..physics.tolerance import Tolerance, default_tolerance
 from .smooth import EventSet
@@ -345,6 +346,49 @@ def seeds(seed: int):
     return [np.random.default_rng(c) for c in ss.spawn(4)]
 
 
+@dataclass
+class BetweenDraws:
+    """Draws of the offset a characterized line's evaluation between its points adds at the feedpoint.
+
+    ``unit`` (D,) complex, uniform on the unit disc, one per draw for the whole sweep; ``error`` (n,) the
+    estimated |dGamma| per frequency (:func:`deembed.analysis.between.between_error`). The offset of draw
+    k at frequency i is unit[k] * error[i] (see :func:`deembed.physics.between.draw_feedpoint_offsets`).
+    """
+
+    unit: np.ndarray
+    error: np.ndarray
+    inputs: list
+
+    def offsets(self, rows: slice, cols=slice(None)):
+        return self.unit[rows, None] * self.error[cols][None, :]
+
+
+BETWEEN_SPAWN_KEY = 15
+"""The between-points offsets draw from their own stream (SeedSequence child 15 of the seed), so the other
+streams stay as they were; baseline and after sweeps share it, as they share the line."""
+
+
+def draw_between(line, freq_hz, gamma_an, n_draws: int, seed: int) -> BetweenDraws | None:
+    """Between-points offset draws for a characterized line (None when the line has none or the sweep is on
+    its characterized points)."""
+    from .between import between_error, has_characterized_part
+
+    if not has_characterized_part(line):
+        return None
+    f = np.asarray(freq_hz, dtype=float)
+    s = line.s_params(f)
+    g_fp = deembed_draws(np.asarray(gamma_an, dtype=complex)[None, :], s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1],
+                         s[:, 1, 1])[0]
+    err = np.asarray(between_error(line, f, g_fp), dtype=float)
+    err = np.where(np.isfinite(err), err, 0.0)
+    if not np.any(err > 0):
+        return None
+    rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(BETWEEN_SPAWN_KEY,)))
+    unit = unit_disc(n_draws, rng)
+    name = "line between characterized points"
+    return BetweenDraws(unit, err, [(name, unit.real), (name, unit.imag)])
+
+
 def deembed_draws(gamma_an_draws, s11, s21s12, s22):
     """Gamma_L = (Gamma_in - S11) / (S22 (Gamma_in - S11) + S21 S12) for every draw (closed form, as the
     plain de-embedding)."""
@@ -389,6 +433,7 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
         line_draws = draw_line(line, n_draws, r_line)
     an = draw_analyzer(calibration, noise_rms, n_draws, r_cal)
     an.rng = r_noise
+    between = draw_between(line, f, g, n_draws, seed)
 
     idx_fp = events_fp.indices()
     idx_an = events_an.indices()
@@ -407,6 +452,8 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
         g_an = an.gamma(g_sub, rows)
         s11, s21s12, s22 = line_draws.terms(f_sub, rows)
         g_fp = deembed_draws(g_an, s11, s21s12, s22)
+        if between is not None:
+            g_fp += between.offsets(rows, idx)
         if idx_fp.size:
             v_fp.append(events_fp.evaluate(g_fp[:, pos_fp], idx_fp))
         if idx_an.size:
@@ -415,13 +462,13 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
             mags[rows] = np.abs(g_fp)
     v_fp = {k: np.concatenate([c[k] for c in v_fp]) for k in v_fp[0]} if v_fp else {}
     v_an = {k: np.concatenate([c[k] for c in v_an]) for k in v_an[0]} if v_an else {}
-    inputs_fp = line_draws.inputs + an.inputs
+    inputs_fp = line_draws.inputs + an.inputs + (between.inputs if between is not None else [])
     res = McResult(EndDraws(events_fp, v_fp, inputs_fp), EndDraws(events_an, v_an, an.inputs), n_draws, int(seed),
                    float(coverage), calibration, float(noise_rms), line_draws, notes=notes)
     if full:
         res.swr_band = _band_from_mag(mags, q)
     elif band:
-        res.swr_band = swr_band(f, g, line_draws, an, coverage, r_band, notes)
+        res.swr_band = swr_band(f, g, line_draws, an, coverage, r_band, notes, between)
     return res
 
 
@@ -434,7 +481,7 @@ def _band_from_mag(mag, q):
     return s[0], s[1]
 
 
-def swr_band(freq_hz, gamma_an, line_draws: LineDraws, an: AnalyzerDraws, coverage, rng, notes):
+def swr_band(freq_hz, gamma_an, line_draws: LineDraws, an: AnalyzerDraws, coverage, rng, notes, between=None):
     """Per-frequency coverage interval of the feedpoint SWR, (low (n,), high (n,)), from the draws."""
     f = np.asarray(freq_hz, dtype=float)
     n_d = line_draws.n
@@ -452,6 +499,8 @@ def swr_band(freq_hz, gamma_an, line_draws: LineDraws, an: AnalyzerDraws, covera
         sl = slice(a, min(a + chunk, f.size))
         s11, s21s12, s22 = line_draws.terms(f[sl])
         g_fp = deembed_draws(an_band.gamma(gamma_an[sl]), s11, s21s12, s22)
+        if between is not None:
+            g_fp += between.offsets(slice(None), sl)
         if use < n_d:
             g_fp = g_fp[:use]
         lo[sl], hi[sl] = _band_from_mag(np.abs(g_fp), q)

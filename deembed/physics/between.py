@@ -439,14 +439,19 @@ def draw_feedpoint_offsets(error, draws: int, rng):
     corrected reflection of each draw.
     """
     e = np.asarray(error, dtype=float)
+    return unit_disc(draws, rng)[:, None] * e[None, :]
+
+
+def unit_disc(draws: int, rng):
+    """``draws`` complex numbers uniform over the unit disc: sqrt(U) exp(j 2 pi V), U, V uniform on [0, 1)."""
     r = np.sqrt(rng.uniform(0.0, 1.0, int(draws)))
     ph = rng.uniform(0.0, 2 * np.pi, int(draws))
-    return (r * np.exp(1j * ph))[:, None] * e[None, :]
+    return r * np.exp(1j * ph)
 
 
 __all__ = [
     "Between", "FEEDPOINT_ERROR_WARN", "GRID_MARGIN", "METHODS", "SMOOTH_STEPS", "assess", "cubic_stencil",
     "draw_feedpoint_offsets", "feedpoint_error", "interpolate", "largest_step_hz", "leave_one_out",
     "leave_one_out_residual", "local_error", "needed_step_hz", "remove_delay", "restore_delay", "smooth",
-    "sweep_error", "two_way_delay_s",
+    "sweep_error", "two_way_delay_s", "unit_disc",
 ]
