@@ -268,7 +268,7 @@ def compare_along(before, after, pad: int | None = None) -> tuple[dict, tuple | 
         return d, (f"{d:.1f} m" if d is not None else f"{t * 1e9:.1f} ns one way"), where
 
     dist, at, where = place(tau)
-    text = f"along the line, the largest change sits at {at}, {where}"
+    text = f"the largest change sits at {at}, {where}"
     first = None
     if first_tau is not None and first_tau < tau - 2 * td.resolution_s(grids[1]) / 2:
         first, f_at, f_where = place(first_tau)

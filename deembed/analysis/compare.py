@@ -407,6 +407,13 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
     verdict = _verdict(fp, line, limits, res_b, res_a)
     _certainty(verdict, fp, limits, intervals)
     cause = diagnose(fp, sh, line, limits, verdict)
+    along = compare_along(before, after)[0]
+    if along.get("shown") and along.get("where") == "part-way along the line":
+        place = f"{along['first_change_m']:.1f} m" if along.get("first_change_m") is not None else "part-way"
+        notes_along = [f"the look along the line puts the start of the change part-way along the line ({place}): "
+                       "check the line there (a joint, a splice, water) as well as the antenna"]
+    else:
+        notes_along = []
     mc = a_b.mc
     return {
         "baseline": {"file": before.source, "points": int(before.freq_hz.size)},
@@ -435,8 +442,8 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         "limits": limits.as_dict(),
         "verdict": verdict,
         "cause": cause,
-        "along_the_line": compare_along(before, after)[0],
-        "notes": list(al.notes) + between_notes + ([f"only {al.freq_hz.size} common frequencies: resonance, bandwidth and the "
+        "along_the_line": along,
+        "notes": notes_along + list(al.notes) + between_notes + ([f"only {al.freq_hz.size} common frequencies: resonance, bandwidth and the "
                                     "antenna-or-line cause need a sweep, so this verdict says little"]
                                    if al.freq_hz.size < 3 else []),
     }

@@ -216,6 +216,10 @@ def reflections(resp: td.Response, grid: td.Grid, runmap=None, threshold_db: flo
             fe.kind = far_end_kind(fe)
             for r in refl[i_fe + 1:]:
                 r.kind = "past the far end: an echo between reflections, or the line goes on"
+        near = resp_res_one_way(grid, resp.mode)
+        for r in refl:
+            if r.delay_s <= near and not r.far_end:
+                r.kind = "at the analyzer end: its connector, an adapter or the jumper"
     out.length = length_estimate(out.reflections, grid, resp.mode, runmap)
     return out
 

@@ -7,7 +7,7 @@ from typing import List, Optional
 import typer
 
 from ..base.errors import OptionError
-from .options import CableOpt, CablesOpt, ColumnsOpt, DelayOpt, LengthOpt, LineOpt, LossOpt, VfOpt, Z0Opt
+from .options import CableOpt, CablesOpt, ColumnsOpt, DelayOpt, LineOpt, LossOpt, PortOpt, VfOpt, Z0Opt, check_port
 
 
 def _db(text: str, option: str) -> float:
@@ -30,7 +30,7 @@ def locate_command(
     loss: Optional[List[str]] = LossOpt,
     line: Optional[str] = LineOpt,
     cables: Optional[str] = CablesOpt,
-    port: Optional[int] = typer.Option(None, "--port", help="For a 2-port file: which port's reflection to use (1 or 2)."),
+    port: Optional[int] = PortOpt,
     columns: Optional[str] = ColumnsOpt,
     out: str = typer.Option("deembed-out", "--out", help="Folder for the results (created if needed)."),
     unit: str = typer.Option("m", "--unit", help="Distance unit for display: m or ft (JSON is always in m)."),
@@ -59,8 +59,7 @@ def locate_command(
     from ..io.jsonfile import to_jsonable
     from ..jobs import locate as job
 
-    if port is not None and port not in (1, 2):
-        raise OptionError("--port", f"{port} is not a port of a 2-port file; use 1 or 2")
+    check_port(port)
     if unit not in ("m", "ft"):
         raise OptionError("--unit", f"{unit!r}: use m or ft")
     if not 0 <= beta <= 40:

@@ -172,8 +172,12 @@ def length_text(ln: dict, unit: str = "m") -> str:
                    "resolution: check the length, the velocity factor, or what is at the end")
 
 
+NOTABLE_RL_DB = 30.0  # reflections on the way weaker than this (return loss at the point) are not named in one line
+
+
 def along_line_text(info: dict) -> str:
-    """One line for ``correct``'s summary: the far end against the description and what else is on the way."""
+    """One line for ``correct``'s summary: the far end against the description and the notable reflections on
+    the way (return loss at the point of at most :data:`NOTABLE_RL_DB`; the full list is in the report)."""
     if not info.get("resolves_line"):
         return info.get("text", "")
     ln = info.get("length") or {}
@@ -185,6 +189,8 @@ def along_line_text(info: dict) -> str:
         if r.get("distance_m") is None or (info.get("resolution_m") and r["distance_m"] < info["resolution_m"]):
             continue  # the analyzer's own connection
         rl = r["return_loss_at_point_db"] if r.get("return_loss_at_point_db") is not None else r["return_loss_db"]
+        if rl > NOTABLE_RL_DB:
+            continue
         before.append(f"{r['distance_m']:.1f} m (return loss {rl:.1f} dB there)")
     if before:
         head += "; on the way: " + ", ".join(before)
