@@ -212,6 +212,11 @@ def test_site_sweep_tables_are_checked(tmp_path, station, capsys):
     assert code == 0, out + err
     rows = _rows(station / "s.history.sqlite")
     assert {(r.role, r.date_source) for r in rows} == {("baseline", "site_file"), ("latest", "file_mtime")}
+    assert "dipole-40m-after.s1p (dated by its file's time)" in out
+    summary = json.loads((tmp_path / "o2" / "site.json").read_text())
+    (ant,) = summary["antennas"]
+    assert (ant["baseline"]["date"], ant["baseline"]["date_source"]) == ("2026-01-05", "site_file")
+    assert ant["comparisons"][0]["date_source"] == "file_mtime"
     code, _, _ = run(capsys, "site", station / "s.site.toml", "--out", tmp_path / "o3", "--workers", "1",
                      "--no-record")
     assert code == 0 and not (tmp_path / "o3" / "trend").exists()

@@ -108,9 +108,11 @@ def _run_antenna(job: AntennaJob) -> dict:
                            "warnings": base_summary.get("warnings", []),
                            "between_points": base_summary["line"].get("between_points")},
               "comparisons": []}
+    bd, bsrc = sweep_date(baseline, files.dates.get(baseline), "site_file")
+    result["baseline"].update(date=bd, date_source=bsrc)
     records = []
     if job.record:
-        d, src = sweep_date(baseline, files.dates.get(baseline), "site_file")
+        d, src = bd, bsrc
         records.append(build_record(site=job.site_name, antenna=job.name, sweep_path=baseline, date=d,
                                     date_source=src, role="baseline", corr=base_corr, summary=base_summary))
     for sweep in latest:
@@ -118,12 +120,15 @@ def _run_antenna(job: AntennaJob) -> dict:
                                   columns_option=f"{job.where}: 'columns'")
         corr, summary, written = workflow.correct_file(sweep, other, out, a_opts,
                                                        line_inputs=line_inputs + [baseline])
+        d, src = sweep_date(sweep, files.dates.get(sweep), "site_file")
         res = compare_corrections(base_corr, corr, limits)
         paths = compare_paths(sweep, out)
         cw = write_compare_outputs(res, base_corr, corr, paths, inputs=[baseline, *latest, *line_inputs],
                                    title=f"{job.name}: {os.path.basename(sweep)} against {os.path.basename(baseline)}")
         result["comparisons"].append({
             "file": sweep,
+            "date": d,
+            "date_source": src,
             "verdict": res["verdict"]["status"],
             "limits_exceeded": res["verdict"]["limits_exceeded"],
             "reasons": res["verdict"]["reasons"],
@@ -138,7 +143,6 @@ def _run_antenna(job: AntennaJob) -> dict:
         if res["verdict"]["status"] != WITHIN:
             result["verdict"] = OUTSIDE
         if job.record:
-            d, src = sweep_date(sweep, files.dates.get(sweep), "site_file")
             records.append(build_record(site=job.site_name, antenna=job.name, sweep_path=sweep, date=d,
                                         date_source=src, role="latest", corr=corr, summary=summary, comparison=res,
                                         baseline_sha256=records[0].sweep_sha256))

@@ -423,7 +423,8 @@ def site_text(summary: dict, out: str) -> str:
             st = VERDICT_TEXT[cmp["verdict"]]
             names = [FIELD_OF_JSON.get(k, k) for k in cmp["limits_exceeded"]]
             extra = f" ({', '.join(names)})" if names else ""
-            lines.append(f"  {ant['name']}: {os.path.basename(cmp['file'])}: {st}{extra}; "
+            when = " (dated by its file's time)" if cmp.get("date_source") == "file_mtime" else ""
+            lines.append(f"  {ant['name']}: {os.path.basename(cmp['file'])}{when}: {st}{extra}; "
                          f"cause {cmp['cause']['code']}")
         for reason in (ant.get("trend") or {}).get("flags", []):
             lines.append(f"  {ant['name']}: trend: {reason}")
