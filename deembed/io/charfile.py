@@ -10,6 +10,7 @@ import math
 import os
 from dataclasses import dataclass, replace
 from functools import cached_property
+from typing import ClassVar
 
 import numpy as np
 
@@ -17,7 +18,7 @@ from ..base.errors import InputFileError, OptionError
 from ..base.units import fmt_freq
 from ..physics import between as bw
 from ..physics.grid import FREQ_MATCH_RTOL, inside, nearest_points
-from ..physics.line import Line, LossModel, Section, abcd_to_s, s_to_abcd
+from ..physics.line import Line, LossModel, Section, abcd_parts_of, abcd_to_s, s_to_abcd
 from .touchstone import read_sweep, write_touchstone
 
 MODEL_TAG = "deembed-line-model:"
@@ -281,6 +282,11 @@ class CharacterizedLine:
             noise = bw.feedpoint_error(self.s_params(f), ds, gamma_feedpoint)
             out["characterization_noise_error"] = float(np.max(noise)) if noise.size else 0.0
         return out
+
+    kind: ClassVar[str] = "characterized"
+
+    def abcd_parts(self, freq_hz):
+        return abcd_parts_of(self.abcd(freq_hz))
 
     def abcd(self, freq_hz):
         return s_to_abcd(self.s_params(freq_hz))

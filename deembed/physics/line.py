@@ -21,6 +21,7 @@ Pozar, *Microwave Engineering*, 4th ed. (Wiley 2012), sec. 2.1 (RLGC, gamma and 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import ClassVar, Protocol
 
 import numpy as np
 
@@ -135,6 +136,7 @@ class Section:
     tolerance: object = field(default=None, compare=False)
     """How well the section is known (:class:`deembed.physics.tolerance.Tolerance`), for the uncertainty;
     None means the defaults for how it is described."""
+    kind: ClassVar[str] = "section"
 
     @classmethod
     def from_length(cls, z0_ohm, vf, length_m, loss=None, label="line") -> "Section":
@@ -190,6 +192,10 @@ class Section:
         ch = (e + ei) * 0.5
         sh = (e - ei) * 0.5
         return ch, zc * sh, sh / zc, ch
+
+    def s_params(self, freq_hz):
+        """S (n, 2, 2) at 50 ohm."""
+        return abcd_to_s(self.abcd(freq_hz))
 
     def abcd(self, freq_hz):
         """ABCD matrix of the section, shape (n, 2, 2)."""
@@ -260,6 +266,36 @@ class Section:
         return ", ".join(bits)
 
 
+class LinePart(Protocol):
+    """What every part of a :class:`Line` offers: :class:`Section`, :class:`MeasuredTwoPort` and
+    :class:`deembed.io.charfile.CharacterizedLine`.
+
+    ``kind`` says what the part is: ``"section"`` (a modelled RLGC section: it also has ``z0_ohm``, ``delay_s``,
+    ``loss``, ``length_m`` and ``vf``), ``"measured"`` (a 2-port known only at its measured frequencies) or
+    ``"characterized"`` (a run known from a far-end characterization, with a model between its points).
+    """
+
+    kind: ClassVar[str]
+    label: str
+
+    def abcd_parts(self, freq_hz) -> tuple:
+        """A, B, C, D as four (n,) arrays."""
+
+    def s_params(self, freq_hz):
+        """S (n, 2, 2) at 50 ohm, port 1 toward the analyzer."""
+
+    def matched_loss_db(self, freq_hz):
+        """One-way matched loss, dB."""
+
+    def describe(self) -> str:
+        """One line for people."""
+
+
+def abcd_parts_of(m) -> tuple:
+    """An ABCD stack (n, 2, 2) as its four (n,) arrays."""
+    return m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1]
+
+
 @dataclass(frozen=True)
 class MeasuredTwoPort:
     """A 2-port known only at its measured frequencies (S at 50 ohm, port 1 toward the analyzer)."""
@@ -268,6 +304,7 @@ class MeasuredTwoPort:
     s: np.ndarray
     label: str = "measured 2-port"
     source: str = ""
+    kind: ClassVar[str] = "measured"
 
     def s_params(self, freq_hz):
         f = np.asarray(freq_hz, dtype=float)
@@ -281,6 +318,9 @@ class MeasuredTwoPort:
 
     def abcd(self, freq_hz):
         return s_to_abcd(self.s_params(freq_hz))
+
+    def abcd_parts(self, freq_hz):
+        return abcd_parts_of(self.abcd(freq_hz))
 
     def matched_loss_db(self, freq_hz):
         """Insertion loss -20 log10 |S21|, dB (the matched loss when the 2-port is near Z_REF)."""
@@ -306,11 +346,7 @@ class Line:
         """Cascade ABCD as four arrays (A, B, C, D), multiplied out element by element."""
         total = None
         for part in self.parts:
-            if hasattr(part, "abcd_parts"):
-                p = part.abcd_parts(freq_hz)
-            else:
-                m = part.abcd(freq_hz)
-                p = (m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1])
+            p = part.abcd_parts(freq_hz)
             if total is None:
                 total = p
             else:
@@ -325,7 +361,7 @@ class Line:
 
     def s_params(self, freq_hz, z_ref_ohm: float = Z_REF_OHM):
         """The whole line's S-parameters at ``z_ref_ohm``, shape (n, 2, 2)."""
-        if len(self.parts) == 1 and hasattr(self.parts[0], "s_params"):  # a measured or characterized 2-port (50 ohm)
+        if len(self.parts) == 1 and self.parts[0].kind != "section":  # a measured or characterized 2-port (50 ohm)
             return self.parts[0].s_params(freq_hz)
         return _abcd_parts_to_s(*self.abcd_parts(freq_hz), z_ref_ohm)
 
@@ -373,7 +409,7 @@ class Line:
     @property
     def delay_s(self) -> float | None:
         """Total one-way delay of the modelled sections (None if any part is a measured 2-port)."""
-        if any(not isinstance(p, Section) for p in self.parts):
+        if any(p.kind != "section" for p in self.parts):
             return None
         return float(sum(p.delay_s for p in self.parts))
 
