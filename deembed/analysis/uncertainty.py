@@ -149,14 +149,11 @@ class LineDraws:
 
 
 def _fixed_abcd(part, f):
-    if hasattr(part, "abcd_parts"):
-        return part.abcd_parts(f)
-    m = part.abcd(f)
-    return m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1]
+    return part.abcd_parts(f)  # every line part has it (deembed.physics.line.LinePart)
 
 
 def _is_section(part) -> bool:
-    return all(hasattr(part, k) for k in ("z0_ohm", "delay_s", "loss")) and not hasattr(part, "s_params")
+    return part.kind == "section"
 
 
 def section_tolerance(part) -> Tolerance:
