@@ -389,3 +389,51 @@ def test_compare_along_locates_a_new_mismatch_built_in_scikit_rf():
     info, _ = compare_along(b, a)
     assert info["shown"]
     assert info["first_change_m"] == pytest.approx(25.0, abs=info["resolution_m"])
+
+
+def test_run_map_through_sections_of_different_velocity_factor():
+    """Distances through a jumper and a main run of different VF (hand values, d = VF c tau per section,
+    check-values F20): 2 m at VF 0.66 is 10.1078 ns one way; 36 m at VF 0.80 is 150.1039 ns more; past the
+    end the last section's VF carries on (a further 10 ns is 2.398 m at VF 0.80)."""
+    m = runmap_of([(50, 0.66, 2.0, 0.0), (50, 0.80, 36.0, 0.0)])
+    tau = np.array([2.0 / (0.66 * C0), 2.0 / (0.66 * C0) + 36.0 / (0.80 * C0), 2.0 / (0.66 * C0) + 36.0 / (0.80 * C0)
+                    + 10e-9])
+    assert tau[0] == pytest.approx(10.1078e-9, rel=1e-5) and tau[1] - tau[0] == pytest.approx(150.1039e-9, rel=1e-5)
+    assert m.distance_m(tau) == pytest.approx([2.0, 38.0, 38.0 + 2.3983], abs=1e-3)
+    assert m.delay_of_distance_s(np.array([2.0, 38.0])) == pytest.approx(tau[:2], rel=1e-12)
+
+
+def test_loss_before_a_point_adds_section_by_section():
+    """The one-way loss up to a point is the sum of the whole sections before it and the fraction of the one
+    it is in (matched loss is uniform along a uniform line: Pozar 4th ed. sec. 2.7, alpha per unit length)."""
+    m = runmap_of([(50, 0.66, 10.0, 1e-5), (50, 0.66, 20.0, 3e-5)])
+    f = np.array([25e6])
+    v = 0.66 * C0
+    a = m.loss_np(np.array([5.0 / v, 10.0 / v, 20.0 / v]), f)[:, 0]
+    k = np.sqrt(25e6)
+    assert a == pytest.approx([5 * 1e-5 * k, 10 * 1e-5 * k, (10 * 1e-5 + 10 * 3e-5) * k], rel=1e-12)
+
+
+def test_lowpass_step_response_reads_the_75_ohm_section_as_75_ohm():
+    """Low-pass step response of a lossless 50/75/50 ohm run built in scikit-rf: inside the 75 ohm section the
+    impedance read from the step, Z = 50 (1 + rho)/(1 - rho), is 75 ohm within 2 % (Pozar 4th ed. eq. 2.35
+    inverted); before it 50 ohm."""
+    f = np.arange(0, 1201) * 100e3
+    g, _ = skrf_run(f, [(50, 0.66, 10.0, 0.0), (75, 0.66, 15.0, 0.0), (50, 0.66, 10.0, 0.0)], "match")
+    grid, _ = td.grid_of(f)
+    r = td.lowpass(g, grid)
+    d = 0.66 * C0 * r.t_s / 2
+    z = 50 * (1 + r.step) / (1 - r.step)
+    mid = (d > 15.0) & (d < 20.0)
+    early = (d > 3.0) & (d < 8.0)
+    assert np.median(z[mid]) == pytest.approx(75.0, rel=0.02)
+    assert np.median(z[early]) == pytest.approx(50.0, rel=0.01)
+
+
+def test_resolve_prints_the_sweep_needed(tmp_path):
+    r = run_cli("locate", str(SAMPLES / "groundplane-30m-wide.s1p"), "--cable", "rg213", "--resolve", "0.5m",
+                "--out", str(tmp_path), "--json", "--no-plots")
+    assert r.returncode == 0, r.stderr
+    need = json.loads(r.stdout)["sweep_needed"]
+    # F22 inverted by hand, VF 0.66 (catalog rg213): 0.66 c / (2 x 0.5 m) = 197.86 MHz span
+    assert need["span_hz"] == pytest.approx(197.86e6, rel=1e-4)

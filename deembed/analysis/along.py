@@ -35,7 +35,7 @@ class AlongOptions:
     plots: bool = True
 
 
-def transform(freq_hz, gamma, opts: LocateOptions, source: str = "the sweep"):
+def transform(freq_hz, gamma, opts: AlongOptions, source: str = "the sweep"):
     """(grid, response) for a sweep, or a one-line error naming the file or ``--lowpass``."""
     grid, why = td.grid_of(freq_hz)
     if grid is None:
@@ -56,8 +56,12 @@ def _one_way(tau_s, runmap):
     return runmap.distance_m(tau_s)
 
 
-def along(freq_hz, gamma, view: LineView, opts: LocateOptions, source: str = "the sweep") -> tuple[dict, dict]:
-    """The look along the line: (summary, trace). Pure computation; nothing is written."""
+def along(freq_hz, gamma, view, opts: AlongOptions, source: str = "the sweep") -> tuple[dict, dict]:
+    """The look along the line: (summary, trace). Pure computation; nothing is written.
+
+    ``view`` carries what is known of the line: ``runmap`` (a :class:`~deembed.physics.runmap.RunMap` or
+    None), ``described_length_m`` and ``notes`` (``jobs.locate.LineView``).
+    """
     grid, resp = transform(freq_hz, gamma, opts, source)
     m = view.runmap
     found = refl_mod.reflections(resp, grid, m, opts.threshold_db, opts.floor_db, opts.pad, opts.beta)
