@@ -184,3 +184,43 @@ def test_draws_zero_and_bad_uncertainty_options(capsys, tmp_path):
         code, _, err = run(capsys, "correct", sweep, "--line", line, "--out", tmp_path / "x", "--no-plots", *args)
         assert code == 2 and err.startswith("error: ") and err.count("\n") == 1
         assert not (tmp_path / "x").exists()
+
+
+def test_same_sweep_same_findings_in_correct_and_compare(capsys, tmp_path):
+    # the requirement: one sweep through one line gives the same findings in every command, also
+    # when the other sweep of a comparison is coarser (each sweep's findings come from its own grid)
+    import numpy as np
+
+    from deembed.io.touchstone import read_sweep, write_touchstone
+
+    line = os.path.join(SAMPLES, "vertical-2m.line.toml")
+    base = os.path.join(SAMPLES, "vertical-2m.s1p")
+    sw = read_sweep(base)
+    coarse = tmp_path / "coarse.s1p"
+    write_touchstone(str(coarse), sw.freq_hz[::3], sw.gamma[::3])
+    code, out, err = run(capsys, "correct", base, "--line", line, "--out", tmp_path / "c", "--no-plots", "--json",
+                         "--draws", "0")
+    assert code == 0, err
+    res_correct = json.loads(out)["feedpoint"]["resonances_hz"][0]
+    for after in (base, coarse):
+        code, out, err = run(capsys, "compare", base, after, "--line", line, "--json", "--draws", "0")
+        assert code in (0, 1), err
+        assert json.loads(out)["resonance_before_hz"] == pytest.approx(res_correct, abs=1.0)
+    assert np.isfinite(res_correct)
+
+
+def test_characterized_line_uncertainty_comes_from_its_fit(capsys, tmp_path):
+    s = SAMPLES
+    run2 = tmp_path / "run.s2p"
+    code, _, err = run(capsys, "characterize", "--open", os.path.join(s, "dipole-40m-far-open.s1p"),
+                       "--short", os.path.join(s, "dipole-40m-far-short.s1p"),
+                       "--load", os.path.join(s, "dipole-40m-far-load.s1p"), "--out", run2)
+    assert code == 0, err
+    code, out, err = run(capsys, "correct", os.path.join(s, "dipole-40m.s1p"), "--line", run2, "--out",
+                         tmp_path / "o", "--no-plots", "--json", "--draws", "300")
+    assert code == 0, err
+    u = json.loads(out)["feedpoint"]["uncertainty"]
+    assert "characterized" in u["sources"]["line"][0]
+    assert "line between characterized points" in u["contributions"]["resonance_hz"]
+    lo, hi = u["resonance_hz"]
+    assert lo < 6.96e6 < hi                                   # the demo dipole's resonance (jobs/samples.py)

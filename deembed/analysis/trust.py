@@ -142,7 +142,12 @@ def sources_record(a: Assessment, line) -> dict:
     secs = []
     for k, part in enumerate(line.parts, 1):
         if not _is_section(part):
-            secs.append({"section": k, "fixed": "a measured 2-port: taken as exact"})
+            if hasattr(part, "between_points"):
+                secs.append({"section": k, "characterized": "as measured on its own points; between them the "
+                             "estimated error of the interpolation or model used there, one offset per draw "
+                             "uniform on a disc of that radius; its own measurement scatter is not drawn"})
+            else:
+                secs.append({"section": k, "fixed": "a measured 2-port: taken as exact"})
             continue
         t = section_tolerance(part)
         row = {"section": k, "distribution": t.distribution}

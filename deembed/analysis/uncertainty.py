@@ -613,7 +613,8 @@ def change_interval(after_values, before_values, coverage: float = DEFAULT_COVER
     """Coverage interval of a difference of two findings whose draws are paired (compare: shared line draws)."""
     a = np.asarray(after_values, dtype=float)
     b = np.asarray(before_values, dtype=float)
-    return interval(a - b, coverage)
+    with np.errstate(invalid="ignore"):   # inf - inf (an SWR of a lost match in both) is no difference: NaN
+        return interval(a - b, coverage)
 
 
 __all__ = ["CAL_PRESETS", "Calibration", "LineDraws", "McResult", "change_interval", "contributions",
