@@ -233,8 +233,17 @@ def _spans(end: dict, key: str, freq_range, fq: _Freq) -> dict:
     if len(cuts) != len(spans):  # older summaries: work the flag out from the sweep's edges
         cuts = [s[0] <= freq_range[0] or s[1] >= freq_range[1] for s in spans]
     order = sorted(range(len(spans)), key=lambda i: spans[i][1] - spans[i][0], reverse=True)
-    shown = [{"span": fq.span(*spans[i]), "width": _width(spans[i][1] - spans[i][0]), "cut": cuts[i]}
-             for i in sorted(order[:MAX_SPANS])]
+    ivs = ((end.get("uncertainty") or {}).get("swr_spans_hz") or {}).get(key) or []
+
+    def edges(i):
+        if i >= len(ivs) or not ivs[i] or not any(ivs[i]):
+            return ""
+        lo, hi = spans[i]
+        return "; ".join(f"{w} edge {fmt_freq_interval(v, iv)}" for w, v, iv in (("low", lo, ivs[i][0]),
+                                                                              ("high", hi, ivs[i][1])) if iv)
+
+    shown = [{"span": fq.span(*spans[i]), "width": _width(spans[i][1] - spans[i][0]), "cut": cuts[i],
+              "edges": edges(i)} for i in sorted(order[:MAX_SPANS])]
     rest = [spans[i] for i in order[MAX_SPANS:]]
     return {"items": shown, "rest": len(rest), "rest_widest": _width(max(hi - lo for lo, hi in rest)) if rest else None}
 
