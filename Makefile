@@ -23,6 +23,7 @@ test: $(STAMP)
 bench: $(STAMP)
 	$(PY) benchmarks/run.py
 	$(PY) benchmarks/along.py
+	$(PY) benchmarks/uncertainty.py
 
 samples: $(STAMP)
 	$(PY) sample_sweeps/generate.py

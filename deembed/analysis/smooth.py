@@ -62,7 +62,7 @@ curvature of X is of order (df/f)^2)."""
 WINDOW_SHRINK = 0.7
 """Ratio between successive half-windows tried."""
 
-FINE_POINTS = 101
+FINE_POINTS = 61
 """Points of the fine grid on which the fitted model is searched inside a window."""
 
 CHI2_SLACK = 1.5
