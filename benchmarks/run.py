@@ -69,10 +69,14 @@ def median_time(fn, repeats: int, warmup: int = 1) -> float:
     return statistics.median(times)
 
 
+ENV = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+"""Commands run with Python's default bytecode cache, as on a user's machine (the warm-up run writes it)."""
+
+
 def run_cmd(argv) -> tuple[float, int]:
     """Run a command to completion; (wall seconds, peak resident memory in bytes). Fails loudly."""
     t0 = time.perf_counter()
-    proc = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    proc = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=ENV)
     _, status, usage = os.wait4(proc.pid, 0)
     wall = time.perf_counter() - t0
     err = proc.stderr.read().decode(errors="replace")

@@ -18,6 +18,7 @@ from .correct import correct_command
 from .demo import demo_command
 from .locate import locate_command
 from .options import OPTION_FOR_FIELD
+from .plainparams import install as _plain_params
 from .site import site_command
 from ..render.safety import safety_line
 from .trend import trend_command
@@ -33,6 +34,8 @@ app = typer.Typer(
     pretty_exceptions_enable=False,
     rich_markup_mode=None,  # plain help: typer's rich formatter alone would cost more than typer itself
 )
+
+_plain_params()  # option values without pydantic where plain Python gives typer's answer (start-up time)
 
 # One module per command; each command function imports the layers below it when it runs, so that
 # `deembed --help` loads typer and nothing heavy.

@@ -1,0 +1,71 @@
+"""Start-up: option values converted without pydantic give typer's own answers, and the common commands load
+nothing they do not use. The reference for every conversion is typer's own converter (its pydantic adapter).
+"""
+import subprocess
+import sys
+from pathlib import Path
+from typing import List, Optional
+
+import pytest
+import typer
+from typer import _coercion, core
+from typer.models import OptionInfo
+
+from deembed.cli import plainparams
+
+ROOT = Path(__file__).resolve().parents[1]
+SAMPLE = ROOT / "sample_sweeps" / "dipole-40m.s1p"
+
+CASES = [
+    (str, ["abc", "", " 1.5 ", "1e3", "ü"]),
+    (Optional[str], ["x", "30m"]),
+    (int, ["2", "-3", "+4", "007", "1.0", " 2", "abc", "1e3", "", "2.5"]),
+    (Optional[int], ["1", "x"]),
+    (float, ["1.5", "-2", "2e3", ".5", "5.", "+1E-3", " 1.5", "inf", "nan", "1e999", "abc", "1,5", ""]),
+    (Optional[float], ["0.25", "y"]),
+    (List[str], [("a", "b"), ()]),
+    (Optional[List[str]], [("1.2dB@14MHz",)]),
+    (bool, [True, False]),
+]
+
+
+def _convert(build, annotation, value):
+    desc = _coercion.resolve_type_descriptor(annotation=annotation, parameter_info=OptionInfo())
+    rp = build(desc)
+    try:
+        return "ok", rp._coerce_value(value, param=None, ctx=None)
+    except Exception as exc:  # typer raises BadParameter with pydantic's message
+        return "error", f"{type(exc).__name__}: {exc}"
+
+
+@pytest.mark.parametrize("annotation,values", CASES, ids=[repr(c[0]) for c in CASES])
+def test_plain_conversion_equals_typers_own(annotation, values):
+    plainparams.install()
+    ours = core.build_runtime_param
+    theirs = _coercion.build_runtime_param  # typer's own, untouched in its module
+    assert getattr(ours, "_deembed_plain", False)
+    for v in values:
+        a = _convert(ours, annotation, v)
+        b = _convert(theirs, annotation, v)
+        assert repr(a) == repr(b) and type(a[1]) is type(b[1]), (annotation, v, a, b)
+
+
+def _modules_after(args, tmp_path) -> set:
+    code = ("import sys; from deembed.cli.app import main; rc = main(sys.argv[1:]); "
+            "print('MODS:' + ' '.join(sorted(m for m in ('numpy', 'pandas', 'matplotlib', 'scipy', 'skrf', 'pydantic', "
+            "'rich') if m in sys.modules))); sys.exit(0 if rc in (0, 1) else rc)")
+    r = subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True, timeout=120,
+                       cwd=tmp_path)
+    assert r.returncode == 0, r.stderr
+    return set(r.stdout.rsplit("MODS:", 1)[1].split())
+
+
+def test_help_loads_only_typer(tmp_path):
+    assert _modules_after(["--help"], tmp_path) == set()
+
+
+def test_correct_without_plots_loads_numpy_only(tmp_path):
+    mods = _modules_after(["correct", str(SAMPLE), "--cable", "rg8x", "--length", "36m", "--no-plots",
+                           "--out", str(tmp_path / "o")], tmp_path)
+    assert mods == {"numpy"}
+    assert (tmp_path / "o" / "dipole-40m.table.csv").exists()
