@@ -162,27 +162,23 @@ def _crossings(freq_hz, z_ohm, gamma_limit) -> list[Resonance]:
         return []
     x = z.imag
     finite = np.isfinite(z)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        y = 1.0 / z
     x0, x1 = x[:-1], x[1:]
     pair_ok = finite[:-1] & finite[1:]
-    rising = pair_ok & (x0 < 0) & (x1 > 0)
-    falling = pair_ok & (x0 > 0) & (x1 < 0)
-
+    idx_s = np.flatnonzero(pair_ok & (x0 < 0) & (x1 > 0))  # rising
+    idx_p = np.flatnonzero(pair_ok & (x0 > 0) & (x1 < 0))  # falling
+    # interpolate at the crossings only (a few points, not the whole sweep)
     with np.errstate(divide="ignore", invalid="ignore"):
         # series: linear in Z
-        t_s = x0 / (x0 - x1)
-        r_s = z.real[:-1] + t_s * (z.real[1:] - z.real[:-1])
+        xa, xb = x[idx_s], x[idx_s + 1]
+        t_s = xa / (xa - xb)
+        r_s = z.real[idx_s] + t_s * (z.real[idx_s + 1] - z.real[idx_s])
         # parallel: linear in Y (B = Im Y has the opposite sign of X)
-        b0, b1 = y.imag[:-1], y.imag[1:]
-        t_p = b0 / (b0 - b1)
-        g_p = y.real[:-1] + t_p * (y.real[1:] - y.real[:-1])
+        ya, yb = 1.0 / z[idx_p], 1.0 / z[idx_p + 1]
+        t_p = ya.imag / (ya.imag - yb.imag)
+        g_p = ya.real + t_p * (yb.real - ya.real)
         r_p = 1.0 / g_p
-    df = np.diff(f)
-    idx_s = np.flatnonzero(rising)
-    idx_p = np.flatnonzero(falling)
-    freqs = [f[idx_s] + t_s[idx_s] * df[idx_s], f[idx_p] + t_p[idx_p] * df[idx_p]]
-    rs = [r_s[idx_s], r_p[idx_p]]
+    freqs = [f[idx_s] + t_s * (f[idx_s + 1] - f[idx_s]), f[idx_p] + t_p * (f[idx_p + 1] - f[idx_p])]
+    rs = [r_s, r_p]
     kinds = [np.full(idx_s.size, "series", dtype=object), np.full(idx_p.size, "parallel", dtype=object)]
 
     # interior samples sitting exactly on X = 0 between samples of opposite sign

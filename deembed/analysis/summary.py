@@ -4,6 +4,8 @@ Pure functions of arrays and small dicts; nothing here writes files or plots.
 """
 from __future__ import annotations
 
+from collections.abc import Mapping
+
 import numpy as np
 
 from ..physics import rf
@@ -23,35 +25,88 @@ The threshold is our choice (common practice, no source).
 
 def end_columns(gamma) -> dict:
     """Per-frequency columns for one end: Gamma, |Gamma|, SWR, return loss, R, X (50 ohm)."""
-    g = np.asarray(gamma, dtype=complex)
-    z = rf.z_from_gamma(g)
-    return {
-        "gamma_re": g.real,
-        "gamma_im": g.imag,
-        "gamma_mag": np.abs(g),
-        "swr": rf.swr(g),
-        "return_loss_db": rf.return_loss_db(g),
-        "r_ohm": z.real,
-        "x_ohm": z.imag,
-    }
+    return rf.reflection_columns(gamma)
 
 
-def table_columns(corr, budget: dict | None = None, swr_band=None) -> dict:
-    """All columns of the per-frequency table, in order (a dict of equal-length arrays).
+END_COLUMN_NAMES = ("gamma_re", "gamma_im", "gamma_mag", "swr", "return_loss_db", "r_ohm", "x_ohm")
+
+
+class Table(Mapping):
+    """The per-frequency table of a correction: a read-only mapping of column name to array, in order.
+
+    Columns are worked out when they are asked for, whole (``table[name]``) or for a block of rows at a time
+    (:meth:`rows`), so a large sweep's table never has to be held whole: all of it would take 8 bytes per
+    point per column. ``dict(table)`` gives the plain dict of arrays.
+    """
+
+    float_columns = True  # every column is a float array (the CSV writer relies on it)
+
+    def __init__(self, corr, budget: dict | None = None, swr_band=None):
+        self._corr = corr
+        self._budget = dict(budget or {})
+        self._fixed = {}
+        names = ["freq_hz"] + [f"{end}_{k}" for end in ("analyzer", "feedpoint") for k in END_COLUMN_NAMES]
+        if swr_band is not None:  # the feedpoint SWR's coverage interval at each frequency
+            self._fixed["feedpoint_swr_low"], self._fixed["feedpoint_swr_high"] = swr_band
+            names += ["feedpoint_swr_low", "feedpoint_swr_high"]
+        names.append("line_matched_loss_db")
+        if has_characterized_part(corr.line):  # estimated |dGamma| from evaluating the line between its points
+            self._fixed["feedpoint_between_points_error"] = between_error(corr.line, corr.freq_hz,
+                                                                          corr.gamma_feedpoint)
+            names.append("feedpoint_between_points_error")
+        names += list(self._budget)
+        self._names = tuple(names)
+
+    def __len__(self) -> int:
+        return len(self._names)
+
+    def __iter__(self):
+        return iter(self._names)
+
+    def __contains__(self, name) -> bool:
+        return name in self._names
+
+    @property
+    def n_rows(self) -> int:
+        return int(self._corr.freq_hz.shape[0])
+
+    def __getitem__(self, name):
+        if name not in self._names:
+            raise KeyError(name)
+        return self.rows(0, self.n_rows, (name,))[name]
+
+    def rows(self, start: int, stop: int, names=None) -> dict:
+        """The columns ``names`` (default: all, in order) for rows ``start:stop``."""
+        want = self._names if names is None else tuple(names)
+        c = self._corr
+        sl = slice(start, stop)
+        out = {}
+        ends = {}
+        for name in want:
+            if name == "freq_hz":
+                out[name] = c.freq_hz[sl]
+            elif name == "line_matched_loss_db":
+                out[name] = c.matched_loss_db[sl]
+            elif name in self._fixed:
+                out[name] = self._fixed[name][sl]
+            elif name in self._budget:
+                out[name] = np.asarray(self._budget[name])[sl]
+            else:
+                end, key = name.split("_", 1)
+                if end not in ends:
+                    g = c.gamma_analyzer if end == "analyzer" else c.gamma_feedpoint
+                    ends[end] = end_columns(g[sl])
+                out[name] = ends[end][key]
+        return out
+
+
+def table_columns(corr, budget: dict | None = None, swr_band=None) -> Table:
+    """All columns of the per-frequency table, in order (a :class:`Table`: a mapping of equal-length arrays
+    worked out on demand).
 
     ``swr_band`` (low, high) adds the feedpoint SWR's coverage interval at each frequency
     (``feedpoint_swr_low``, ``feedpoint_swr_high``)."""
-    cols = {"freq_hz": corr.freq_hz}
-    for end, g in (("analyzer", corr.gamma_analyzer), ("feedpoint", corr.gamma_feedpoint)):
-        cols.update({f"{end}_{k}": v for k, v in end_columns(g).items()})
-        if end == "feedpoint" and swr_band is not None:
-            cols["feedpoint_swr_low"], cols["feedpoint_swr_high"] = swr_band
-    cols["line_matched_loss_db"] = corr.matched_loss_db
-    if has_characterized_part(corr.line):  # estimated |dGamma| from evaluating the line between its points
-        cols["feedpoint_between_points_error"] = between_error(corr.line, corr.freq_hz, corr.gamma_feedpoint)
-    if budget:
-        cols.update(budget)
-    return cols
+    return Table(corr, budget, swr_band)
 
 
 def ranges_text(freq_hz, mask, limit: int = 4) -> str:
@@ -99,7 +154,8 @@ def line_summary(line, freq_hz) -> dict:
     """Description, matched loss and electrical length of the line at the sweep's edges."""
     f = np.asarray(freq_hz, dtype=float)
     edges = np.array([f[0], f[-1]])
-    ml = np.asarray(line.matched_loss_db(f), dtype=float)
+    # a modelled line is evaluated at the two edges only; a measured one only exists on its own grid
+    ml = np.asarray(line.matched_loss_db(edges if getattr(line, "blockwise", False) else f), dtype=float)
     out = {
         "description": line.describe(),
         "low_hz": float(edges[0]),

@@ -219,7 +219,7 @@ def write_table_csv(table: dict, path: str) -> None:
         if not is_float_table(table):  # a column that is not float: let pandas decide its text
             import pandas as pd
 
-            pd.DataFrame(table).to_csv(tmp, index=False, float_format="%.9g")
+            pd.DataFrame(dict(table)).to_csv(tmp, index=False, float_format="%.9g")
             return
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
             write_csv_chunks(fh, table.keys(), table_blocks(table), float_format="%.9g")

@@ -8,6 +8,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import rf
+
 
 def feedpoint_gamma(gamma_in, s11, s21s12, s22, out=None):
     """Remove a 2-port from a one-port measurement.
@@ -66,6 +68,18 @@ class Correction:
     matched_loss_db: np.ndarray
     line: object
     source: str = "<memory>"
+
+    def to_frame(self):
+        """The per-frequency quantities at both ends and the line's matched loss as a :class:`pandas.DataFrame`
+        (imports pandas): ``freq_hz``, ``analyzer_*`` and ``feedpoint_*`` (Gamma, |Gamma|, SWR, return loss, R,
+        X) and ``line_matched_loss_db``, the columns of the table ``deembed correct`` writes."""
+        import pandas as pd
+
+        cols = {"freq_hz": self.freq_hz}
+        for end, g in (("analyzer", self.gamma_analyzer), ("feedpoint", self.gamma_feedpoint)):
+            cols.update({f"{end}_{k}": v for k, v in rf.reflection_columns(g).items()})
+        cols["line_matched_loss_db"] = self.matched_loss_db
+        return pd.DataFrame(cols)
 
     def feedpoint_network(self, name: str = "feedpoint"):
         """The corrected feedpoint as a :class:`skrf.Network` (imports scikit-rf)."""
