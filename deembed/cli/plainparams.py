@@ -4,8 +4,8 @@ typer (0.2x) converts every option value through a pydantic ``TypeAdapter``, and
 imports pydantic, which costs a command more than numpy and typer together take to import. Our options are
 text, whole numbers, numbers and flags; for those :func:`install` puts a converter in front of typer's:
 
-* text (``str``, a list of ``str``) and flags already read as ``True``/``False``: the value as given (what
-  the adapter returns for them);
+* text (``str``, a list of ``str``), flags already read as ``True``/``False`` and defaults that are already
+  numbers: the value as given (a number default of a ``float`` option as a float), what the adapter returns;
 * a whole number written as digits (``"2"``, ``"-3"``) and a number written in decimal or exponent form
   (``"1.5"``, ``"2e3"``): ``int()`` / ``float()``, the adapter's result for such text;
 * anything else (``"1.0"`` for a whole number, ``" 2"``, ``"abc"``, ``"inf"``) goes to typer's own adapter
@@ -67,6 +67,10 @@ def install() -> bool:
                 return value
             if self.kind == "strlist" and isinstance(value, (list, tuple)) and all(isinstance(v, str) for v in value):
                 return list(value)
+            if self.kind == "int" and type(value) is int:  # a default
+                return value
+            if self.kind == "float" and type(value) in (int, float):  # a default
+                return float(value)
             if self.kind == "int" and isinstance(value, str) and _INT.match(value):
                 return int(value)
             if self.kind == "float" and isinstance(value, str) and _FLOAT.match(value):
