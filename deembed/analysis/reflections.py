@@ -220,6 +220,8 @@ def reflections(resp: td.Response, grid: td.Grid, runmap=None, threshold_db: flo
         for r in refl:
             if r.delay_s <= near and not r.far_end:
                 r.kind = "at the analyzer end: its connector, an adapter or the jumper"
+            elif not r.kind:
+                r.kind = "along the line: a connector, splice, damage or a change of cable"
     out.length = length_estimate(out.reflections, grid, resp.mode, runmap)
     return out
 
