@@ -43,10 +43,10 @@ def station(tmp_path):
 
 @pytest.fixture(scope="module")
 def history_copy(tmp_path_factory):
-    """A small slice of the sample history: the wet 2 m vertical and the dry 40 m dipole, four visits."""
+    """A small slice of the sample history: the wet 2 m vertical and the dry 40 m dipole, three visits."""
     d = tmp_path_factory.mktemp("years")
     src = SAMPLES / "history"
-    dates = sh.SWEEP_DATES[::2]
+    dates = sh.SWEEP_DATES[::3]
     text = ['name = "Ridgeback Hill"\n']
     for name, prefix, line in (("2 m vertical", "vertical-2m", "vertical-2m.line.toml"),
                                ("40 m dipole", "dipole-40m", "dipole-40m.line.toml")):
@@ -72,9 +72,9 @@ def test_site_records_beside_the_site_file_once_and_links_trends(history_copy, t
     assert code in (0, 1), err
     store = history_copy / "years.history.sqlite"
     rows = _rows(store)
-    assert len(rows) == 8 and {r.date_source for r in rows} == {"site_file"}
-    assert sorted({r.sweep_date for r in rows}) == sorted(sh.SWEEP_DATES[::2])
-    assert "8 new sweep(s), 0 already there" in out
+    assert len(rows) == 6 and {r.date_source for r in rows} == {"site_file"}
+    assert sorted({r.sweep_date for r in rows}) == sorted(sh.SWEEP_DATES[::3])
+    assert "6 new sweep(s), 0 already there" in out
     index = (tmp_path / "o1" / "index.html").read_text()
     for slug in ("2-m-vertical", "40-m-dipole"):
         assert f'href="trend/{slug}.trend.html"' in index
@@ -83,7 +83,7 @@ def test_site_records_beside_the_site_file_once_and_links_trends(history_copy, t
     before = [r.to_dict() for r in rows]
     code2, out2, _ = run(capsys, "site", site, "--out", tmp_path / "o2", "--workers", "1")
     assert code2 == code
-    assert "0 new sweep(s), 8 already there" in out2
+    assert "0 new sweep(s), 6 already there" in out2
     assert [r.to_dict() for r in _rows(store)] == before
 
 
@@ -99,7 +99,7 @@ def test_trend_json_keys_and_exit_status(history_copy, tmp_path, capsys):
     assert set(by) == {"2 m vertical", "40 m dipole"}
     for e in data["entries"]:
         assert set(e) == {"name", "runs", "slopes", "flags"}
-        assert e["runs"] == 4
+        assert e["runs"] == 3
         assert set(e["slopes"]) == {"line_loss_db", "resonance_hz", "min_swr"}
         for s in e["slopes"].values():
             assert set(s) == {"per_year", "interval"} and len(s["interval"]) == 2
