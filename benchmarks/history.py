@@ -1,6 +1,6 @@
 """How many sweeps an hour one machine records and trends, and what each step costs against correcting.
 
-    .venv/bin/python benchmarks/history.py [--runs 200] [--pg postgresql://...]
+    .venv/bin/python benchmarks/history.py [--runs 200] [--pg postgresql://...] [--quick]
 
 Every figure is measured here, in this run, on the invented sample history (sample_sweeps/history):
 
@@ -50,12 +50,13 @@ def median_time(fn, repeats: int = 3) -> float:
     return statistics.median(times)
 
 
-def analyse_all():
-    """Every sample sweep through the site path without writing: returns (records, seconds per sweep)."""
+def analyse_all(n_antennas: int | None = None):
+    """Every sample sweep (of the first ``n_antennas``) through the site path without writing: returns
+    (records, seconds per sweep)."""
     records = []
     t0 = time.perf_counter()
     n = 0
-    for name, (prefix, _, _, _, line_file) in sh.feeds().items():
+    for name, (prefix, _, _, _, line_file) in list(sh.antennas().items())[:n_antennas]:
         line, _ = read_line_file(os.path.join(HERE, line_file))
         base = None
         for date in sh.SWEEP_DATES:
@@ -65,14 +66,14 @@ def analyse_all():
             cmp = None if base is None else compare_corrections(base, corr)
             base = base or corr
             records.append(build_record(site="Ridgeback Hill", antenna=name, sweep_path=path, date=date,
-                                        date_source="site-file", role="latest" if cmp else "baseline", corr=corr,
+                                        date_source="site_file", role="latest" if cmp else "baseline", corr=corr,
                                         summary=summary, comparison=cmp))
             n += 1
     return records, (time.perf_counter() - t0) / n
 
 
 def outputs_time(k: int = 3) -> float:
-    prefix, _, _, _, line_file = sh.feeds()["2 m vertical"]
+    prefix, _, _, _, line_file = sh.antennas()["2 m vertical"]
     line, _ = read_line_file(os.path.join(HERE, line_file))
     times = []
     with tempfile.TemporaryDirectory() as tmp:
@@ -107,10 +108,11 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--runs", type=int, default=200, help="dated runs per antenna in the store (default 200)")
     ap.add_argument("--pg", default=os.environ.get("DEEMBED_TEST_PG_URL"), help="a PostgreSQL URL to measure too")
+    ap.add_argument("--quick", action="store_true", help="one antenna and one sweep's outputs (a smoke run)")
     a = ap.parse_args(argv)
 
-    records, t_analyse = analyse_all()
-    t_out = outputs_time()
+    records, t_analyse = analyse_all(1 if a.quick else None)
+    t_out = outputs_time(1 if a.quick else 3)
     rows = [("analyse (correct, find, compare)", t_analyse), ("outputs (files, plots, report)", t_out)]
     recs = copies(records, a.runs)
     with tempfile.TemporaryDirectory() as tmp:
@@ -127,11 +129,12 @@ def main(argv=None) -> int:
                 for t in ("deembed_values", "deembed_sweeps", "deembed_meta"):
                     conn.execute(f"DROP TABLE IF EXISTS {t}")
         store = os.path.join(tmp, "b.sqlite")
-        n_ant = len(sh.feeds())
+        n_ant = len({r.antenna for r in records})
         res = compute_trends(store)                        # once first: scipy and matplotlib imported
         write_trend_outputs(res, os.path.join(tmp, "pages"))  # outside the timing, as in a long-lived run
-        t_fit = median_time(lambda: compute_trends(store)) / n_ant
-        t_page = median_time(lambda: write_trend_outputs(res, os.path.join(tmp, "pages"))) / n_ant
+        reps = 1 if a.quick else 3
+        t_fit = median_time(lambda: compute_trends(store), reps) / n_ant
+        t_page = median_time(lambda: write_trend_outputs(res, os.path.join(tmp, "pages")), reps) / n_ant
         runs = res["entries"][0]["trend"].runs
     rows.append((f"trend per antenna ({runs} runs), fit and flags", t_fit))
     rows.append((f"trend per antenna ({runs} runs), page and plot", t_page))

@@ -210,3 +210,18 @@ def test_password_hidden_in_names():
 def test_default_store_beside_site_file(tmp_path):
     site = tmp_path / "ridgeback-hill.site.toml"
     assert history.default_store_path(str(site)) == os.path.join(str(tmp_path), "ridgeback-hill.history.sqlite")
+
+
+def test_history_benchmark_runs(tmp_path, capsys, monkeypatch):
+    """benchmarks/history.py still runs against the current code (a smoke run; it asserts no timing)."""
+    import importlib.util
+    from pathlib import Path
+
+    monkeypatch.delenv("DEEMBED_TEST_PG_URL", raising=False)
+    path = Path(__file__).resolve().parents[1] / "benchmarks" / "history.py"
+    spec = importlib.util.spec_from_file_location("history_benchmark", path)
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    assert mod.main(["--runs", "8", "--quick"]) == 0
+    out = capsys.readouterr().out
+    assert "record, SQLite, 1 sweep per transaction" in out and "sweeps/hour" in out
