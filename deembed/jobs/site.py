@@ -134,6 +134,8 @@ def _run_antenna(job: AntennaJob) -> dict:
             "reasons": res["verdict"]["reasons"],
             "cause": res["cause"],
             "resonance_shift_hz": res["resonance_shift_hz"],
+            "resonance_shift_interval_hz": res.get("resonance_shift_interval_hz"),
+            "certainty": res["verdict"].get("certainty", {}),
             "min_swr_change": res["min_swr_change"],
             "largest_gamma_change_feedpoint": res["largest_gamma_change_feedpoint"],
             "outputs": {**{k: rel(v) for k, v in written.items()}, **{k: rel(v) for k, v in cw.items()}},

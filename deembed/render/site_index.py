@@ -6,6 +6,7 @@ import os
 from urllib.parse import quote
 
 
+from .intervals import fmt_shift_interval
 from ..base.verdicts import ERROR, TEXT as VERDICT_TEXT, WITHIN
 
 
@@ -56,7 +57,7 @@ def index_html(summary: dict) -> str:
         for cmp in ant["comparisons"]:
             st = cmp["verdict"]
             shift = cmp["resonance_shift_hz"]
-            shift_txt = "n/a" if shift is None else f"{shift / 1e3:+.1f} kHz"
+            shift_txt = "n/a" if shift is None else fmt_shift_interval(shift, cmp.get("resonance_shift_interval_hz"))
             links = " ".join(_link(p, k.replace("_", " ")) for k, p in cmp["outputs"].items()
                              if k in ("compare_html", "compare_png", "compare_json", "report_html"))
             why = "; ".join(cmp["reasons"])
