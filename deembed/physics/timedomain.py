@@ -318,5 +318,12 @@ def two_way_factor(weights, freq_hz, loss_np_fn, delays_s) -> np.ndarray:
     same at every frequency, so dividing a peak by it gives the reflection as it is at its place.
     ``loss_np_fn(delays, freq)`` returns the one-way matched loss in Np, shape (len(delays), len(freq)).
     """
-    a = loss_np_fn(np.atleast_1d(np.asarray(delays_s, dtype=float)), np.asarray(freq_hz, dtype=float))
-    return (np.exp(-2.0 * a) * np.asarray(weights, dtype=float)).sum(axis=1)  # no BLAS call for a thin product
+    d = np.atleast_1d(np.asarray(delays_s, dtype=float))
+    f = np.asarray(freq_hz, dtype=float)
+    w = np.asarray(weights, dtype=float)
+    out = np.empty(d.shape[0])
+    step = max(1, (1 << 21) // max(f.size, 1))  # a few delays at a time: the (delays, freq) matrix stays ~16 MB
+    for i in range(0, d.shape[0], step):
+        a = loss_np_fn(d[i:i + step], f)
+        out[i:i + step] = (np.exp(-2.0 * a) * w).sum(axis=1)  # no BLAS call for a thin product
+    return out
