@@ -93,6 +93,62 @@ def _initial_guess(freq_hz, q):
     return tau, float(cd[0]), float(cd[1])
 
 
+FIT_POINTS = 2000
+"""Most frequencies the line-model fit iterates on; the misfit is then checked on every point."""
+
+
+def _fit_subset(f, tau0: float):
+    """Indices of an evenly spread subset of the sweep for the fit (None: use every point).
+
+    At least :data:`FIT_POINTS`, and enough that the round-trip phase of a line of delay ``tau0`` turns less
+    than a quarter turn between neighbouring points (a step below 1/(8 tau0)), so the subset cannot alias
+    the delay the full sweep resolves."""
+    n = f.size
+    need = int(math.ceil((float(f.max()) - float(f.min())) * 8.0 * tau0 * 1.1)) + 2  # 10 % margin for rounding
+    m = max(FIT_POINTS, need)
+    if m >= n:
+        return None
+    return np.unique(np.linspace(0, n - 1, m).round().astype(np.int64))
+
+
+def _uniform_line_jac(f, tau, c, d, z0, z_ref=Z_REF_OHM):
+    """S11 (= S22) and S21*S12 of a uniform RLGC line, and their derivatives with respect to (tau, c, d, z0).
+
+    With A = 2c sqrt(f) + j w tau (= Z'l/z0) and B = 2 d f + j w tau (= z0 Y'l), gl = sqrt(A B) and
+    Zc = z0 A/gl (:class:`~deembed.physics.line.Section`, Pozar 4th ed. sec. 2.1); rho = (Zc - z_ref)/(Zc + z_ref),
+    E = exp(-2 gl), D = 1 - rho^2 E: S11 = rho (1 - E)/D and S21 S12 = E (1 - rho^2)^2/D^2
+    (:meth:`~deembed.physics.line.Section.deembed_terms`). The derivatives follow by the chain rule:
+    dS11/drho = (1 - E)(1 + rho^2 E)/D^2, dS11/dE = rho (rho^2 - 1)/D^2, dT/dE = (1 - rho^2)^2 (1 + rho^2 E)/D^3,
+    dT/drho = 4 rho E (1 - rho^2)(E - 1)/D^3, drho/dZc = 2 z_ref/(Zc + z_ref)^2, dE/dgl = -2E.
+    Needs f > 0. Returns (s11, t, ds11 (4, n), dt (4, n)).
+    """
+    w = 2 * np.pi * f
+    sq = np.sqrt(f)
+    a = 2 * c * sq + 1j * w * tau
+    b = 2 * d * f + 1j * w * tau
+    gl = np.sqrt(a * b)
+    zc = z0 * a / gl
+    da = np.array([1j * w, 2 * sq + 0j, np.zeros_like(f, dtype=complex)])  # d/d(tau, c, d)
+    db = np.array([1j * w, np.zeros_like(f, dtype=complex), 2 * f + 0j])
+    dgl = (da * b + a * db) / (2 * gl)
+    dzc = np.empty((4, f.size), dtype=complex)
+    dzc[:3] = z0 * (da * gl - a * dgl) / gl ** 2
+    dzc[3] = a / gl
+    dgl4 = np.vstack([dgl, np.zeros((1, f.size), dtype=complex)])  # gl does not depend on z0
+    rho = (zc - z_ref) / (zc + z_ref)
+    e = np.exp(-2 * gl)
+    r2 = rho * rho
+    den = 1 - r2 * e
+    k = 1 - r2
+    s11 = rho * (1 - e) / den
+    t = e * k * k / (den * den)
+    drho = dzc * (2 * z_ref / (zc + z_ref) ** 2)
+    de = -2 * e * dgl4
+    ds11 = ((1 - e) * (1 + r2 * e) / den ** 2) * drho + (rho * (r2 - 1) / den ** 2) * de
+    dt = (k * k * (1 + r2 * e) / den ** 3) * de + (4 * rho * e * k * (e - 1) / den ** 3) * drho
+    return s11, t, ds11, dt
+
+
 def fit_line_model(freq_hz, *, s=None, gamma_in=None, gamma_load=None, z0_ohm=Z_REF_OHM, fit_z0=False,
                    max_residual=None, max_nfev=200, label="fitted line") -> ModelFit:
     """Fit a uniform line (delay, conductor and dielectric loss, optionally Z0) by least squares.
@@ -128,7 +184,10 @@ def fit_line_model(freq_hz, *, s=None, gamma_in=None, gamma_load=None, z0_ohm=Z_
     the sign ambiguity of S21); for one standard, Gamma_in = S11 + S21 S12 G_L/(1 - S22 G_L).
     Initial guess: Gamma_in ~ G_L exp(-2 gamma l), so the unwrapped phase falls as -4 pi f tau and
     |Gamma_in| = exp(-2 A(f)); the loss is fitted by non-negative least squares on [sqrt(f), f].
-    Solved with ``scipy.optimize.least_squares`` (trust-region reflective, bounds keep delay and loss >= 0).
+    Solved with ``scipy.optimize.least_squares`` (trust-region reflective, bounds keep delay and loss >= 0),
+    iterating on an evenly spread subset of at most :data:`FIT_POINTS` frequencies (more if the delay needs
+    them, see :func:`_fit_subset`) with the analytic Jacobian of :func:`_uniform_line_jac`; the reported misfit
+    and the refusal test use every point.
     """
     from scipy.optimize import least_squares
 
@@ -175,19 +234,48 @@ def fit_line_model(freq_hz, *, s=None, gamma_in=None, gamma_load=None, z0_ohm=Z_
     x0 = np.array([1.0, c0 * math.sqrt(f_top), d0 * f_top, 1.0])
     lo = np.array([1e-6, 0.0, 0.0, 0.05])
     hi = np.array([np.inf, np.inf, np.inf, 20.0])
-    if not fit_z0:
-        x0, lo, hi = x0[:3], lo[:3], hi[:3]
-
-        def resid3(x):
-            return resid(np.append(x, 1.0))
-
-        fun = resid3
-    else:
-        fun = resid
+    npar = 4 if fit_z0 else 3
+    x0, lo, hi = x0[:npar], lo[:npar], hi[:npar]
     x0 = np.clip(x0, lo, np.where(np.isfinite(hi), hi, x0 + 1))
+    # the fit iterates on an evenly spread subset with the analytic Jacobian; the misfit is checked on all points
+    if np.all(f > 0):
+        sub = _fit_subset(f, tau0)
+        fs = f if sub is None else f[sub]
+        if s is not None:
+            ms = meas.reshape(3, n)[:, sub].ravel() if sub is not None else meas
+        else:
+            ms = meas if sub is None else meas[sub]
+            gls = g_l if sub is None else g_l[sub]
+        dpar = np.array([scale[0], 1 / math.sqrt(f_top), 1 / f_top, scale[3]])  # d(tau, c, d, z0)/dx
+
+        def terms(x):
+            xx = np.append(x, 1.0) if npar == 3 else x
+            return _uniform_line_jac(fs, xx[0] * scale[0], xx[1] / math.sqrt(f_top), xx[2] / f_top,
+                                     xx[3] * scale[3] if fit_z0 else z0_ohm)
+
+        def model_jac(x):
+            s11, t, ds11, dt = terms(x)
+            ds11, dt = ds11[:npar] * dpar[:npar, None], dt[:npar] * dpar[:npar, None]
+            if s is not None:
+                return np.concatenate([s11, s11, t]), np.concatenate([ds11, ds11, dt], axis=1)
+            den = 1 - s11 * gls
+            return s11 + t * gls / den, ds11 * (1 + t * gls * gls / den ** 2) + dt * (gls / den)
+
+        def fun(x):
+            r = model_jac(x)[0] - ms
+            return np.concatenate([r.real, r.imag])
+
+        def jac(x):
+            dm = model_jac(x)[1]
+            return np.concatenate([dm.real, dm.imag], axis=1).T
+    else:  # a 0 Hz point: the closed form's derivatives are 0/0 there; finite differences on every point
+        def fun(x):
+            return resid(np.append(x, 1.0) if npar == 3 else x)
+
+        jac = "2-point"
     with np.errstate(all="ignore"):
-        res = least_squares(fun, x0, bounds=(lo, hi), method="trf", x_scale="jac", xtol=1e-14, ftol=1e-14,
-                            gtol=1e-14, max_nfev=max_nfev)
+        res = least_squares(fun, x0, jac=jac, bounds=(lo, hi), method="trf", x_scale="jac", xtol=1e-14,
+                            ftol=1e-14, gtol=1e-14, max_nfev=max_nfev)
     if res.status <= 0 or not np.all(np.isfinite(res.x)):
         raise CharacterizationError(f"the line-model fit did not converge ({res.message.rstrip('.')}); "
                                     "check that the files are the standards at the line's far end, or measure "
