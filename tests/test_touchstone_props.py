@@ -61,7 +61,7 @@ def test_touchstone_like_text_gives_sweep_or_input_error(text, name):
         assert np.all(np.diff(out.freq_hz) > 0) and np.all(np.isfinite(out.s))
 
 
-_FLOATS = st.floats(allow_nan=False, allow_infinity=False, width=64)
+_GAMMA_PART = st.floats(min_value=-7.0, max_value=7.0, allow_nan=False, width=64)
 
 
 @SETTINGS
@@ -72,8 +72,10 @@ def test_one_port_round_trip_is_exact(freqs, data, unit):
     f = np.array(sorted(freqs))
     f = f[np.concatenate(([True], np.diff(f) > 0))]  # 0.0 and -0.0 count as one point
     f = np.abs(f)
-    re_ = data.draw(st.lists(_FLOATS, min_size=f.size, max_size=f.size))
-    im_ = data.draw(st.lists(_FLOATS, min_size=f.size, max_size=f.size))
+    # parts within +-7 keep |Gamma| under the reader's plausibility bound of 10 (a larger reflection is
+    # refused as no measurement: tests/test_hostile.py); every exponent down to subnormals is still drawn
+    re_ = data.draw(st.lists(_GAMMA_PART, min_size=f.size, max_size=f.size))
+    im_ = data.draw(st.lists(_GAMMA_PART, min_size=f.size, max_size=f.size))
     g = np.array(re_) + 1j * np.array(im_)
     with tempfile.TemporaryDirectory() as d:
         p = Path(d) / "r.s1p"

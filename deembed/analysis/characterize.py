@@ -344,6 +344,15 @@ class Characterization:
                                        self.method, source, allow_extrapolation, self.fit.rms_residual),))
 
 
+def _require_finite(s, which: str) -> None:
+    """Refuse standards that give no line (the same sweep twice, standards that cannot be told apart)."""
+    bad = ~np.isfinite(s).all(axis=(1, 2))
+    if bad.any():
+        raise CharacterizationError(f"the {which} sweeps give no line at {int(bad.sum())} of {bad.size} points: "
+                                    "the standards cannot be told apart there (the same sweep given twice, or a "
+                                    "standard's offset far off); check that each file holds its own standard")
+
+
 def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None, z0_ohm=Z_REF_OHM,
                  open_c_f=0.0, short_l_h=0.0, load_r_ohm=Z_REF_OHM, approx_delay_s=None,
                  max_residual=MAX_SINGLE_RESIDUAL) -> Characterization:
@@ -376,6 +385,7 @@ def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None,
         e00, e11, e10e01 = osl_error_terms(gamma_open, gamma_short, gamma_load, freq_hz=f, open_c_f=open_c_f,
                                            short_l_h=short_l_h, load_r_ohm=load_r_ohm)
         s = error_terms_to_two_port(e00, e11, e10e01, f)
+        _require_finite(s, "open, short and load")
         fit = fit_line_model(f, s=s, z0_ohm=z0_ohm, fit_z0=True, label="characterized run (equivalent uniform line)")
         if fit.rms_residual > 0.01:
             notes.append(f"the run is not one uniform line (model misfit {fit.rms_residual:.3g} RMS): the fitted model "
@@ -390,6 +400,7 @@ def characterize(freq_hz, *, gamma_open=None, gamma_short=None, gamma_load=None,
         zc, gl = open_short_line(zoc, zsc, freq_hz=f, open_c_f=open_c_f, short_l_h=short_l_h,
                                  approx_delay_s=approx_delay_s)
         s = uniform_two_port(zc, gl)
+        _require_finite(s, "open and short")
         fit = fit_line_model(f, s=s, z0_ohm=z0_ohm, fit_z0=True, label="characterized line")
         if fit.rms_residual > 0.01:
             notes.append(f"the line departs from the physical model (misfit {fit.rms_residual:.3g} RMS): the fitted "

@@ -1,7 +1,9 @@
 """The project's own exceptions.
 
 Every error a user can cause is a :class:`DeembedError`. The command line turns one into a single
-line ``error: <message>`` and exit status 2; nothing else is shown unless ``--debug`` is given.
+line ``error: <message>`` and the error's ``exit_status``: 2 for bad input (a file or an option), 3 for
+results that could not be written (:class:`OutputWriteError`); nothing else is shown unless
+``--debug`` is given.
 
 Library code names what is wrong by the quantity or file field (``power``, ``length``, ``port``), never by a
 command-line option. A field mentioned inside a message is written in backquotes (```vf```): ``str(exc)``
@@ -28,6 +30,8 @@ def render_fields(text: str, names: dict | None = None) -> str:
 
 class DeembedError(Exception):
     """Base class of every error deembed raises for bad input."""
+
+    exit_status = 2
 
     def __init__(self, *args):
         self.template = str(args[0]) if args else ""
@@ -69,3 +73,15 @@ class OptionError(DeembedError):
 
 class CharacterizationError(DeembedError):
     """A characterization that cannot be trusted (a fit that failed, data that do not describe a line)."""
+
+
+class OutputWriteError(DeembedError):
+    """Results that could not be written: permission, a full disk, a folder or file in the way, or the
+    output folder in use by another run. Not bad input: the command line exits with status 3."""
+
+    exit_status = 3
+
+    def __init__(self, path, message: str):
+        self.path = str(path)
+        self.reason = message
+        super().__init__(f"{self.path}: {message}")

@@ -57,11 +57,18 @@ def parse_frequency(text, option: str = "frequency") -> float:
     return hz
 
 
+MAX_LINE_LENGTH_M = 1e6
+"""Longest length accepted (1000 km): far beyond any feed line, well inside what the line maths can take."""
+
+
 def parse_length(text, option: str = "length", allow_zero: bool = True) -> float:
     """'30m', '98ft', '98 ft', "12'" -> metres. A unit is required (metres and feet are both in use)."""
     m = _scaled(text, option, "length", "30m or 98ft", _LENGTH)
     if m < 0 or (m == 0 and not allow_zero):
         raise OptionError(option, f"{text!r}: a length must be {'zero or ' if allow_zero else ''}positive")
+    if m > MAX_LINE_LENGTH_M:
+        raise OptionError(option, f"{text!r}: longer than {MAX_LINE_LENGTH_M / 1e3:g} km, which no feed line is; "
+                                  "check the number and its unit (30m, 98ft)")
     return m
 
 

@@ -1,7 +1,8 @@
 """The command line: the typer app, its commands (one module each in this folder) and the error mapping.
 
 Every user error is a :class:`deembed.base.errors.DeembedError`; ``main`` prints it as one line and
-exits with status 2 (``--debug`` shows the traceback instead).
+exits with its status: 2 for bad input, 3 for results that could not be written (``--debug`` shows the
+traceback instead). The statuses are listed at ``EXIT_OK`` below and in the README.
 """
 from __future__ import annotations
 
@@ -50,34 +51,110 @@ app.command("locate")(locate_command)
 app.command("trend")(trend_command)
 
 
+EXIT_OK = 0
+EXIT_CHECK_FAILED = 1
+EXIT_BAD_INPUT = 2
+EXIT_WRITE_FAILED = 3
+EXIT_INTERNAL = 4
+"""Exit statuses (the README's table): 0 done and every check passed; 1 a check failed (compare or site
+limits exceeded, a site entry that could not be checked); 2 bad input (a file or an option); 3 the
+results could not be written; 4 an internal error (a bug); 128 + N stopped by signal N (130 Ctrl-C,
+143 SIGTERM, 129 SIGHUP)."""
+
+GLOBAL_OPTIONS = ("--debug", "--max-input-size")
+
+
+def _take_option(args: list, name: str):
+    """Remove ``name VALUE`` or ``name=VALUE`` from ``args`` (anywhere); returns (args, value or None)."""
+    rest, value, i = [], None, 0
+    while i < len(args):
+        a = args[i]
+        if a == name:
+            if i + 1 >= len(args):
+                from ..base.errors import OptionError
+
+                raise OptionError(name, "needs a value, e.g. 512MiB")
+            value, i = args[i + 1], i + 2
+            continue
+        if a.startswith(name + "="):
+            value = a[len(name) + 1:]
+        else:
+            rest.append(a)
+        i += 1
+    return rest, value
+
+
 def main(argv=None) -> int:
-    """Console entry point: run a command, turning user errors into one line and exit status 2."""
+    """Console entry point: run a command; errors become one line and an exit status (see EXIT_*).
+
+    Everything the command prints passes through :class:`~deembed.base.textsafe.SafeStream` (control
+    characters from files are shown escaped), Python warnings are not shown (``--debug`` shows them),
+    and SIGTERM/SIGHUP unwind like Ctrl-C so that nothing half-written is left.
+    """
+    import os
+    import warnings
+
+    from ..base.signals import signals_raise
+    from ..base.textsafe import SafeStream
+
     args = list(sys.argv[1:] if argv is None else argv)
     debug = "--debug" in args
     args = [a for a in args if a != "--debug"]
+    saved = sys.stdout, sys.stderr
+    env_saved = os.environ.get("DEEMBED_MAX_INPUT_SIZE")
+    sys.stdout, sys.stderr = SafeStream(sys.stdout), SafeStream(sys.stderr)
     try:
+        with warnings.catch_warnings():
+            if not debug:
+                warnings.simplefilter("ignore")
+            with signals_raise():
+                return _run(args, debug)
+    finally:
+        sys.stdout.flush()
+        sys.stderr.flush()
+        sys.stdout, sys.stderr = saved
+        if env_saved is None:
+            os.environ.pop("DEEMBED_MAX_INPUT_SIZE", None)
+        else:
+            os.environ["DEEMBED_MAX_INPUT_SIZE"] = env_saved
+
+
+def _run(args: list, debug: bool) -> int:
+    import os
+
+    from ..base.signals import Interrupted
+    from ..base.textsafe import one_line
+
+    try:
+        args, size = _take_option(args, "--max-input-size")
+        if size is not None:
+            from ..io.inputfile import parse_size
+
+            os.environ["DEEMBED_MAX_INPUT_SIZE"] = str(parse_size(size, "--max-input-size"))
         rv = app(args=args, prog_name="deembed", standalone_mode=False)
-        return int(rv) if isinstance(rv, int) else 0
+        return int(rv) if isinstance(rv, int) else EXIT_OK
     except DeembedError as exc:
         if debug:
             raise
         # the library names fields (power, length); the command line names its options (--power, --length)
-        print("error: " + " ".join(exc.render(OPTION_FOR_FIELD).splitlines()), file=sys.stderr)  # always one line
-        return 2
+        print("error: " + one_line(exc.render(OPTION_FOR_FIELD)), file=sys.stderr)  # always one line
+        return getattr(exc, "exit_status", EXIT_BAD_INPUT)
     except typer.Exit as exc:
         return exc.exit_code
-    except typer.Abort:
-        print("aborted", file=sys.stderr)
-        return 1
-    except KeyboardInterrupt:
-        print("interrupted", file=sys.stderr)
+    except (typer.Abort, KeyboardInterrupt):
+        print("interrupted; results are written all together or not at all, so nothing half-written is left",
+              file=sys.stderr)
         return 130
+    except Interrupted as exc:
+        print(f"stopped by {exc.signame}; results are written all together or not at all, so nothing "
+              "half-written is left", file=sys.stderr)
+        return exc.exit_status
     except Exception as exc:  # usage errors of the option parser carry format_message() and exit_code
         if hasattr(exc, "format_message") and hasattr(exc, "exit_code"):
             if debug:
                 raise
             # one line, like our own errors, instead of the parser's usage block
-            msg = " ".join(str(exc.format_message()).split())
+            msg = one_line(exc.format_message())
             if not msg:  # no arguments at all: the parser has already shown the help
                 return exc.exit_code
             ctx = getattr(exc, "ctx", None)
@@ -86,9 +163,9 @@ def main(argv=None) -> int:
             return exc.exit_code
         if debug:
             raise
-        print(f"internal error: {type(exc).__name__}: {exc} (run again with --debug for the traceback, "
-              "and please report it)", file=sys.stderr)
-        return 1
+        print(one_line(f"internal error: {type(exc).__name__}: {exc} (run again with --debug for the traceback, "
+                       "and please report it)"), file=sys.stderr)
+        return EXIT_INTERNAL
 
 
 if __name__ == "__main__":  # pragma: no cover

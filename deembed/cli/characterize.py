@@ -6,11 +6,12 @@ options, calls :func:`deembed.characterize.characterize`, writes the run's 2-por
 from __future__ import annotations
 
 import json
+import os
 from typing import List, Optional
 
 import typer
 
-from ..base.errors import InputFileError, OptionError
+from ..base.errors import InputFileError, OptionError, OutputWriteError
 
 
 def characterize_command(
@@ -62,6 +63,17 @@ def characterize_command(
     c_f = parse_capacitance(open_c, "--open-c") if open_c is not None else 0.0
     l_h = parse_inductance(short_l, "--short-l") if short_l is not None else 0.0
     r_ohm = parse_resistance(load_r, "--load-r") if load_r is not None else 50.0
+    # a calibration standard's offsets are femtofarads, picohenries and ohms near 50 (common practice, no
+    # source): far beyond these bounds the value is a typing slip, and the maths would give no line at all
+    if abs(c_f) > 1e-9:
+        raise OptionError("--open-c", f"{open_c!r}: an open standard's fringing capacitance is femtofarads to a "
+                                      "few picofarads; give at most 1nF, e.g. 12fF")
+    if abs(l_h) > 1e-6:
+        raise OptionError("--short-l", f"{short_l!r}: a short standard's inductance is picohenries to a few "
+                                       "nanohenries; give at most 1uH, e.g. 5pH")
+    if not 0.5 <= r_ohm <= 5000:
+        raise OptionError("--load-r", f"{load_r!r}: a load standard is close to 50 ohm; give 0.5 to 5000 ohm")
+    _refuse_same_file_twice(given)
     length_m = parse_length(length, "--length", allow_zero=False) if length is not None else None
     cab = _cables.lookup(cable, _cables.catalog(cables), "--cable") if cable else None
     at_hz = None
@@ -86,10 +98,30 @@ def characterize_command(
                                      gamma_open=gam.get("open"), gamma_short=gam.get("short"))
     report["inputs"] = dict(given)
     report["out"] = str(out)
-    write_characterization(out, ch, comments=tuple(f"{k}: {v}" for k, v in given.items()))
+    from ..io.outfolder import OutputFolder
+
+    parent = os.path.dirname(out) or "."
+    if os.path.lexists(parent) and not os.path.isdir(parent):
+        raise OutputWriteError(parent, f"is a file, so {out} cannot be written into it; move it or choose another "
+                                       "--out")
+    with OutputFolder(parent, inputs=[*given.values(), cables]) as folder:
+        write_characterization(folder.path(os.path.basename(out)), ch,
+                               comments=tuple(f"{k}: {v}" for k, v in given.items()))
     if as_json:
         print(json.dumps(report, indent=2))
     else:
         print(report_text(report))
 
 
+def _refuse_same_file_twice(given: dict) -> None:
+    """Each standard needs its own sweep: refuse one file given for two of them."""
+    names = list(given)
+    for i, a in enumerate(names):
+        for b in names[i + 1:]:
+            try:
+                same = os.path.samefile(given[a], given[b])
+            except OSError:
+                same = os.path.abspath(given[a]) == os.path.abspath(given[b])
+            if same:
+                raise OptionError(f"--{b}", f"{given[b]} is also given as --{a}; each standard needs its own "
+                                            f"sweep (taken with the {b} at the far end)")

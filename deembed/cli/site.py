@@ -14,7 +14,11 @@ def site_command(
     site_file: str = typer.Argument(..., help="Site file (TOML): the antennas, their lines, baselines and latest sweeps."),
     out: str = typer.Option("deembed-site", "--out", help="Folder for the results: index.html, site.json and "
                                                           "a folder per antenna."),
-    workers: int = typer.Option(2, "--workers", help="Processes to run antennas on (default 2: both cores)."),
+    workers: int = typer.Option(2, "--workers", help="Processes to run antennas on (default 2; never more than the "
+                                                     "antennas or the usable cores: then they run in turn)."),
+    time_limit: str = typer.Option("10min", "--time-limit", help="Time limit per antenna, e.g. 90s, 10min, 1h, or "
+                                                                 "none; an antenna still running then is recorded "
+                                                                 "as failed and the others finish."),
     as_json: bool = typer.Option(False, "--json", help="Print the site summary as JSON on standard output."),
     record: Optional[str] = typer.Option(None, "--record", help="Record into this history store (a SQLite file or "
                                          "a postgresql:// URL) instead of the site's own (its history key, or "
@@ -28,9 +32,12 @@ def site_command(
 
     if record is not None and no_record:
         raise OptionError("--no-record", "give either --record STORE or --no-record, not both")
+    from ..jobs.pool import parse_duration
+
     if workers < 1:
         raise OptionError("--workers", f"{workers}: give 1 or more processes")
-    summary = run_site(site_file, out, workers=workers, progress=stderr_progress(),
+    limit_s = parse_duration(time_limit, "--time-limit")
+    summary = run_site(site_file, out, workers=workers, progress=stderr_progress(), time_limit_s=limit_s,
                        record=False if no_record else (record if record is not None else True))
     if as_json:
         print(json.dumps(to_jsonable(summary), indent=2, allow_nan=False))

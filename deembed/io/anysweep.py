@@ -9,6 +9,7 @@ import re
 from pathlib import Path
 
 from ..base.errors import InputFileError, OptionError
+from .inputfile import check_input_file
 from .tablesweep import COLUMNS_EXAMPLES, read_table_sweep
 from .touchstone import read_sweep
 
@@ -19,6 +20,7 @@ _SNP = re.compile(r"\.s\d+p\Z", re.I)
 
 def _looks_like_touchstone(path: Path) -> bool:
     """True when the first line that is not blank or a '!' comment is an option line or a [keyword]."""
+    check_input_file(path)  # a regular file within the size limit: never a device or a pipe that would hang
     try:
         with open(path, "rb") as fh:
             head = fh.read(65536)

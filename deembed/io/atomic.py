@@ -100,6 +100,11 @@ def _same_file(a: Path, b: Path) -> bool:
     return a.resolve() == b.resolve()
 
 
+def same_path(a, b) -> bool:
+    """True when ``a`` and ``b`` name the same file (through links too), or resolve to the same path."""
+    return _same_file(Path(a), Path(b))
+
+
 def check_not_input(out_path, input_paths: Iterable, option: str) -> None:
     """Refuse an output path that names one of the input files.
 

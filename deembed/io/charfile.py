@@ -19,6 +19,7 @@ from ..base.units import fmt_freq
 from ..physics import between as bw
 from ..physics.grid import FREQ_MATCH_RTOL, inside, nearest_points
 from ..physics.line import Line, LossModel, Section, abcd_parts_of, abcd_to_s, s_to_abcd
+from .inputfile import check_input_file
 from .touchstone import read_sweep, write_touchstone
 
 MODEL_TAG = "deembed-line-model:"
@@ -55,8 +56,7 @@ _REQUIRED = ("method", "z0_ohm", "delay_s", "c_np", "d_np", "low_hz", "high_hz")
 def _find_model(path: str):
     """(record dict, line number) from a file's model comment, or None when the file has none."""
 
-    if not os.path.isfile(path):
-        return None
+    check_input_file(path)  # a regular file within the size limit: never a device that reads forever
     try:
         with open(path, "r", encoding="latin-1") as fh:
             for num, text in enumerate(fh, 1):

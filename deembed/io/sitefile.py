@@ -138,7 +138,13 @@ def read_site(path, out_dir: str) -> Site:
     base = os.path.dirname(os.path.abspath(p))
     cables = data.get("cables")
     if cables is not None:
-        cables = os.path.join(base, str(cables))
+        if not isinstance(cables, str) or not cables.strip():
+            raise InputFileError(p, "cables should name a cable catalog file, e.g. cables = \"my-cables.toml\"")
+        cables = os.path.join(base, cables)
+        try:
+            catalog(cables)  # a bad site-wide catalog is the site file's fault, not every feed's
+        except InputFileError as exc:
+            raise InputFileError(p, f"cables = {data['cables']!r}: {exc}") from None
     jobs, used = [], set()
     for i, entry in enumerate(antennas, 1):
         name = str(entry.get("name") or f"antenna {i}")

@@ -42,6 +42,7 @@ import numpy as np
 
 from ..base.errors import InputFileError, OptionError
 from ..physics.rf import Z_REF_OHM
+from .inputfile import read_input_bytes
 from .sweep import Sweep
 
 __all__ = ["ColumnMap", "MagnitudeSweep", "parse_columns", "read_table_sweep", "COLUMNS_EXAMPLES"]
@@ -200,14 +201,7 @@ def parse_columns(text, option: str = "--columns") -> ColumnMap:
 # ---------------------------------------------------------------------------------------------- reading
 
 def _read_text(path: Path, name: str) -> str:
-    if not path.exists():
-        raise InputFileError(name, "no such file; check the name and the folder")
-    if path.is_dir():
-        raise InputFileError(name, "this is a folder, not a file; give the path of the exported table in it")
-    try:
-        data = path.read_bytes()
-    except OSError as exc:
-        raise InputFileError(name, f"cannot be read ({exc.strerror}); check that it is readable") from None
+    data = read_input_bytes(path, name)  # a regular file within the size limit, or a clear refusal
     if not data.strip():
         raise InputFileError(name, "the file is empty; export the sweep again")
     binary = "this looks like a binary file, not a text table; export the sweep as CSV or text"

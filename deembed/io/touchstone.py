@@ -43,6 +43,7 @@ from ..physics.network import renormalise_s, s_from_y, s_from_z
 from ..physics.rf import Z_REF_OHM
 from .sweep import Sweep
 from .atomic import write_text_atomic, write_text_chunks_atomic
+from .inputfile import read_input_bytes
 from .numtext import CHUNK_ROWS, scale_decimal_tokens
 
 __all__ = ["read_sweep", "write_touchstone"]
@@ -178,6 +179,8 @@ def read_sweep(path, *, port: int | None = None, expect_ports: int | None = 1) -
                                       f"use `port` {' or `port` '.join(str(k) for k in range(1, p + 1))}")
         s = s[:, port - 1:port, port - 1:port].copy()
         sel_ref = z_ref[port - 1:port]
+    if s.shape[1] == 1:
+        _check_reflection(s[:, 0, 0], freq_hz, rec_line, name)
     if expect_ports is not None and s.shape[1] != expect_ports:
         if expect_ports == 1:
             picks = " or ".join(f"`port` {k}" for k in range(1, p + 1))
@@ -191,14 +194,7 @@ def read_sweep(path, *, port: int | None = None, expect_ports: int | None = 1) -
 
 
 def _read_text(p: Path, name: str) -> str:
-    if not p.exists():
-        raise InputFileError(name, "no such file; check the name and the folder")
-    if p.is_dir():
-        raise InputFileError(name, "this is a folder, not a file; give the path of the Touchstone file in it")
-    try:
-        data = p.read_bytes()
-    except OSError as exc:
-        raise InputFileError(name, f"cannot be read ({exc.strerror}); check that it is readable") from None
+    data = read_input_bytes(p, name)  # a regular file within the size limit, or a clear refusal
     if not data.strip():
         raise InputFileError(name, "the file is empty; export the sweep again as Touchstone (.s1p)")
     binary = ("this looks like a binary file, not a Touchstone text file; export the sweep as "
@@ -691,6 +687,24 @@ def _check_values(vals, freq_hz, rec_line, name):
             msg = (f"frequency goes down from {_num(vals[k, 0])} (line {a}) to {_num(vals[k + 1, 0])}; Touchstone "
                    f"frequencies must strictly increase: sort the file or remove the extra points")
         raise InputFileError(name, msg, line=b)
+
+
+GAMMA_ABSURD = 10.0
+"""Largest |reflection| a one-port sweep may hold. A passive antenna reflects at most |Gamma| = 1 (an
+analyzer's calibration error adds a little); ten times that is no measurement, only a wrong export or a
+damaged file, and values around 1e155 and beyond would stall the plots."""
+
+
+def _check_reflection(g, freq_hz, rec_line, name) -> None:
+    with np.errstate(over="ignore", invalid="ignore"):
+        mag = np.abs(g)
+    bad = ~(mag <= GAMMA_ABSURD)
+    if bad.any():
+        k = int(np.argmax(bad))
+        raise InputFileError(name, f"|Gamma| = {mag[k]:.3g} at {freq_hz[k] / 1e6:.6g} MHz: a reflection above "
+                                   f"{GAMMA_ABSURD:g} cannot come from an antenna (a passive load reflects at most "
+                                   "1); check this value and the format line (RI, MA or DB)",
+                             line=int(rec_line[min(k, len(rec_line) - 1)]))
 
 
 def _num(v: float) -> str:

@@ -18,7 +18,8 @@ from ..physics.deembedding import correct
 from ..analysis.along import compare_along
 from ..render.compare_page import along_overlay, compare_html, compare_plot
 from ..render.plots import save
-from .correct import prepare_out_dir
+from ..io.outfolder import OutputFolder
+from .correct import line_sources
 
 
 def compare_paths(after_path: str, out_dir: str) -> dict:
@@ -105,8 +106,22 @@ def compare_files_with_corrections(baseline: str, after: str, line, *, after_lin
     later = correct(read_phase_sweep(after, columns, port=port, needs=need), other)
     result = compare_corrections(before, later, limits, settings=settings)
     if out:
-        prepare_out_dir(out)
-        written = write_compare_outputs(result, before, later, compare_paths(after, out),
-                                        inputs=[baseline, after, after_line, cables, *inputs], title=title)
-        result["outputs"] = written
+        result["outputs"] = write_compare_folder(result, before, later, after, out,
+                                                 inputs=[baseline, after, after_line, cables, *inputs,
+                                                         *line_sources(line), *line_sources(other)], title=title)
     return result, before, later
+
+
+def write_compare_folder(result: dict, before, after, after_path: str, out_dir: str, inputs=(), *,
+                         title: str = "") -> dict:
+    """Write one comparison's outputs into ``out_dir`` as one transaction; returns the final paths.
+
+    Every output is checked against ``inputs`` (and every file read so far) before anything is written;
+    on a failure or an interruption ``out_dir`` keeps what it had.
+    """
+    inputs = [i for i in inputs if i]
+    for p in compare_paths(after_path, out_dir).values():
+        check_not_input(p, inputs, "out")
+    with OutputFolder(out_dir, inputs=inputs) as out:
+        written = write_compare_outputs(result, before, after, compare_paths(after_path, out.stage), title=title)
+    return {k: out.final(v) for k, v in written.items()}

@@ -33,6 +33,7 @@ from ..io.tablesweep import MagnitudeSweep
 from ..physics.magnitude import correct_magnitude
 from ..analysis.summary import magnitude_summary, magnitude_table
 from ..io.jsonfile import to_jsonable
+from ..io.outfolder import OutputFolder
 from ..io.numtext import is_float_table, table_blocks, write_csv_chunks
 from ..analysis.along import for_correction
 from ..render.along import along_plot
@@ -238,22 +239,37 @@ def write_plots(corr, table: dict, paths: dict, opts: Options) -> dict:
     return {k: paths[k] for k in figs}
 
 
-def correct_file(sweep_path: str, line, out_dir: str, opts: Options | None = None, line_inputs=()):
-    """Read, correct, analyse and write. Returns (correction, summary, written paths)."""
+def line_sources(line) -> list:
+    """Files a line was built from (a measured 2-port's path), for the output-over-input check."""
+    return [getattr(part, "source", None) for part in getattr(line, "parts", ()) if getattr(part, "source", None)]
+
+
+def correct_file(sweep_path: str, line, out_dir: str, opts: Options | None = None, line_inputs=(), *,
+                 staged: bool = False):
+    """Read, correct, analyse and write. Returns (correction, summary, written paths).
+
+    The outputs are one transaction (:class:`~deembed.io.outfolder.OutputFolder`): all of them appear
+    in ``out_dir`` or, on any failure or interruption, none does. With ``staged=True`` the caller
+    already runs such a transaction and ``out_dir`` lies inside its staging folder: the files are
+    written there directly.
+    """
 
     opts = opts or Options()
     sweep = read_any_sweep(sweep_path, opts.columns, port=opts.port, expect_ports=1, option=opts.columns_option)
-    paths = output_paths(sweep_path, out_dir)
-    refuse_overwriting_inputs(paths, [sweep_path, opts.bands_file, *line_inputs])
-    if isinstance(sweep, MagnitudeSweep):
+    inputs = [sweep_path, opts.bands_file, *line_inputs, *line_sources(line)]
+    refuse_overwriting_inputs(output_paths(sweep_path, out_dir), inputs)
+    magnitude = isinstance(sweep, MagnitudeSweep)
+    if magnitude:
         corr, summary, table = analyse_magnitude(sweep, line, opts)
-        prepare_out_dir(out_dir)
-        written = write_magnitude_outputs(corr, summary, table, paths, opts)
-        return corr, summary, written
-    corr, summary, table = analyse(sweep, line, opts)
-    prepare_out_dir(out_dir)
-    written = write_outputs(corr, summary, table, paths, opts)
-    return corr, summary, written
+    else:
+        corr, summary, table = analyse(sweep, line, opts)
+    write = write_magnitude_outputs if magnitude else write_outputs
+    if staged:
+        os.makedirs(out_dir, exist_ok=True)
+        return corr, summary, write(corr, summary, table, output_paths(sweep_path, out_dir), opts)
+    with OutputFolder(out_dir, inputs=inputs) as out:
+        written = write(corr, summary, table, output_paths(sweep_path, out.stage), opts)
+    return corr, summary, {k: out.final(v) for k, v in written.items()}
 
 
 # ------------------------------------------------------------------------------- sweeps without phase

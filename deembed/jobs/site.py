@@ -3,7 +3,8 @@
 The site file's format is in :mod:`deembed.io.sitefile`. Every antenna is corrected (``deembed correct``
 outputs in ``OUT/<antenna-slug>/``), compared against its baseline (``<latest>.compare.json/.png/.html``
 beside them), and the site gets ``OUT/index.html`` (one self-contained page linking every antenna's files)
-and ``OUT/site.json``. Antennas run in parallel on up to two processes; an antenna that fails (a bad file, a
+and ``OUT/site.json``. Antennas run in parallel on up to two processes (:mod:`deembed.jobs.pool`: imports before forking, a
+time limit per antenna, workers that end with the run); an antenna that fails (a bad file, a
 line that does not fit) is recorded as an error and the others carry on.
 """
 from __future__ import annotations
@@ -14,20 +15,24 @@ from dataclasses import replace
 
 from ..analysis.compare import compare_corrections
 from ..analysis.limits import parse_limits
-from ..base.errors import DeembedError, InputFileError, OptionError
+from ..base.errors import DeembedError, InputFileError, OptionError, OutputWriteError
 from ..base.verdicts import ERROR, OUTSIDE, WITHIN
-from ..io.atomic import write_text_atomic
+from ..io.atomic import same_path, write_text_atomic
 from ..io.jsonfile import to_jsonable
+from ..io.outfolder import OutputFolder
 from ..io.sitefile import AntennaJob, Site, after_line, antenna_line, read_antenna, read_site
 from ..io.history import open_store
 from ..render.site_index import index_html
 from . import correct as workflow
 from .compare import compare_paths, write_compare_outputs
+from .pool import can_fork, preload, run_all
 from .record import build_record, sweep_date
 from .trend import compute_trends, write_trend_outputs
 
 DEFAULT_WORKERS = 2
 """Processes for the antennas: both cores of the ordinary two-core machine the tool is meant for."""
+DEFAULT_TIME_LIMIT_S = 600.0
+"""Time limit per antenna: ten minutes, far above the seconds an ordinary antenna takes (README: deembed site)."""
 
 
 def load_site(path, out_dir: str) -> Site:
@@ -50,13 +55,26 @@ def _check_limits(values: dict, path: str, where: str):
 # ------------------------------------------------------------------------------------------- one feed
 
 def run_antenna(job: AntennaJob) -> dict:
-    """Correct, compare and write one feed; never raises (a failure is the result's ``error``)."""
-    try:
-        return _run_antenna(job)
-    except DeembedError as exc:
-        return _failed(job, str(exc))
-    except Exception as exc:  # a failing antenna must not stop the others
-        return _failed(job, f"internal error: {type(exc).__name__}: {exc}")
+    """Correct, compare and write one antenna; never raises (a failure is the result's ``error``).
+
+    The result's ``inputs_read`` lists every file the antenna read (for the site's output-over-input
+    check; :func:`run_site` removes it); ``write_failed`` is true when its own outputs could not be
+    written (a full disk), which fails the whole site run rather than the antenna alone.
+    """
+    from ..io.inputfile import recording_inputs
+
+    with recording_inputs() as read:
+        try:
+            result = _run_antenna(job)
+        except DeembedError as exc:
+            result = _failed(job, str(exc))
+        except OSError as exc:  # writing into the staging folder: the disk, not the antenna
+            result = _failed(job, f"could not write its results ({exc.strerror or exc})")
+            result["write_failed"] = True
+        except Exception as exc:  # a failing antenna must not stop the others
+            result = _failed(job, f"internal error: {type(exc).__name__}: {exc}")
+    result["inputs_read"] = sorted(read)
+    return result
 
 
 def _failed(job: AntennaJob, message: str) -> dict:
@@ -96,7 +114,8 @@ def _run_antenna(job: AntennaJob) -> dict:
     rel = lambda p: os.path.relpath(p, os.path.dirname(out))  # noqa: E731  (relative to the site's folder)
     columns = _columns(job)
     opts = workflow.Options(port=port, notes=notes, columns=columns, columns_option=f"{job.where}: 'columns'")
-    base_corr, base_summary, base_written = workflow.correct_file(baseline, line, out, opts, line_inputs=line_inputs)
+    base_corr, base_summary, base_written = workflow.correct_file(baseline, line, out, opts, line_inputs=line_inputs,
+                                                                  staged=True)
     if getattr(base_corr, "has_phase", True) is False:
         raise InputFileError(baseline, "this sweep holds SWR or return loss only, without phase; the site check "
                                        "compares with the baseline (resonance shift, the antenna-or-line cause), "
@@ -119,7 +138,7 @@ def _run_antenna(job: AntennaJob) -> dict:
         a_opts = workflow.Options(port=port, notes=after_notes, columns=columns,
                                   columns_option=f"{job.where}: 'columns'")
         corr, summary, written = workflow.correct_file(sweep, other, out, a_opts,
-                                                       line_inputs=line_inputs + [baseline])
+                                                       line_inputs=line_inputs + [baseline], staged=True)
         d, src = sweep_date(sweep, files.dates.get(sweep), "site_file")
         res = compare_corrections(base_corr, corr, limits)
         paths = compare_paths(sweep, out)
@@ -155,7 +174,7 @@ def _run_antenna(job: AntennaJob) -> dict:
 # ------------------------------------------------------------------------------------------- the site
 
 def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=None, record: str | bool = True,
-             trend_limits=None) -> dict:
+             trend_limits=None, time_limit_s: float | None = DEFAULT_TIME_LIMIT_S) -> dict:
     """Check every antenna of a site file; write ``index.html`` and ``site.json`` into ``out_dir``.
 
     Parameters
@@ -165,7 +184,8 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
     out_dir : str
         Folder for the results (created if needed); each antenna gets a sub-folder named after it.
     workers : int
-        Processes to run antennas on (default 2); 1 runs them one after another in this process.
+        Processes wanted (default 2); :mod:`deembed.jobs.pool` runs no more than the antennas or the usable
+        cores, so one antenna or one core runs them one after another.
     progress : callable, optional
         Called as ``progress(done, total, feed_result)`` after each antenna.
     record : str or bool
@@ -174,6 +194,9 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
         that store (file or URL) instead; False: record nothing.
     trend_limits : deembed.analysis.trend.TrendLimits, optional
         Limits for the trend pages.
+    time_limit_s : float or None
+        Time limit per antenna in seconds (default 600); an antenna still running then is stopped and
+        recorded as failed, and the others finish. ``None``: no limit.
 
     Returns
     -------
@@ -181,6 +204,13 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
         ``{"site", "file", "verdict", "counts", "antennas": [per-antenna results, in file order], "outputs"}``;
         ``verdict`` is ``within_limits`` when every antenna is, ``error`` when any could not be checked,
         else ``outside_limits``.
+
+    Notes
+    -----
+    The outputs are one transaction (:class:`~deembed.io.outfolder.OutputFolder`): on an interruption,
+    a full disk or any other failure ``out_dir`` keeps what it had; otherwise every antenna's files and the
+    index appear together. The index is written whatever the antennas do (a failed or stopped antenna is a
+    row saying why). Recording into the history store happens just before the files are moved into place.
     """
 
     if os.path.exists(out_dir) and not os.path.isdir(out_dir):
@@ -192,38 +222,77 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
         with open_store(store) as st:  # refuse a newer or foreign store before anything is written
             st.ensure_schema()
         site = replace(site, jobs=tuple(replace(j, record=True) for j in site.jobs))
-    os.makedirs(out_dir, exist_ok=True)
-    results = [None] * len(site.jobs)
-    total = len(site.jobs)
-    if workers > 1 and total > 1:
-        from concurrent.futures import ProcessPoolExecutor, as_completed
+    inputs = refuse_outputs_over_inputs(site, out_dir)
+    with OutputFolder(out_dir, inputs=inputs) as out:
+        summary = _run_into(site, out, workers, progress, time_limit_s, store, trend_limits)
+    return summary
 
-        with ProcessPoolExecutor(max_workers=min(workers, total)) as pool:
-            futures = {pool.submit(run_antenna, job): i for i, job in enumerate(site.jobs)}
-            for done, fut in enumerate(as_completed(futures), 1):
-                i = futures[fut]
-                try:
-                    results[i] = fut.result()
-                except Exception as exc:  # a worker that died (out of memory, killed) fails its antenna only
-                    results[i] = _failed(site.jobs[i], f"the worker process failed: {type(exc).__name__}: {exc}")
-                if progress:
-                    progress(done, total, results[i])
-    else:
-        for i, job in enumerate(site.jobs):
-            results[i] = run_antenna(job)
-            if progress:
-                progress(i + 1, total, results[i])
+
+def _run_into(site: Site, out: OutputFolder, workers, progress, time_limit_s, store, trend_limits) -> dict:
+    """The body of :func:`run_site`, writing under the transaction's staging folder."""
+    stage = out.stage
+    jobs = [replace(j, out_dir=os.path.join(stage, j.slug)) for j in site.jobs]
+    total = len(jobs)
+    if can_fork():  # the workers are forked from this process: import once here, not once per worker
+        preload(extra=PRELOAD_OWN)
+    results = run_all(jobs, run_antenna, workers=workers, time_limit_s=time_limit_s, on_failure=_failed,
+                      progress=progress)
+    for r in results:
+        out.add_inputs(r.pop("inputs_read", ()))
+    broken = [r for r in results if r.pop("write_failed", False)]
+    if broken:
+        raise OutputWriteError(out.out_dir, f"could not write the results of {broken[0]['name']}: "
+                                            f"{broken[0]['error']}; free some space or choose another `out` "
+                                            "(nothing was changed)")
     records = [rec for r in results for rec in r.pop("_records", [])]
     counts = {s: sum(r["verdict"] == s for r in results) for s in (WITHIN, OUTSIDE, ERROR)}
     overall = WITHIN if counts[WITHIN] == total else ERROR if counts[ERROR] else OUTSIDE
     summary = {"site": site.name, "file": site.path, "verdict": overall, "counts": counts,
                "antennas": results, "outputs": {"index_html": "index.html", "site_json": "site.json"}}
     if store is not None:
-        summary["history"] = _record_and_trend(store, site, records, results, out_dir, trend_limits)
-    write_text_atomic(os.path.join(out_dir, "site.json"),
+        summary["history"] = _record_and_trend(store, site, records, results, stage, trend_limits)
+    write_text_atomic(os.path.join(stage, "site.json"),
                       json.dumps(to_jsonable(summary), indent=2, allow_nan=False) + "\n")
-    write_text_atomic(os.path.join(out_dir, "index.html"), index_html(summary))
+    write_text_atomic(os.path.join(stage, "index.html"), index_html(summary))
     return summary
+
+
+PRELOAD_OWN = ("deembed.render.report", "deembed.render.compare_page", "deembed.analysis.compare")
+"""The project's own modules an antenna needs, imported before the workers are forked."""
+
+
+def refuse_outputs_over_inputs(site: Site, out_dir: str) -> list:
+    """Refuse (exit 2) a site whose outputs would replace any input of any antenna; returns the inputs.
+
+    Checked before anything runs, on every file an antenna names (baselines, latest sweeps, line files,
+    after-lines, the catalog, the site file itself). Files named inside line files (a measured
+    2-port) are checked again, with every other file read, when the results are moved into place.
+    """
+    inputs = [site.path]
+    outputs = [(os.path.join(out_dir, "site.json"), "the site's summary"),
+               (os.path.join(out_dir, "index.html"), "the site's index")]
+    for job in site.jobs:
+        e = job.entry
+        latest = e.get("latest")
+        sweeps = [e.get("baseline")] + ([latest] if isinstance(latest, str) else
+                                        (latest if isinstance(latest, list) else []))
+        sweeps = [os.path.join(job.base_dir, x) for x in sweeps if isinstance(x, str) and x.strip()]
+        inputs += sweeps
+        inputs += [os.path.join(job.base_dir, e[k]) for k in ("line", "after_line")
+                   if isinstance(e.get(k), str) and e[k].strip()]
+        folder = os.path.join(out_dir, job.slug)
+        for sw in sweeps:
+            outputs += [(p, job.where) for p in workflow.output_paths(sw, folder).values()]
+            outputs += [(p, job.where) for p in compare_paths(sw, folder).values()]
+    if site.jobs and site.jobs[0].cables:
+        inputs.append(site.jobs[0].cables)
+    for out_path, who in outputs:
+        for inp in inputs:
+            if same_path(out_path, inp):
+                raise InputFileError(site.path, f"{who}: the output {out_path} would replace the input {inp}; "
+                                                "choose another `out` folder (or rename the input) so the input "
+                                                "is kept")
+    return inputs
 
 
 def _record_and_trend(store: str, site: Site, records: list, results: list, out_dir: str, limits) -> dict:

@@ -10,7 +10,7 @@ import os
 
 
 from ..physics import rf
-from .plots import finish, smith_frame, smith_grid, smith_trace, swr_scale
+from .plots import PLOT_BOUNDS, finish, shown, smith_frame, smith_grid, smith_trace, swr_scale
 from .text import compare_text
 from ..analysis.limits import FIELD_OF_JSON, LIMIT_NAMES
 from ..base.verdicts import TEXT as VERDICT_TEXT, WITHIN
@@ -37,7 +37,7 @@ def compare_plot(before, after, title: str = ""):
         traces = []
         for corr, colour, label in ((before, BEFORE_COLOUR, BEFORE_LABEL), (after, AFTER_COLOUR, AFTER_LABEL)):
             g = getattr(corr, attr)
-            s = rf.swr(g)
+            s = shown(rf.swr(g), PLOT_BOUNDS["swr"])
             ax_swr.plot(corr.freq_hz / 1e6, s, color=colour, lw=1.8, ls=ls, label=label)
             traces.append(s)
             smith_trace(ax_sm, g, colour, ls, label, lw=1.6, ms=4)

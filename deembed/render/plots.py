@@ -131,6 +131,20 @@ def finish(ax, ylabel: str, title: str) -> None:
               borderaxespad=0.0, handlelength=2.6)
 
 
+PLOT_BOUNDS = {"gamma": 3.0, "swr": 1e6, "db": 1e3, "ohm": 1e9}
+"""Values beyond these are left out of the plots (the trace breaks there) instead of being drawn: the
+Smith chart shows |Gamma| <= 1.08, the other axes far less than these, and coordinates near the float
+range (a sweep value of 1e200) make the rasterizer's clipping run for minutes."""
+
+
+def shown(values, bound: float):
+    """``values`` with every non-finite value or magnitude above ``bound`` made NaN (not drawn)."""
+    with np.errstate(invalid="ignore", over="ignore"):
+        v = np.array(values, dtype=complex if np.iscomplexobj(values) else float)
+        v[~(np.abs(v) <= bound)] = np.nan
+    return v
+
+
 def _mhz(freq_hz):
     return np.asarray(freq_hz) / 1e6
 
@@ -172,7 +186,7 @@ def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends", band=None, 
     shaded behind the feedpoint trace."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
-    s_sh, s_fp = rf.swr(corr.gamma_analyzer), rf.swr(corr.gamma_feedpoint)
+    s_sh, s_fp = (shown(rf.swr(g), PLOT_BOUNDS["swr"]) for g in (corr.gamma_analyzer, corr.gamma_feedpoint))
     if band is not None and band[0] is not None and band[1] is not None:
         lo = np.asarray(band[0], dtype=float)
         hi = np.minimum(np.asarray(band[1], dtype=float), 1e3)
@@ -208,9 +222,9 @@ def return_loss_plot(corr, ax=None):
     """Return loss (positive dB) at both ends."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
-    _trace(ax, f, rf.return_loss_db(corr.gamma_analyzer), color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"],
+    _trace(ax, f, shown(rf.return_loss_db(corr.gamma_analyzer), PLOT_BOUNDS["db"]), color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"],
            **_marks(f))
-    _trace(ax, f, rf.return_loss_db(corr.gamma_feedpoint), color=FEEDPOINT_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    _trace(ax, f, shown(rf.return_loss_db(corr.gamma_feedpoint), PLOT_BOUNDS["db"]), color=FEEDPOINT_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
     ax.invert_yaxis()
     finish(ax, "Return loss (dB, larger is better)", "Return loss at both ends")
@@ -221,7 +235,7 @@ def impedance_plot(corr, ax=None):
     """The feedpoint's resistance and reactance (50 ohm system)."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
-    z = rf.z_from_gamma(corr.gamma_feedpoint)
+    z = shown(rf.z_from_gamma(corr.gamma_feedpoint), PLOT_BOUNDS["ohm"])
     _trace(ax, f, z.real, color=FEEDPOINT_COLOUR, lw=2.0, label="R (resistance)", **_marks(f))
     _trace(ax, f, z.imag, color="#2f7d6d", lw=2.0, ls="-.", label="X (reactance)", **_marks(f))
     _xrange(ax, f)
@@ -255,6 +269,7 @@ def smith_grid(ax):
 def smith_trace(ax, gamma, colour, ls="-", label=None, lw=1.8, ms=5) -> None:
     """One reflection trace on a Smith chart, with a dot at the sweep's lowest frequency (thinned to what the
     axes' pixels can show, :func:`path_cells`)."""
+    gamma = shown(gamma, PLOT_BOUNDS["gamma"])  # far-off points are not drawn (never a stalled rasterizer)
     side = _width_px(ax)
     idx = path_cells(gamma.real, gamma.imag, (-1.08, 1.08, -1.08, 1.08), (side, side))
     ax.plot(gamma.real[idx], gamma.imag[idx], color=colour, lw=lw, ls=ls, label=label)

@@ -1,6 +1,7 @@
 """Plain-text renderings of results for the terminal."""
 from __future__ import annotations
 
+from ..base.textsafe import write_control
 from ..base.units import SWR_PRINT_MAX, fmt_freq, fmt_span, fmt_swr
 from .along import along_line_text
 from .intervals import fmt_freq_interval, fmt_number, fmt_shift_interval
@@ -244,7 +245,8 @@ def stderr_progress():
             return
         msg = f"site: {done}/{n} antennas done ({result['name']}: {VERDICT_TEXT[result['verdict']]})"
         if tty:
-            sys.stderr.write("\r" + msg.ljust(78) + ("\n" if done == n else ""))
+            write_control(sys.stderr, "\r")  # our own cursor control; the message itself is escaped
+            sys.stderr.write(msg.ljust(78) + ("\n" if done == n else ""))
         else:
             sys.stderr.write(msg + "\n")
         sys.stderr.flush()
