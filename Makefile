@@ -3,18 +3,25 @@ PYTHON ?= python3
 VENV   := .venv
 PY     := $(VENV)/bin/python
 STAMP  := $(VENV)/.installed
+RUNTIME := $(VENV)/.installed-runtime
 
-.PHONY: demo test bench samples clean
+.PHONY: demo test bench samples notebook clean
 
 $(VENV)/bin/python:
 	$(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install --quiet --upgrade pip
 
+# The demo needs only the runtime dependencies; the test extras (pytest, hypothesis, notebook kernel,
+# import-linter, PostgreSQL driver) are installed by `make test` alone.
+$(RUNTIME): pyproject.toml | $(VENV)/bin/python
+	$(PY) -m pip install --quiet -e .
+	touch $(RUNTIME)
+
 $(STAMP): pyproject.toml | $(VENV)/bin/python
 	$(PY) -m pip install --quiet -e '.[test,postgres]'
-	touch $(STAMP)
+	touch $(STAMP) $(RUNTIME)
 
-demo: $(STAMP)
+demo: $(RUNTIME)
 	$(VENV)/bin/deembed demo --out out/demo
 
 test: $(STAMP)
@@ -25,7 +32,10 @@ bench: $(STAMP)
 	$(PY) benchmarks/along.py
 	$(PY) benchmarks/uncertainty.py
 
-samples: $(STAMP)
+notebook: $(STAMP)
+	$(PY) notebooks/execute.py
+
+samples: $(RUNTIME)
 	$(PY) sample_sweeps/generate.py
 
 clean:

@@ -198,12 +198,12 @@ BAD_OPTIONS = [
     (["--length", "30m"], ["--vf", "velocity factor is needed"]),
     (["--delay", "-5ns"], ["--delay", "zero or positive"]),
     (["--length", "30m", "--delay", "10ns"], ["--delay", "velocity factor"]),
-    (["--length", "30m", "--vf", "0.66", "--z0", "0"], ["--z0", "positive"]),
-    (["--length", "30m", "--vf", "0.66", "--z0", "-50"], ["--z0", "positive"]),
-    (["--length", "30m", "--vf", "0.66", "--loss", "lots"], ["--loss", "1.25dB@14MHz"]),
+    (["--length", "30m", "--vf", "0.66", "--z0", "0ohm"], ["--z0", "positive"]),
+    (["--length", "30m", "--vf", "0.66", "--z0", "-50ohm"], ["--z0", "positive"]),
+    (["--length", "30m", "--vf", "0.66", "--loss", "lots"], ["--loss", "0.8dB@21MHz"]),
     (["--length", "30m", "--vf", "0.66", "--loss", "1.2dB@14"], ["--loss", "no unit"]),
-    (["--length", "30m", "--vf", "0.66", "--loss", "-1dB@14MHz"], ["--loss", "zero or more"]),
-    (["--length", "30m", "--vf", "0.66", "--loss", "xdB@14MHz"], ["--loss", "as dB"]),
+    (["--length", "30m", "--vf", "0.66", "--loss", "-1dB@14MHz"], ["--loss", "0 dB or more"]),
+    (["--length", "30m", "--vf", "0.66", "--loss", "xdB@14MHz"], ["--loss", "cannot read"]),
     (["--length", "30m", "--vf", "0.66", "--loss", "1dB@0MHz"], ["--loss", "positive"]),
     (["--cable", "rg999", "--length", "30m"], ["--cable", "unknown cable"]),
     (["--cable", "rg213"], ["--length"]),
@@ -226,25 +226,26 @@ def test_option_out_of_range_is_refused(capsys, tmp_path, good_sweep, opts, need
 
 
 @pytest.mark.parametrize("args, needles", [
-    (["--loss", "-1", "--antenna-swr", "2"], ["--loss", "0 or more"]),
+    (["--loss", "-1dB", "--antenna-swr", "2"], ["--loss", "0 dB or more"]),
     (["--loss", "nan", "--antenna-swr", "2"], ["--loss"]),
     (["--loss", "inf", "--antenna-swr", "2"], ["--loss"]),
-    (["--loss", "lots", "--antenna-swr", "2"], ["'--loss'", "budget -h"]),
-    (["--loss", "1", "--antenna-swr", "0.5"], ["--antenna-swr", "1 or more"]),
-    (["--loss", "1", "--antenna-swr", "nan"], ["--antenna-swr"]),
-    (["--loss", "1"], ["--antenna-swr", "exactly one"]),
-    (["--loss", "1", "--antenna-swr", "2", "--measured-swr", "1.5"], ["exactly one"]),
-    (["--loss", "3", "--measured-swr", "6"], ["--measured-swr"]),
-    (["--loss", "1", "--measured-swr", "inf"], ["--measured-swr"]),
+    (["--loss", "lots", "--antenna-swr", "2"], ["--loss", "cannot read 'lots'"]),
+    (["--loss", "1", "--antenna-swr", "2"], ["--loss", "has no unit; write it with its unit, e.g. 1.8dB"]),
+    (["--loss", "1dB", "--antenna-swr", "0.5"], ["--antenna-swr", "1 or more"]),
+    (["--loss", "1dB", "--antenna-swr", "nan"], ["--antenna-swr"]),
+    (["--loss", "1dB"], ["--antenna-swr", "exactly one"]),
+    (["--loss", "1dB", "--antenna-swr", "2", "--measured-swr", "1.5"], ["exactly one"]),
+    (["--loss", "3dB", "--measured-swr", "6"], ["--measured-swr"]),
+    (["--loss", "1dB", "--measured-swr", "inf"], ["--measured-swr"]),
 ])
 def test_budget_out_of_range(capsys, args, needles):
     code, _, err = run(capsys, "budget", "--power", "100W", *args)
     assert_refused(code, err, needles)
 
 
-@pytest.mark.parametrize("power", ["0W", "-100W", "lots", "100 parsec"])
+@pytest.mark.parametrize("power", ["0W", "-100W", "lots", "100 parsec", "100"])
 def test_budget_bad_power(capsys, power):
-    code, _, err = run(capsys, "budget", "--power", power, "--loss", "1", "--antenna-swr", "2")
+    code, _, err = run(capsys, "budget", "--power", power, "--loss", "1dB", "--antenna-swr", "2")
     assert_refused(code, err, ["--power"])
 
 
@@ -254,7 +255,7 @@ def test_budget_bad_power(capsys, power):
     (["correct", "x.s1p", "--port", "two"], ["'--port'"]),
     (["correct", "x.s1p", "--length"], ["'--length'", "requires an argument"]),
     (["nosuchcommand"], ["nosuchcommand"]),
-    (["budget", "--power", "100W", "--loss", "1", "--antenna-swr", "two"], ["'--antenna-swr'"]),
+    (["budget", "--power", "100W", "--loss", "1dB", "--antenna-swr", "two"], ["--antenna-swr", "2.5:1"]),
 ])
 def test_usage_errors_are_one_line(capsys, tmp_path, args, needles):
     # our decision: the option parser's usage block is shortened to one line pointing at -h
@@ -269,7 +270,7 @@ BAD_LINE_FILES = [
     ("toml syntax", '[[section]]\nlength = "30m\nvf = 0.66\n', ["not valid TOML"], 2),
     ("unknown key", '[[section]]\nlength = "30m"\nvf = 0.66\ncolour = "red"\n', ["unknown key(s) colour"], None),
     ("missing length", '[[section]]\nvf = 0.66\n', ["section 1 'length'", "length is needed"], None),
-    ("bad loss", '[[section]]\nlength = "30m"\nvf = 0.66\nloss = "lots"\n', ["section 1 'loss'", "1.25dB@14MHz"],
+    ("bad loss", '[[section]]\nlength = "30m"\nvf = 0.66\nloss = "lots"\n', ["section 1 'loss'", "0.8dB@21MHz"],
      None),
     ("loss as a bare number", '[[section]]\nlength = "30m"\nvf = 0.66\nloss = 5\n', ["'loss'", "quoted string"],
      None),
@@ -277,7 +278,9 @@ BAD_LINE_FILES = [
     ("length without unit", '[[section]]\nlength = 30\nvf = 0.66\n', ["'length'", "no unit"], None),
     ("vf above 1", '[[section]]\nlength = "30m"\nvf = 1.2\n', ["'vf'", "at most 1"], None),
     ("vf true", '[[section]]\nlength = "30m"\nvf = true\n', ["'vf'", "not a number"], None),
-    ("negative z0", '[[section]]\nlength = "30m"\nvf = 0.66\nz0 = -50\n', ["'z0'", "positive"], None),
+    ("negative z0", '[[section]]\nlength = "30m"\nvf = 0.66\nz0 = "-50ohm"\n', ["'z0'", "positive"], None),
+    ("bare z0", '[[section]]\nlength = "30m"\nvf = 0.66\nz0 = 50\n', ["'z0'", "has no unit; write it with its unit"],
+     None),
     ("negative length", '[[section]]\nlength = "-3m"\nvf = 0.66\n', ["'length'", "positive"], None),
     ("cable as a number", '[[section]]\ncable = 213\nlength = "30m"\n', ["'cable'", "quoted string"], None),
     ("unknown cable", '[[section]]\ncable = "rg999"\nlength = "30m"\n', ["unknown cable"], None),
@@ -338,16 +341,16 @@ BAD_CATALOGS = [
 def test_bad_cable_catalog(capsys, tmp_path, good_sweep, name, text, needles, line):
     cat = tmp_path / "my-cables.toml"
     cat.write_text(text)
-    code, out, err = run(capsys, "cables", "--cables", cat)
+    code, out, err = run(capsys, "cables", "--catalog", cat)
     assert_refused(code, err, [str(cat), *needles], before=snapshot(cat), line=line)
     assert out == ""  # no half table printed before the error
-    code, _, err = run(capsys, "correct", good_sweep, *LINE_OPTS, "--cables", cat, "--out", tmp_path / "o")
+    code, _, err = run(capsys, "correct", good_sweep, *LINE_OPTS, "--catalog", cat, "--out", tmp_path / "o")
     assert_refused(code, err, [str(cat), *needles], tmp_path / "o", snapshot(cat, good_sweep), line)
 
 
 def test_catalog_missing_or_folder(capsys, tmp_path):
     for path, needle in ((tmp_path / "none.toml", "no such file"), (tmp_path, "folder")):
-        code, _, err = run(capsys, "cables", "--cables", path)
+        code, _, err = run(capsys, "cables", "--catalog", path)
         assert_refused(code, err, [str(path), needle])
 
 
@@ -566,10 +569,9 @@ def _standards(tmp_path, f, sub="std"):
 @pytest.fixture
 def characterized(tmp_path, capsys):
     std = _standards(tmp_path, F_HZ)
-    run_file = tmp_path / "run.s2p"
-    code, _, err = run(capsys, "characterize", "--open", std["open"], "--short", std["short"], "--out", run_file)
+    code, _, err = run(capsys, "characterize", "--open", std["open"], "--short", std["short"], "--out", tmp_path / "run")
     assert code == 0, err
-    return run_file
+    return tmp_path / "run" / "far.line.s2p"  # the stated name: the first sweep's name without "-open"
 
 
 def test_characterization_not_covering_the_sweep(capsys, tmp_path, characterized):
@@ -588,7 +590,7 @@ def test_characterization_not_covering_the_sweep(capsys, tmp_path, characterized
                                   "out not s2p", "out is an input", "bad length", "bad z0", "open-c without open"])
 def test_characterize_bad_standards(capsys, tmp_path, case):
     std = _standards(tmp_path, F_HZ)
-    out = tmp_path / "res" / "run.s2p"
+    out = tmp_path / "res" / "run"
     out.parent.mkdir()
     args = ["--open", std["open"], "--short", std["short"], "--out", out]
     needles, line = [], None
@@ -613,19 +615,19 @@ def test_characterize_bad_standards(capsys, tmp_path, case):
         text[5] = text[5].split()[0] + " nan 0"
         std["short"].write_text("\n".join(text) + "\n")
         needles, line = [std["short"], "NaN"], 6
-    elif case == "out not s2p":
-        args[-1] = tmp_path / "res" / "run.txt"
-        needles = ["--out", ".s2p"]
-    elif case == "out is an input":
-        link = tmp_path / "res" / "link.s2p"
+    elif case == "out not s2p":  # --out is a folder: a file name ending .s2p is refused with the hint
+        args[-1] = tmp_path / "res" / "run.s2p"
+        needles = ["--out", "is a folder"]
+    elif case == "out is an input":  # the stated output name inside --out is a link to an input
+        (tmp_path / "res" / "run").mkdir()
+        link = tmp_path / "res" / "run" / "far.line.s2p"
         link.symlink_to(std["open"])
-        args[-1] = link
         needles = ["--out", "input"]
     elif case == "bad length":
         args += ["--length", "-30m"]
         needles = ["--length"]
     elif case == "bad z0":
-        args += ["--z0", "0"]
+        args += ["--z0", "0ohm"]
         needles = ["--z0"]
     elif case == "open-c without open":
         args = ["--short", std["short"], "--open-c", "12fF", "--out", out]
@@ -634,7 +636,8 @@ def test_characterize_bad_standards(capsys, tmp_path, case):
     before = snapshot(*inputs)
     code, _, err = run(capsys, "characterize", *args)
     msg = assert_refused(code, err, needles, before=before, line=line)
-    assert sorted(p.name for p in out.parent.iterdir() if not p.is_symlink()) == [], msg
+    written = [p for p in out.parent.rglob("*") if p.is_file() and not p.is_symlink()]
+    assert written == [], msg
 
 
 # ----------------------------------------------------------------------------------------------

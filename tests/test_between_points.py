@@ -235,7 +235,7 @@ def test_characterize_says_the_grid_is_too_coarse(tmp_path, capsys):
         paths[k] = tmp_path / f"far-{k}.s1p"
         write_touchstone(paths[k], grid, terminated(run, term))
     rc = main(["characterize", "--open", str(paths["open"]), "--short", str(paths["short"]), "--load",
-               str(paths["load"]), "--out", str(tmp_path / "c41.s2p")])
+               str(paths["load"]), "--out", str(tmp_path / "c41")])
     assert rc == 0
     assert "TOO COARSE" in capsys.readouterr().out
 

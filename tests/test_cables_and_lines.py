@@ -60,7 +60,7 @@ def test_line_toml_with_sections_cables_and_loss(tmp_path):
     p.write_text(
         'name = "test feed"\n'
         '[[section]]\ncable = "rg58"\nlength = "2m"\n'
-        '[[section]]\nz0 = 75\nvf = 0.82\nlength = "40ft"\nloss = ["0.5dB@10MHz"]\n'
+        '[[section]]\nz0 = "75ohm"\nvf = 0.82\nlength = "40ft"\nloss = ["0.5dB@10MHz"]\n'
         '[[section]]\ncable = "mine"\nlength = "10m"\n'
         '[cables.mine]\nname = "my coax"\nz0 = 50\nvf = 0.8\nk1 = 0.2\nk2 = 0.001\nsource = "test"\n')
     line, notes = read_line_file(str(p))
@@ -73,7 +73,7 @@ def test_line_toml_with_sections_cables_and_loss(tmp_path):
 @pytest.mark.parametrize("body, needle", [
     ('[[section]]\ncable = "rg58"\n', "length"),
     ('[[section]]\ncable = "rg58"\nlength = "2m"\ncolour = "red"\n', "unknown key"),
-    ('[[section]]\nz0 = 50\nvf = 1.3\nlength = "2m"\n', "velocity factor"),
+    ('[[section]]\nz0 = "50ohm"\nvf = 1.3\nlength = "2m"\n', "velocity factor"),
     ('[[section]]\nz0 = 50\nvf = 0.66\nlength = "2"\n', "no unit"),
     ('name = "nothing"\n', "[[section]]"),
     ('[[section]\n', "TOML"),

@@ -433,9 +433,9 @@ def test_cli_characterize_json_and_file(tmp_path, capsys):
 
     run = skrf_line(F, 50, 0.66, 30.0, 0.1755, 0.00245)
     p = _write_standards(tmp_path, F, run)
-    out = tmp_path / "LINE.s2p"
     rc = main(["characterize", "--open", p["open"], "--short", p["short"], "--load", p["load"], "--length", "30m",
-               "--cable", "rg213", "--at", "14MHz,28MHz", "--out", str(out), "--json"])
+               "--cable", "rg213", "--at", "14MHz", "--at", "28MHz", "--out", str(tmp_path / "LINE"), "--json"])
+    out = tmp_path / "LINE" / "line.s2p"  # the stated name: the first sweep's ("open.s1p") without "open"
     assert rc == 0
     rep = json.loads(capsys.readouterr().out)
     assert rep["method"] == "open-short-load"
@@ -443,7 +443,7 @@ def test_cli_characterize_json_and_file(tmp_path, capsys):
     assert [r["freq_hz"] for r in rep["loss"]] == [14e6, 28e6]
     assert rep["catalog"]["flagged"] is False
     np.testing.assert_allclose(line_from_characterization(out).s_params(F), run.s, rtol=0, atol=1e-9)
-    rc = main(["characterize", "--open", p["open"], "--short", p["short"], "--out", str(tmp_path / "B.s2p")])
+    rc = main(["characterize", "--open", p["open"], "--short", p["short"], "--out", str(tmp_path / "B")])
     assert rc == 0
     text = capsys.readouterr().out
     assert "open and short" in text and "velocity factor" not in text
@@ -459,12 +459,12 @@ def test_cli_refuses_bad_input(tmp_path, capsys):
     assert "--out" in capsys.readouterr().err
     other = tmp_path / "short2.s1p"
     write_touchstone(other, F[:-1], np.zeros(F.size - 1))
-    assert main(["characterize", "--open", p["open"], "--short", str(other), "--out", str(tmp_path / "x.s2p")]) == 2
+    assert main(["characterize", "--open", p["open"], "--short", str(other), "--out", str(tmp_path / "x")]) == 2
     err = capsys.readouterr().err
     assert "short2.s1p" in err and "open.s1p" in err  # names both files
-    assert main(["characterize", "--short", p["short"], "--load-r", "51", "--out", str(tmp_path / "y.s2p")]) == 2
+    assert main(["characterize", "--short", p["short"], "--load-r", "51ohm", "--out", str(tmp_path / "y")]) == 2
     assert "--load" in capsys.readouterr().err
-    assert not (tmp_path / "x.s2p").exists() and not (tmp_path / "y.s2p").exists()
+    assert not (tmp_path / "x").exists() and not (tmp_path / "y").exists()
 
 
 def test_errors_are_deembed_errors():

@@ -87,7 +87,7 @@ def test_correct_json_on_stdout(capsys, tmp_path, analyzer_sweep):
 
 def test_budget_json_matches_handbook_example(capsys):
     # check-values E6 [D] from F8-F10: 100 W, 1 dB matched loss, SWR 3 at the antenna
-    code, text, _ = run(capsys, "budget", "--power", "100W", "--loss", "1", "--antenna-swr", "3", "--json")
+    code, text, _ = run(capsys, "budget", "--power", "100W", "--loss", "1dB", "--antenna-swr", "3", "--json")
     assert code == 0
     b = json.loads(text)
     assert b["at_antenna"]["delivered_w"] == pytest.approx(59.575, abs=1e-3)
@@ -99,7 +99,7 @@ def test_budget_json_matches_handbook_example(capsys):
 
 def test_budget_trade_figure_from_measured_swr(capsys):
     # common practice, no source: 1.67:1 read behind 1.25 dB is an antenna near 2:1
-    code, text, _ = run(capsys, "budget", "--power", "100", "--loss", "1.25", "--measured-swr", "1.6667", "--json")
+    code, text, _ = run(capsys, "budget", "--power", "100W", "--loss", "1.25dB", "--measured-swr", "1.6667", "--json")
     assert code == 0
     assert json.loads(text)["at_antenna"]["swr"] == pytest.approx(2.0, abs=0.01)
 
@@ -109,11 +109,11 @@ def test_budget_trade_figure_from_measured_swr(capsys):
     (["correct", "{sweep}", "--length", "30m", "--vf", "1.5"], "--vf"),
     (["correct", "{sweep}", "--length", "-3m", "--vf", "0.66"], "--length"),
     (["correct", "{sweep}", "--length", "30", "--vf", "0.66"], "no unit"),
-    (["correct", "{sweep}", "--length", "30m", "--vf", "0.66", "--z0", "0"], "--z0"),
+    (["correct", "{sweep}", "--length", "30m", "--vf", "0.66", "--z0", "0ohm"], "--z0"),
     (["correct", "{sweep}", "--length", "30m", "--vf", "0.66", "--loss", "lots"], "--loss"),
     (["correct", "{sweep}", "--cable", "rg999", "--length", "30m"], "unknown cable"),
     (["correct", "{sweep}"], "--line"),
-    (["budget", "--power", "100W", "--loss", "3", "--measured-swr", "6"], "--measured-swr"),
+    (["budget", "--power", "100W", "--loss", "3dB", "--measured-swr", "6"], "--measured-swr"),
 ])
 def test_bad_input_is_one_line_and_exit_2(capsys, tmp_path, analyzer_sweep, args, needle):
     path, _, _ = analyzer_sweep

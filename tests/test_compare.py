@@ -83,7 +83,7 @@ def test_detuned_antenna_gives_known_shift_library_and_cli(tmp_path, capsys):
     assert rc == 1 and "--max-shift" in out and "outside limits" in out
     # A looser limit passes: the exit status follows the limit given (shift 400 kHz < 500 kHz).
     rc, out, _ = run_cli(["compare", base, after, *ARGS_LINE, "--max-shift", "500kHz", "--max-gamma-change", "0.5",
-                          "--max-swr-rise", "5", "--max-bw-loss", "100"], capsys)
+                          "--max-swr-rise", "5", "--max-bw-loss", "100%"], capsys)
     assert rc == 0, out
 
 

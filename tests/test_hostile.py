@@ -314,7 +314,7 @@ def test_out_below_a_file(tmp_path, capsys):
 def test_characterize_out_below_a_file_names_no_temporary_file(tmp_path, capsys):
     (tmp_path / "afile").write_text("x")
     code, _, err = run(capsys, "characterize", "--open", SAMPLES / "dipole-40m-far-open.s1p",
-                       "--short", SAMPLES / "dipole-40m-far-short.s1p", "--out", tmp_path / "afile" / "run.s2p")
+                       "--short", SAMPLES / "dipole-40m-far-short.s1p", "--out", tmp_path / "afile" / "run")
     assert code == 3
     line = one_error_line(err, "afile")
     assert ".run.s2p." not in line and "deembed-stage" not in line
@@ -322,9 +322,9 @@ def test_characterize_out_below_a_file_names_no_temporary_file(tmp_path, capsys)
 
 def test_characterize_out_in_a_missing_folder_creates_it(tmp_path, capsys):
     code, _, err = run(capsys, "characterize", "--open", SAMPLES / "dipole-40m-far-open.s1p",
-                       "--short", SAMPLES / "dipole-40m-far-short.s1p", "--out", tmp_path / "missing" / "run.s2p")
+                       "--short", SAMPLES / "dipole-40m-far-short.s1p", "--out", tmp_path / "missing" / "run")
     assert code == 0, err
-    assert sorted(os.listdir(tmp_path / "missing")) == ["run.s2p"]
+    assert sorted(os.listdir(tmp_path / "missing" / "run")) == ["dipole-40m-far.line.s2p"]
 
 
 @pytest.fixture
@@ -502,7 +502,7 @@ def test_hostile_toml_is_refused_in_every_kind_of_file(tmp_path, capsys, case, k
     sweep = write_sweep(tmp_path / "s.s1p")
     out = tmp_path / "o"
     args = {"line": ["correct", sweep, "--line", bad, "--out", out],
-            "cables": ["correct", sweep, *LINE, "--cables", bad, "--out", out],
+            "cables": ["correct", sweep, *LINE, "--catalog", bad, "--out", out],
             "bands": ["correct", sweep, *LINE, "--bands-file", bad, "--out", out],
             "site": ["site", "--no-record", bad, "--out", out]}[kind]
     code, _, err = run(capsys, *args)
@@ -665,7 +665,7 @@ def test_two_runs_racing_into_one_out_never_mix_their_outputs(tmp_path):
 
 def test_characterize_same_file_twice(tmp_path, capsys):
     f = SAMPLES / "dipole-40m-far-open.s1p"
-    code, _, err = run(capsys, "characterize", "--open", f, "--short", f, "--out", tmp_path / "x.s2p")
+    code, _, err = run(capsys, "characterize", "--open", f, "--short", f, "--out", tmp_path / "x")
     assert code == 2
     one_error_line(err, "--short", "also given as --open")
 
@@ -674,7 +674,7 @@ def test_characterize_identical_standards_in_two_files(tmp_path, capsys):
     copy = tmp_path / "copy.s1p"
     copy.write_bytes((SAMPLES / "dipole-40m-far-open.s1p").read_bytes())
     code, _, err = run(capsys, "characterize", "--open", SAMPLES / "dipole-40m-far-open.s1p", "--short", copy,
-                       "--out", tmp_path / "x.s2p")
+                       "--out", tmp_path / "x")
     assert code == 2
     one_error_line(err, "cannot be told apart")
 
@@ -682,7 +682,7 @@ def test_characterize_identical_standards_in_two_files(tmp_path, capsys):
 @pytest.mark.parametrize("option, value", [("--open-c", "1e300F"), ("--short-l", "1e300H")])
 def test_characterize_absurd_standard_offsets(tmp_path, capsys, option, value):
     code, _, err = run(capsys, "characterize", "--open", SAMPLES / "dipole-40m-far-open.s1p",
-                       "--short", SAMPLES / "dipole-40m-far-short.s1p", option, value, "--out", tmp_path / "x.s2p")
+                       "--short", SAMPLES / "dipole-40m-far-short.s1p", option, value, "--out", tmp_path / "x")
     assert code == 2
     one_error_line(err, option)
 
@@ -789,11 +789,11 @@ def test_sweep_in_an_unsearchable_folder(tmp_path, capsys, monkeypatch):
 
 def test_bad_site_wide_catalog_fails_the_site_file(tmp_path, capsys):
     write_sweep(tmp_path / "a.s1p")
-    (tmp_path / "site.toml").write_text('cables = "missing.toml"\n[[antenna]]\nname = "x"\ncable = "rg213"\n'
+    (tmp_path / "site.toml").write_text('catalog = "missing.toml"\n[[antenna]]\nname = "x"\ncable = "rg213"\n'
                                         'length = "30m"\nbaseline = "a.s1p"\nlatest = "a.s1p"\n')
     code, _, err = run(capsys, "site", "--no-record", tmp_path / "site.toml", "--out", tmp_path / "o")
     assert code == 2
-    one_error_line(err, "site.toml", "cables", "missing.toml")
+    one_error_line(err, "site.toml", "catalog", "missing.toml")
     assert not (tmp_path / "o").exists()
 
 

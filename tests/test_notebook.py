@@ -24,11 +24,15 @@ def _kernel_manager():
     return km
 
 
-def test_notebook_is_stored_without_outputs():
+def test_notebook_is_stored_with_its_outputs():
+    # stored executed (`make notebook`), so that it reads on a code host; the test below runs it again
     nb = nbformat.read(NOTEBOOK, as_version=4)
     code = [c for c in nb.cells if c.cell_type == "code"]
     assert code, "the notebook has no code"
-    assert all(not c.get("outputs") and c.get("execution_count") is None for c in code)
+    assert [c.get("execution_count") for c in code] == list(range(1, len(code) + 1)), "run top to bottom once"
+    outputs = [o for c in code for o in c.get("outputs", [])]
+    assert not [o for o in outputs if o.get("output_type") == "error"]
+    assert len([o for o in outputs if "image/png" in o.get("data", {})]) == 2
 
 
 @pytest.mark.parametrize("cwd", ["repo root", "notebooks"])

@@ -211,10 +211,10 @@ def test_same_sweep_same_findings_in_correct_and_compare(capsys, tmp_path):
 
 def test_characterized_line_uncertainty_comes_from_its_fit(capsys, tmp_path):
     s = SAMPLES
-    run2 = tmp_path / "run.s2p"
+    run2 = tmp_path / "run" / "dipole-40m-far.line.s2p"  # characterize --out is a folder; this is the stated name
     code, _, err = run(capsys, "characterize", "--open", os.path.join(s, "dipole-40m-far-open.s1p"),
                        "--short", os.path.join(s, "dipole-40m-far-short.s1p"),
-                       "--load", os.path.join(s, "dipole-40m-far-load.s1p"), "--out", run2)
+                       "--load", os.path.join(s, "dipole-40m-far-load.s1p"), "--out", tmp_path / "run")
     assert code == 0, err
     code, out, err = run(capsys, "correct", os.path.join(s, "dipole-40m.s1p"), "--line", run2, "--out",
                          tmp_path / "o", "--no-plots", "--json", "--draws", "300")

@@ -5,7 +5,7 @@ import math
 from dataclasses import asdict, dataclass
 
 from ..base.errors import OptionError
-from ..base.units import parse_frequency
+from ..base.units import parse_db, parse_frequency, parse_percent
 
 
 LIMIT_NAMES = {k: k for k in ("max_shift", "max_swr_rise", "max_gamma_change", "max_bw_loss", "max_loss_change")}
@@ -92,17 +92,32 @@ def parse_limits(values: dict, *, base: Limits | None = None, names: dict | None
         if v is None:
             continue
         opt = names[key]
+        if isinstance(v, bool):
+            raise OptionError(opt, f"{v!r} is not a limit; write it like {LIMIT_EXAMPLES[key]}")
         if key == "max_shift":
-            if isinstance(v, (int, float)) and not isinstance(v, bool):
-                raise OptionError(opt, f"{v!r} has no unit; write it like 50kHz")
-            out["max_shift_hz"] = parse_frequency(str(v), opt) if str(v).strip() not in ("0", "0Hz") else 0.0
+            out["max_shift_hz"] = parse_shift(str(v), opt)
         elif key == "max_bw_loss":
-            out["max_bw_loss_percent"] = _number(v, opt, "%")
+            out["max_bw_loss_percent"] = parse_percent(str(v), opt, "bandwidth loss", LIMIT_EXAMPLES[key])
         elif key == "max_loss_change":
-            out["max_loss_change_db"] = _number(v, opt, "db")
+            out["max_loss_change_db"] = parse_db(str(v), opt, "loss change", LIMIT_EXAMPLES[key])
         else:
             out[key] = _number(v, opt, "")  # max_swr_rise, max_gamma_change: same name in Limits
     return Limits(**out)
+
+
+LIMIT_EXAMPLES = {"max_shift": "50kHz", "max_swr_rise": "0.2", "max_gamma_change": "0.1", "max_bw_loss": "25%",
+                  "max_loss_change": "0.5dB"}
+"""An example of each limit's value, as written on the command line and in a site file."""
+
+
+def parse_shift(text: str, option: str) -> float:
+    """A frequency shift limit: '50kHz', '0Hz' (zero allowed; the unit is required). -> Hz."""
+    from ..base.units import _FREQ, _scaled
+
+    hz = _scaled(text, option, "frequency shift", LIMIT_EXAMPLES["max_shift"], _FREQ)
+    if hz < 0:
+        raise OptionError(option, f"{text!r}: a shift limit must be 0 or more")
+    return hz
 
 
 def _number(v, option: str, unit: str) -> float:

@@ -34,11 +34,17 @@ def _split(text, option: str, what: str, example: str):
     return value, m.group(2).lower()
 
 
+def no_unit(text, option: str, example: str) -> OptionError:
+    """The one error every quantity gives for a bare number: the same words everywhere, with an example that fits
+    the quantity."""
+    return OptionError(option, f"{text!r} has no unit; write it with its unit, e.g. {example}")
+
+
 def _scaled(text, option, what, example, table, default_unit=None):
     value, unit = _split(text, option, what, example)
     if unit == "":
         if default_unit is None:
-            raise OptionError(option, f"{text!r} has no unit; write it like {example}")
+            raise no_unit(text, option, example)
         unit = default_unit
     if unit not in table:
         units = ", ".join(sorted({k for k in table if k.isalpha()}))
@@ -49,9 +55,9 @@ def _scaled(text, option, what, example, table, default_unit=None):
     return scaled
 
 
-def parse_frequency(text, option: str = "frequency") -> float:
-    """'14.2MHz', '7100 kHz', '1.3e9Hz' -> Hz. A unit is required; the result must be positive."""
-    hz = _scaled(text, option, "frequency", "14.2MHz", _FREQ)
+def parse_frequency(text, option: str = "frequency", example: str = "7.1MHz") -> float:
+    """'7.1MHz', '7100 kHz', '1.3e9Hz' -> Hz. A unit is required; the result must be positive."""
+    hz = _scaled(text, option, "frequency", example, _FREQ)
     if hz <= 0:
         raise OptionError(option, f"{text!r}: a frequency must be positive")
     return hz
@@ -73,37 +79,70 @@ def parse_length(text, option: str = "length", allow_zero: bool = True) -> float
 
 
 def parse_delay(text, option: str = "delay") -> float:
-    """One-way delay: '152ns', '0.152us'; a bare number is taken as nanoseconds. -> seconds."""
-    s = _scaled(text, option, "delay", "152ns", _TIME, default_unit="ns")
+    """One-way delay: '152ns', '0.152us' (a unit is required). -> seconds."""
+    s = _scaled(text, option, "delay", "152ns", _TIME)
     if s < 0:
         raise OptionError(option, f"{text!r}: a delay must be zero or positive")
     return s
 
 
 def parse_power(text, option: str = "power") -> float:
-    """'100W', '1.5kW', '500mW'; a bare number is taken as watts. -> watts (positive)."""
-    w = _scaled(text, option, "power", "100W", _POWER, default_unit="w")
+    """'100W', '1.5kW', '500mW' (a unit is required). -> watts (positive)."""
+    w = _scaled(text, option, "power", "100W", _POWER)
     if w <= 0:
         raise OptionError(option, f"{text!r}: a power must be positive")
     return w
 
 
+LOSS_POINT_EXAMPLE = "0.8dB@21MHz"
+
+
+def parse_db(text, option: str, what: str = "level", example: str = "1.2dB", allow_negative: bool = False) -> float:
+    """'1.2dB' -> 1.2. The unit dB is required (a bare number is refused like every quantity's)."""
+    value, unit = _split(text, option, what, example)
+    if unit == "":
+        raise no_unit(text, option, example)
+    if unit != "db":
+        raise OptionError(option, f"unknown unit {unit!r} in {text!r}; a {what} is in dB (e.g. {example})")
+    if value < 0 and not allow_negative:
+        raise OptionError(option, f"{text!r}: a {what} must be 0 dB or more")
+    return value
+
+
+def parse_percent(text, option: str, what: str = "share", example: str = "25%") -> float:
+    """'25%' -> 25.0 (per cent, 0 or more). The % sign is required."""
+    value, unit = _split(text, option, what, example)
+    if unit == "":
+        raise no_unit(text, option, example)
+    if unit != "%":
+        raise OptionError(option, f"unknown unit {unit!r} in {text!r}; a {what} is in per cent (e.g. {example})")
+    if value < 0:
+        raise OptionError(option, f"{text!r}: a {what} must be 0 % or more")
+    return value
+
+
 def parse_loss_point(text, option: str = "loss") -> tuple[float, float]:
-    """'1.25dB@14MHz' -> (1.25, 14e6): a one-way matched loss in dB at a frequency."""
+    """'0.8dB@21MHz' -> (0.8, 21e6): a one-way matched loss in dB at a frequency."""
     s = str(text).strip()
     parts = s.split("@")
     if len(parts) != 2:
-        raise OptionError(option, f"cannot read {s!r}; write the loss and its frequency like 1.25dB@14MHz")
-    db_text = parts[0].strip()
-    if db_text.lower().endswith("db"):
-        db_text = db_text[:-2]
+        raise OptionError(option, f"cannot read {s!r}; write the loss and its frequency like {LOSS_POINT_EXAMPLE}")
+    db = parse_db(parts[0].strip(), option, "matched loss", LOSS_POINT_EXAMPLE)
+    return db, parse_frequency(parts[1], option, "21MHz")
+
+
+def parse_swr(text, option: str) -> float:
+    """An SWR: '2.5' or '2.5:1' (a ratio, no unit). Must be 1 or more."""
+    t = str(text).strip()
+    if t.endswith(":1"):
+        t = t[:-2].strip()
     try:
-        db = float(db_text)
+        v = float(t)
     except ValueError:
-        raise OptionError(option, f"cannot read {parts[0]!r} as dB; write it like 1.25dB@14MHz") from None
-    if not math.isfinite(db) or db < 0:
-        raise OptionError(option, f"{s!r}: a matched loss must be a finite number of dB, zero or more")
-    return db, parse_frequency(parts[1], option)
+        raise OptionError(option, f"cannot read {text!r} as an SWR; write it like 2.5 or 2.5:1") from None
+    if not (v >= 1):
+        raise OptionError(option, f"{text!r}: an SWR is 1 or more")
+    return v
 
 
 def parse_positive(text, option: str, what: str = "value", upper: float | None = None,
@@ -196,8 +235,8 @@ def parse_inductance(text, option: str = "short_l") -> float:
 
 
 def parse_resistance(text, option: str = "load_r") -> float:
-    """'50.2', '50.2ohm' -> ohms (a bare number is ohms). Must be positive."""
-    r = _scaled(text, option, "resistance", "50.2ohm", _RESISTANCE, default_unit="ohm")
+    """'50.2ohm' -> ohms (a unit is required: ohm, ohms or Ω). Must be positive."""
+    r = _scaled(text, option, "resistance", "50.2ohm", _RESISTANCE)
     if r <= 0:
         raise OptionError(option, f"{text!r}: a resistance must be positive")
     return r

@@ -50,6 +50,73 @@ app.command("site")(site_command)
 app.command("locate")(locate_command)
 app.command("trend")(trend_command)
 
+METAVARS = {
+    "--out": "DIR", "--line": "FILE", "--after-line": "FILE", "--bands-file": "FILE", "--open": "FILE",
+    "--short": "FILE", "--load": "FILE", "--catalog": "FILE", "--record": "STORE", "--target": "FREQ",
+    "--max-shift": "FREQ", "--max-drift": "FREQ", "--at": "FREQ", "--resolve": "LENGTH", "--length": "LENGTH",
+    "--power": "POWER", "--date": "YYYY-MM-DD", "--baseline-date": "YYYY-MM-DD", "--name": "NAME",
+    "--antenna": "NAME", "--tol": "NAME=VALUE", "--draws": "N", "--seed": "N", "--workers": "N", "--pad": "N",
+    "--kaiser-beta": "BETA", "--threshold": "LEVEL", "--floor": "LEVEL", "--keep": "FROM:TO", "--remove": "FROM:TO",
+    "--unit": "m|ft", "--cal-uncertainty": "PRESET", "--max-swr-rise": "SWR", "--max-gamma-change": "GAMMA",
+    "--max-bw-loss": "PERCENT", "--max-loss-change": "LOSS", "--max-loss-rise": "LOSS", "--loss": "LOSS",
+    "--antenna-swr": "SWR", "--measured-swr": "SWR", "--swr-limits": "SWR", "--open-c": "CAPACITANCE",
+    "--short-l": "INDUCTANCE", "--load-r": "OHMS", "--z0": "OHMS", "--delay": "TIME", "--vf": "VF",
+    "--cable": "ID", "--port": "1|2", "--columns": "MAP",
+}
+"""Help placeholders that say what goes there (set on every option that does not name its own)."""
+
+
+def _placeholders() -> None:
+    import inspect
+
+    from typer.models import ArgumentInfo, OptionInfo
+
+    for cmd in app.registered_commands:
+        for p in inspect.signature(cmd.callback).parameters.values():
+            info = p.default
+            if isinstance(info, ArgumentInfo) and info.metavar is None:
+                info.metavar = p.name.upper()
+            elif isinstance(info, OptionInfo) and info.metavar is None and info.param_decls:
+                name = info.param_decls[0]
+                if name in METAVARS and not isinstance(info.default, bool):
+                    info.metavar = METAVARS[name]
+
+
+_placeholders()
+
+
+def _plain_arguments() -> None:
+    """Arguments shown as their placeholder alone (``SWEEP``), not ``{SWEEP}`` in the usage line and
+    ``SWEEP <str>`` in the list: typer 0.2x's plain help adds both, and neither tells a user anything."""
+    from typer.core import TyperArgument
+
+    TyperArgument._usage_display_name = (
+        lambda self: (self.display_name_raw if self.required else f"[{self.display_name_raw}]")
+        + ("..." if self.nargs != 1 else ""))
+    TyperArgument.display_type_rich = lambda self, ctx: None
+
+
+_plain_arguments()
+
+
+def _version(value: bool):
+    if value:
+        from .. import __version__
+
+        print(f"deembed {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _root(
+    version: bool = typer.Option(False, "--version", callback=_version, is_eager=True,
+                                 help="Print the version and exit."),
+    debug: bool = typer.Option(False, "--debug", help="On an error, show the full traceback instead of the "
+                                                      "one-line message (for reporting a fault); works after any "
+                                                      "command too."),
+):
+    """Remove the feed line from an antenna sweep taken at the analyzer end."""
+
 
 EXIT_OK = 0
 EXIT_CHECK_FAILED = 1

@@ -11,26 +11,27 @@ from ..base.errors import OptionError
 
 def budget_command(
     power: str = typer.Option(..., "--power", help="Forward power at the transmitter, e.g. 100W."),
-    loss: float = typer.Option(..., "--loss", help="One-way matched loss of the line, dB."),
-    antenna_swr: Optional[float] = typer.Option(None, "--antenna-swr", help="SWR at the antenna."),
-    measured_swr: Optional[float] = typer.Option(None, "--measured-swr", help="SWR read at the transmitter end: "
-                                                                              "the antenna's is inferred."),
+    loss: str = typer.Option(..., "--loss", help="One-way matched loss of the line, e.g. 1.8dB."),
+    antenna_swr: Optional[str] = typer.Option(None, "--antenna-swr", help="SWR at the antenna, e.g. 2.5 (or 2.5:1)."),
+    measured_swr: Optional[str] = typer.Option(None, "--measured-swr", help="SWR read at the transmitter end, e.g. "
+                                                                            "1.8: the antenna's is inferred."),
     as_json: bool = typer.Option(False, "--json", help="Print a JSON object on standard output."),
 ):
     """Power budget along a line: what reaches the antenna, what comes back, what the line burns."""
     from ..physics import rf
     from ..physics.budget import antenna_swr_from_measured, power_budget
-    from ..base.units import parse_power
+    from ..base.units import parse_db, parse_power, parse_swr
 
     p = parse_power(power)
-    if not (loss >= 0 and loss < 1000):
-        raise OptionError("--loss", f"{loss:g}: the matched loss must be a number of dB, 0 or more")
+    loss = parse_db(loss, "--loss", "matched loss", "1.8dB")
+    if not loss < 1000:
+        raise OptionError("--loss", f"{loss:g} dB: the matched loss must be below 1000 dB")
     if (antenna_swr is None) == (measured_swr is None):
         raise OptionError("--antenna-swr", "give exactly one of --antenna-swr and --measured-swr")
-    given = antenna_swr if antenna_swr is not None else measured_swr
-    name = "--antenna-swr" if antenna_swr is not None else "--measured-swr"
-    if not given >= 1:
-        raise OptionError(name, f"{given:g}: an SWR is 1 or more")
+    if antenna_swr is not None:
+        antenna_swr = parse_swr(antenna_swr, "--antenna-swr")
+    else:
+        measured_swr = parse_swr(measured_swr, "--measured-swr")
     swr_ant = antenna_swr if antenna_swr is not None else antenna_swr_from_measured(measured_swr, loss)
     g_ant = float(rf.gamma_mag_from_swr(swr_ant)) if swr_ant != float("inf") else 1.0
     b = power_budget(p, loss, g_ant)

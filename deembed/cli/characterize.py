@@ -12,27 +12,40 @@ from typing import List, Optional
 import typer
 
 from ..base.errors import InputFileError, OptionError, OutputWriteError
+from .options import CablesOpt, split_list
+
+
+def characterization_name(first_sweep: str) -> str:
+    """'far-open.s1p' -> 'far.line.s2p': the stated name of the run's 2-port in the --out folder."""
+    import os
+    import re
+
+    stem = os.path.splitext(os.path.basename(first_sweep))[0]
+    stem = re.sub(r"[-_. ]?(open|short|load)$", "", stem, flags=re.I)
+    return f"{stem}.line.s2p" if stem else "line.s2p"
 
 
 def characterize_command(
     open_file: Optional[str] = typer.Option(None, "--open", help="Sweep (.s1p) with an open at the far end."),
     short_file: Optional[str] = typer.Option(None, "--short", help="Sweep (.s1p) with a short at the far end."),
     load_file: Optional[str] = typer.Option(None, "--load", help="Sweep (.s1p) with a 50 ohm load at the far end."),
-    out: str = typer.Option(..., "--out", help="Where to write the run's 2-port (.s2p); use it with "
-                                               "`deembed correct --line`."),
+    out: str = typer.Option("deembed-out", "--out", metavar="DIR",
+                            help="Folder for the run's 2-port, written as NAME.line.s2p (NAME: the first sweep's "
+                                 "file name without -open, -short or -load); use it with `deembed correct --line`."),
     length: Optional[str] = typer.Option(None, "--length", help="Physical length of the run, e.g. 30m or 98ft: "
                                                                 "gives the velocity factor and loss per 100 m/ft."),
     cable: Optional[str] = typer.Option(None, "--cable", help="Catalog cable id to compare the measured loss with."),
-    cables: Optional[str] = typer.Option(None, "--cables", help="Your own cable catalog (TOML)."),
-    z0: float = typer.Option(50.0, "--z0", help="Nominal Z0 (ohm) for a one-standard fit."),
+    cables: Optional[str] = CablesOpt,
+    z0: str = typer.Option("50ohm", "--z0", help="Nominal Z0 for a one-standard fit, e.g. 50ohm."),
     open_c: Optional[str] = typer.Option(None, "--open-c", help="The open's fringing capacitance, e.g. 12fF "
                                                                 "(default: ideal open)."),
     short_l: Optional[str] = typer.Option(None, "--short-l", help="The short's inductance, e.g. 5pH "
                                                                   "(default: ideal short)."),
     load_r: Optional[str] = typer.Option(None, "--load-r", help="The load's resistance, e.g. 50.3ohm "
                                                                 "(default: 50 ohm)."),
-    at: Optional[List[str]] = typer.Option(None, "--at", help="Frequency to report the loss at, e.g. 14MHz; "
-                                                              "repeat or separate with commas."),
+    at: Optional[List[str]] = typer.Option(None, "--at", metavar="FREQ",
+                                           help="Frequencies to report the loss at, e.g. 7.1MHz,21MHz (commas, or "
+                                                "repeat the option)."),
     as_json: bool = typer.Option(False, "--json", help="Print the report as JSON on standard output."),
 ):
     """Characterize a feed line from open/short/load sweeps taken through it, for `correct --line`."""
@@ -49,11 +62,14 @@ def characterize_command(
     given = {name: path for name, path in (("open", open_file), ("short", short_file), ("load", load_file)) if path}
     if not given:
         raise OptionError("--open", "give the far-end sweeps: --open and --short (and --load), or one of them alone")
-    if not str(out).lower().endswith(".s2p"):
-        raise OptionError("--out", f"{out!r}: the run's 2-port is a Touchstone .s2p file; name it like LINE.s2p")
-    check_not_input(out, list(given.values()) + [cables], "--out")
-    if not (z0 > 0 and np.isfinite(z0)):
-        raise OptionError("--z0", f"{z0:g}: the characteristic impedance must be a positive number of ohms")
+    if str(out).lower().endswith(".s2p"):
+        raise OptionError("--out", f"{out!r}: --out is a folder (the run's 2-port is written into it as NAME.line.s2p); "
+                                   "give a folder, e.g. --out results")
+    if os.path.exists(out) and not os.path.isdir(out):
+        raise OptionError("--out", f"{out} is a file; give a folder for the results")
+    out_file = os.path.join(out, characterization_name(next(iter(given.values()))))
+    check_not_input(out_file, list(given.values()) + [cables], "--out")
+    z0 = parse_resistance(z0, "--z0")
     if load_r is not None and "load" not in given:
         raise OptionError("--load-r", "describes the load standard; give --load too, or drop --load-r")
     if open_c is not None and "open" not in given:
@@ -78,7 +94,7 @@ def characterize_command(
     cab = _cables.lookup(cable, _cables.catalog(cables), "--cable") if cable else None
     at_hz = None
     if at:
-        at_hz = sorted({parse_frequency(t.strip(), "--at") for item in at for t in item.split(",") if t.strip()})
+        at_hz = sorted({parse_frequency(t, "--at") for t in split_list(at)})
 
     sweeps = {name: read_sweep(path, expect_ports=1) for name, path in given.items()}
     names = list(sweeps)
@@ -97,15 +113,11 @@ def characterize_command(
     report = characterization_report(ch, at_hz=at_hz, length_m=length_m, cable=cab,
                                      gamma_open=gam.get("open"), gamma_short=gam.get("short"))
     report["inputs"] = dict(given)
-    report["out"] = str(out)
+    report["out"] = str(out_file)
     from ..io.outfolder import OutputFolder
 
-    parent = os.path.dirname(out) or "."
-    if os.path.lexists(parent) and not os.path.isdir(parent):
-        raise OutputWriteError(parent, f"is a file, so {out} cannot be written into it; move it or choose another "
-                                       "--out")
-    with OutputFolder(parent, inputs=[*given.values(), cables]) as folder:
-        write_characterization(folder.path(os.path.basename(out)), ch,
+    with OutputFolder(out, inputs=[*given.values(), cables]) as folder:
+        write_characterization(folder.path(os.path.basename(out_file)), ch,
                                comments=tuple(f"{k}: {v}" for k, v in given.items()))
     if as_json:
         print(json.dumps(report, indent=2))

@@ -24,14 +24,14 @@ MaxSwrRiseOpt = typer.Option(None, "--max-swr-rise", help="Largest acceptable ri
 MaxGammaOpt = typer.Option(None, "--max-gamma-change", help="Largest acceptable change of the feedpoint |Gamma| "
                                                             "at any frequency (default 0.1).")
 MaxBwLossOpt = typer.Option(None, "--max-bw-loss", help="Largest acceptable loss of the 2:1 bandwidth, per cent "
-                                                        "of the baseline's (default 25).")
+                                                        "of the baseline's, e.g. 25% (default 25%).")
 MaxLossChangeOpt = typer.Option(None, "--max-loss-change", help="Largest acceptable change of the line's matched "
-                                                                "loss with --after-line, dB (default 0.5).")
+                                                                "loss with --after-line, e.g. 0.5dB (default 0.5dB).")
 
 
 def compare_command(
-    baseline: str = typer.Argument(..., help="Sweep taken when the feed was known good (.s1p)."),
-    after: str = typer.Argument(..., help="Sweep taken after the work (.s1p)."),
+    baseline: str = typer.Argument(..., help="Sweep taken when the antenna was known good (.s1p, or a table with --columns)."),
+    after: str = typer.Argument(..., help="Sweep taken after the work (.s1p, or a table with --columns)."),
     cable: Optional[str] = CableOpt,
     length: Optional[str] = LengthOpt,
     vf: Optional[str] = VfOpt,

@@ -26,8 +26,10 @@ def correct_command(
     port: Optional[int] = PortOpt,
     columns: Optional[str] = ColumnsOpt,
     out: str = typer.Option("deembed-out", "--out", help="Folder for the results (created if needed)."),
-    swr_limits: str = typer.Option("1.5,2,3", "--swr-limits", help="SWR thresholds for bandwidth spans."),
-    target: Optional[str] = typer.Option(None, "--target", help="Wanted resonant frequency, e.g. 14.15MHz: trimming advice."),
+    swr_limits: Optional[List[str]] = typer.Option(None, "--swr-limits", metavar="SWR",
+                                                   help="SWR levels for the spans (commas, or repeat the option; "
+                                                        "default 1.5,2,3)."),
+    target: Optional[str] = typer.Option(None, "--target", metavar="FREQ", help="Wanted resonant frequency, e.g. 7.15MHz: trimming advice."),
     power: Optional[str] = typer.Option(None, "--power", help="Transmitter power for a power budget, e.g. 100W."),
     bands: bool = typer.Option(False, "--bands", help="Check the built-in sample band list."),
     bands_file: Optional[str] = typer.Option(None, "--bands-file", help="Check the bands in this TOML file."),
@@ -52,7 +54,7 @@ def correct_command(
     settings = uncertainty_settings(draws, seed, cal_uncertainty)
     the_line, notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate, tol)
     opts = workflow.Options(
-        port=port, thresholds=parse_thresholds(swr_limits),
+        port=port, thresholds=parse_thresholds(swr_limits or "1.5,2,3"),
         target_hz=parse_frequency(target, "--target") if target else None,
         power_w=parse_power(power) if power else None,
         bands=bands, bands_file=bands_file, plots=not no_plots, html=not no_plots, notes=notes,

@@ -11,12 +11,12 @@ from .options import CableOpt, CablesOpt, ColumnsOpt, DelayOpt, LineOpt, LossOpt
 
 
 def _db(text: str, option: str) -> float:
-    from ..base.units import parse_positive
+    from ..base.units import parse_db
 
-    t = str(text).strip()
-    if t.lower().endswith("db"):
-        t = t[:-2].strip()
-    return parse_positive(t, option, "number of dB", upper=200.0)
+    v = parse_db(text, option, "level", "30dB")
+    if not 0 < v <= 200:
+        raise OptionError(option, f"{text!r}: give a level above 0 dB and at most 200 dB, e.g. 30dB")
+    return v
 
 
 def locate_command(

@@ -6,30 +6,33 @@ import typer
 from ..base.errors import OptionError
 
 
-CableOpt = typer.Option(None, "--cable", help="Catalog cable id (see `deembed cables`), e.g. rg213.")
+CableOpt = typer.Option(None, "--cable", metavar="ID", help="Catalog cable id (see `deembed cables`), e.g. rg213.")
 
 
-LengthOpt = typer.Option(None, "--length", help="Physical length with unit: 30m, 98ft.")
+LengthOpt = typer.Option(None, "--length", metavar="LENGTH", help="Physical length with unit: 30m, 98ft.")
 
 
-VfOpt = typer.Option(None, "--vf", help="Velocity factor, in (0, 1].")
+VfOpt = typer.Option(None, "--vf", metavar="VF", help="Velocity factor, in (0, 1], e.g. 0.66.")
 
 
-DelayOpt = typer.Option(None, "--delay", help="One-way delay, e.g. 152ns (a bare number is ns).")
+DelayOpt = typer.Option(None, "--delay", metavar="TIME", help="One-way delay instead of length and VF, e.g. 152ns.")
 
 
-Z0Opt = typer.Option(None, "--z0", help="Nominal characteristic impedance, ohm (default: the cable's, or 50).")
+Z0Opt = typer.Option(None, "--z0", metavar="OHMS", help="Nominal characteristic impedance, e.g. 50ohm (default: the "
+                                                           "cable's, or 50 ohm).")
 
 
-LossOpt = typer.Option(None, "--loss", help="The run's one-way matched loss at a frequency, e.g. 1.25dB@14MHz; "
-                                            "repeat for a second frequency.")
+LossOpt = typer.Option(None, "--loss", metavar="LOSS@FREQ",
+                       help="The run's one-way matched loss at a frequency, e.g. 0.8dB@21MHz; two or more points "
+                            "(commas, or repeat the option) fit conductor and dielectric loss.")
 
 
-LineOpt = typer.Option(None, "--line", help="Line description: a .toml file (several sections) or a measured "
+LineOpt = typer.Option(None, "--line", metavar="FILE", help="Line description: a .toml file (several sections) or a measured "
                                             "or characterized .s2p.")
 
 
-CablesOpt = typer.Option(None, "--cables", help="Your own cable catalog (TOML), added to the built-in one.")
+CablesOpt = typer.Option(None, "--catalog", metavar="FILE", help="Your own cable catalog (TOML), added to the "
+                                                                   "built-in one.")
 
 
 ExtrapolateOpt = typer.Option(False, "--extrapolate", help="Allow a characterized line to be used beyond the "
@@ -43,7 +46,7 @@ ColumnsOpt = typer.Option(None, "--columns", metavar="MAP",
                                "freq:kHz,-,swr.")
 
 
-PortOpt = typer.Option(None, "--port", help="For a 2-port file: which port's reflection to use (1 or 2).")
+PortOpt = typer.Option(None, "--port", metavar="1|2", help="For a 2-port file: which port's reflection to use (1 or 2).")
 
 
 def check_port(port) -> None:
@@ -54,7 +57,8 @@ def check_port(port) -> None:
 
 
 OPTION_FOR_FIELD = {
-    **{k: f"--{k}" for k in ("cable", "length", "vf", "delay", "z0", "loss", "line", "cables", "port", "out",
+    "cables": "--catalog",
+    **{k: f"--{k}" for k in ("cable", "length", "vf", "delay", "z0", "loss", "line", "port", "out",
                              "power", "extrapolate", "target", "open", "short", "load")},
     "measured_swr": "--measured-swr", "antenna_swr": "--antenna-swr", "open_c": "--open-c", "short_l": "--short-l",
     "load_r": "--load-r", "standards": "--open/--short/--load", "swr_threshold": "--swr-limits",
@@ -104,16 +108,26 @@ def build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate=Fal
     """The line from the shared options, plus notes for the summary."""
     from ..io.linefile import line_from_options
 
-    return line_from_options(cable=cable, length=length, vf=vf, delay=delay, z0=z0, loss=loss or (),
+    return line_from_options(cable=cable, length=length, vf=vf, delay=delay, z0=z0, loss=split_list(loss),
                              cables_file=cables, line_file=line, allow_extrapolation=extrapolate,
                              names=LINE_OPTIONS, tolerances=tolerances or ())
 
 
-def parse_thresholds(text: str) -> tuple:
+def split_list(values) -> list:
+    """The items of a list option, given the same way everywhere: separated by commas, or the option repeated
+    (or both). Empty items are dropped."""
+    if values is None:
+        return []
+    if isinstance(values, str):
+        values = [values]
+    return [t.strip() for v in values for t in str(v).split(",") if t.strip()]
+
+
+def parse_thresholds(text) -> tuple:
     from ..base.units import parse_positive
 
     vals = []
-    for part in text.split(","):
+    for part in split_list(text):
         v = parse_positive(part.strip(), "--swr-limits", "SWR threshold")
         if v <= 1:
             raise OptionError("--swr-limits", f"{part.strip()!r}: an SWR threshold must be above 1")

@@ -35,7 +35,7 @@ from . import cables as _cables
 from ..base.errors import InputFileError, OptionError
 from ..physics.line import C0_M_PER_S, Line, LossModel, MeasuredTwoPort, Section
 from .tomlfile import load_toml
-from ..base.units import parse_delay, parse_length, parse_loss_point, parse_positive
+from ..base.units import parse_delay, parse_length, parse_loss_point, parse_positive, parse_resistance
 from .charfile import line_from_characterization
 from .touchstone import read_sweep
 
@@ -155,7 +155,7 @@ def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Sec
     """Check a section's description and build it; returns (section, notes)."""
     notes: list[str] = []
     cable = _cables.lookup(spec.cable, cat, names["cable"]) if spec.cable else None
-    z0 = parse_positive(spec.z0, names["z0"], "characteristic impedance") if spec.z0 is not None else None
+    z0 = parse_resistance(as_text(spec.z0), names["z0"]) if spec.z0 is not None else None
     if z0 is None:
         z0 = cable.z0_ohm if cable else 50.0
     vf = parse_positive(spec.vf, names["vf"], "velocity factor", upper=1.0) if spec.vf is not None else None

@@ -3,7 +3,7 @@
 The site file is TOML of our own design; paths in it are relative to the file::
 
     name = "Ridgeback Hill"            # the site's name, for the index page
-    cables = "my-cables.toml"          # optional: your own cable catalog for every feed
+    catalog = "my-cables.toml"         # optional: your own cable catalog for every antenna
 
     [limits]                           # optional: limits for every antenna (defaults: deembed.analysis.limits.Limits)
     max_shift = "50kHz"
@@ -51,7 +51,7 @@ from .linefile import SECTION_KEYS, read_line_file, section_from_table
 from .tomlfile import load_toml
 from .touchstone import check_port
 
-SITE_KEYS = ("name", "cables", "limits", "history", "antenna")
+SITE_KEYS = ("name", "catalog", "limits", "history", "antenna")
 """Keys of the site file's top level."""
 
 ANTENNA_KEYS = ("name", "line", "cable", "length", "vf", "delay", "z0", "loss", "baseline", "latest", "after_line",
@@ -136,7 +136,7 @@ def read_site(path, out_dir: str) -> Site:
     if not isinstance(limits, dict):
         raise InputFileError(p, "[limits] should be a table, e.g. max_shift = \"50kHz\"")
     base = os.path.dirname(os.path.abspath(p))
-    cables = data.get("cables")
+    cables = data.get("catalog")
     if cables is not None:
         if not isinstance(cables, str) or not cables.strip():
             raise InputFileError(p, "cables should name a cable catalog file, e.g. cables = \"my-cables.toml\"")
@@ -144,7 +144,7 @@ def read_site(path, out_dir: str) -> Site:
         try:
             catalog(cables)  # a bad site-wide catalog is the site file's fault, not every feed's
         except InputFileError as exc:
-            raise InputFileError(p, f"cables = {data['cables']!r}: {exc}") from None
+            raise InputFileError(p, f"catalog = {data['catalog']!r}: {exc}") from None
     jobs, used = [], set()
     for i, entry in enumerate(antennas, 1):
         name = str(entry.get("name") or f"antenna {i}")
