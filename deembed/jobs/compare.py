@@ -31,8 +31,12 @@ def compare_paths(after_path: str, out_dir: str) -> dict:
              ("compare_along_png", ".compare-along.png"))}
 
 
-def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *, title: str = "") -> dict:
-    """Write the comparison's JSON, overlay PNG and HTML atomically; returns the paths written."""
+def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *, title: str = "",
+                          reports=()) -> dict:
+    """Write the comparison's JSON, overlay PNG and HTML atomically; returns the paths written.
+
+    ``reports`` lists each side's correction report as ``(side, path)``; the page links them (relative to it).
+    """
 
     for p in paths.values():
         check_not_input(p, [i for i in inputs if i], "out")
@@ -47,8 +51,10 @@ def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *
         paths["compare_along_png"] = along_png
     result = dict(result, outputs={k: os.path.basename(v) for k, v in paths.items()})
     write_text_atomic(paths["compare_json"], json.dumps(to_jsonable(result), indent=2, allow_nan=False) + "\n")
+    here = os.path.dirname(os.path.abspath(paths["compare_html"]))
+    links = [(side, os.path.relpath(os.path.abspath(p), here)) for side, p in reports if p]
     write_text_atomic(paths["compare_html"], compare_html(result, paths["compare_png"], title,
-                                                          along_png=paths.get("compare_along_png")))
+                                                          along_png=paths.get("compare_along_png"), reports=links))
     return paths
 
 

@@ -143,7 +143,9 @@ def _run_antenna(job: AntennaJob) -> dict:
         res = compare_corrections(base_corr, corr, limits)
         paths = compare_paths(sweep, out)
         cw = write_compare_outputs(res, base_corr, corr, paths, inputs=[baseline, *latest, *line_inputs],
-                                   title=f"{job.name}: {os.path.basename(sweep)} against {os.path.basename(baseline)}")
+                                   title=f"{job.name}: {os.path.basename(sweep)} against {os.path.basename(baseline)}",
+                                   reports=[("baseline", base_written.get("report_html")),
+                                            ("after the work", written.get("report_html"))])
         result["comparisons"].append({
             "file": sweep,
             "date": d,

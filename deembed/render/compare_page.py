@@ -1,19 +1,21 @@
-"""Outputs of a comparison: the overlay plot, the JSON and a small self-contained HTML page.
+"""Outputs of a comparison: the overlay plot and the self-contained HTML page (``templates/compare.html.j2``
+on the pages' shared base template and stylesheet: a verdict, the cause, findings tables with labels for
+people, the limits, the line, links to each side's correction report when there are reports).
 
 Colours (our own, distinct from :mod:`deembed.plots`): the baseline in indigo, the after-work sweep in
 mustard; solid lines at the feedpoint, dashed at the analyzer end.
 """
 from __future__ import annotations
 
-import html
 import os
 
-
-from ..physics import rf
-from .plots import PLOT_BOUNDS, finish, shown, smith_frame, smith_grid, smith_trace, swr_scale
-from .text import compare_text
-from ..analysis.limits import FIELD_OF_JSON, LIMIT_NAMES
+from ..base.units import fmt_freq
 from ..base.verdicts import TEXT as VERDICT_TEXT, WITHIN
+from ..physics import rf
+from .intervals import fmt_number, fmt_shift_interval
+from .labels import CAUSE_LABELS, LIMIT_LABELS, label
+from .pages import file_data_uri, finite, href, render_page
+from .plots import PLOT_BOUNDS, finish, shown, smith_frame, smith_grid, smith_trace, swr_scale
 from .along import along_plot
 
 BEFORE_COLOUR = "#3f51a3"
@@ -56,38 +58,149 @@ def along_overlay(trace_before: dict, trace_after: dict, summary_after: dict):
                       colours=(AFTER_COLOUR, BEFORE_COLOUR))
 
 
-def compare_html(result: dict, png_path: str | None = None, title: str = "", along_png: str | None = None) -> str:
-    """A small self-contained page (the plot embedded as data) with the numbers, verdict and cause."""
-    import base64
+def _facts(result: dict) -> list:
+    g = result["grid"]
+
+    def side(key):
+        path = str(result[key]["file"])
+        return {"value": os.path.basename(path) or path, "mono": True,
+                "below": f"{result[key]['points']} points" + (f", in {os.path.dirname(path)}"
+                                                               if os.path.dirname(path) else "")}
+
+    return [{"label": "Baseline", **side("baseline")}, {"label": "After the work", **side("after")},
+            {"label": "Compared on", "value": f"{g['points']} points", "below": g["method"]},
+            {"label": "Range", "value": f"{fmt_freq(g['low_hz'])} to {fmt_freq(g['high_hz'])}"}]
 
 
-    e = html.escape
-    img = ""
-    if png_path and os.path.isfile(png_path):
-        with open(png_path, "rb") as fh:
-            data = base64.b64encode(fh.read()).decode("ascii")
-        img = f'<img alt="overlay of baseline and after-work sweeps" src="data:image/png;base64,{data}">'
-    if along_png and os.path.isfile(along_png):
-        with open(along_png, "rb") as fh:
-            data = base64.b64encode(fh.read()).decode("ascii")
-        img += (f'<h2>Along the line</h2><p>{e(result.get("along_the_line", {}).get("text", ""))}</p>'
-                f'<img alt="baseline and after-work sweeps along the line" src="data:image/png;base64,{data}">')
-    v = result["verdict"]
-    if v["status"] == WITHIN:
-        badge = f'<p class="ok">{VERDICT_TEXT[WITHIN]}</p>'
+def _sfmt(v, spec):
+    return "n/a" if not finite(v) else format(v, spec)
+
+
+def _end_rows(end: dict, result: dict | None, exceeded) -> list:
+    """The rows of one end's table (``result`` given for the feedpoint, which also has the resonance)."""
+    rows = []
+    if result is not None:
+        rows.append({"label": "Resonance", "hint": "reactance zero nearest the best match, fitted",
+                     "before": fmt_freq(result["resonance_before_hz"], 7) if finite(result["resonance_before_hz"])
+                     else "n/a",
+                     "after": fmt_freq(result["resonance_after_hz"], 7) if finite(result["resonance_after_hz"])
+                     else "n/a",
+                     "change": fmt_shift_interval(result["resonance_shift_hz"], result.get("resonance_shift_interval_hz")),
+                     "over": "max_shift_hz" in exceeded})
+    rows.append({"label": "Lowest SWR", "before": _sfmt(end["min_swr_before"], ".3f"),
+                 "after": _sfmt(end["min_swr_after"], ".3f"),
+                 "change": fmt_number(end["min_swr_change"], (result or {}).get("min_swr_change_interval"),
+                                      default_decimals=3) if result is not None else _sfmt(end["min_swr_change"], "+.3f"),
+                 "over": result is not None and "max_swr_rise" in exceeded})
+    rows.append({"label": "Lowest SWR at", "before": fmt_freq(end["min_swr_freq_before_hz"], 7)
+                 if finite(end["min_swr_freq_before_hz"]) else "n/a",
+                 "after": fmt_freq(end["min_swr_freq_after_hz"], 7) if finite(end["min_swr_freq_after_hz"]) else "n/a",
+                 "change": fmt_shift_interval(end["min_swr_freq_shift_hz"])})
+    pct = end.get("swr_2_width_change_percent")
+    rows.append({"label": "Width of the 2:1 span", "hint": "all spans together",
+                 "before": fmt_freq(end["swr_2_width_before_hz"], 4) if end["swr_2_width_before_hz"] else "none",
+                 "after": fmt_freq(end["swr_2_width_after_hz"], 4) if end["swr_2_width_after_hz"] else "none",
+                 "change": f"{pct:+.1f} %" if finite(pct) else _sfmt(end["swr_2_width_change_hz"] / 1e3, "+.1f") + " kHz",
+                 "over": result is not None and "max_bw_loss_percent" in exceeded})
+    at = end.get("largest_gamma_change_at_hz")
+    rows.append({"label": "Largest change of |\u0393|", "hint": f"at {fmt_freq(at, 6)}" if finite(at) else None,
+                 "before": "", "after": "", "change": _sfmt(end["largest_gamma_change"], ".3f"),
+                 "over": result is not None and "max_gamma_change" in exceeded})
+    rows.append({"label": "Largest change of \u0393 (complex)", "before": "", "after": "",
+                 "change": _sfmt(end["largest_gamma_vector_change"], ".3f")})
+    rows.append({"label": "RMS change of \u0393 (complex)", "before": "", "after": "",
+                 "change": _sfmt(end["rms_gamma_change"], ".3f")})
+    rows.append({"label": "Trace noise", "hint": "rms in \u0393, from the sweep itself",
+                 "before": _sfmt(end["trace_noise_before"], ".4f"), "after": _sfmt(end["trace_noise_after"], ".4f"),
+                 "change": ""})
+    return rows
+
+
+def _limits_rows(result: dict) -> list:
+    lim, fp, ln = result["limits"], result["feedpoint"], result["line"]
+    exceeded = result["verdict"]["limits_exceeded"]
+    pct = fp.get("swr_2_width_change_percent")
+    lc = ln.get("loss_change_db")
+    found = {
+        "max_shift_hz": fmt_shift_interval(result["resonance_shift_hz"]),
+        "max_swr_rise": _sfmt(fp["min_swr_change"], "+.3f"),
+        "max_gamma_change": _sfmt(fp["largest_gamma_change"], ".3f"),
+        "max_bw_loss_percent": f"{-pct:.1f} % lost" if finite(pct) and pct < 0 else
+        (f"{pct:+.1f} %" if finite(pct) else "no 2:1 span at the baseline"),
+        "max_loss_change_db": f"{lc['max_abs']:.2f} dB" if lc else "the same line",
+    }
+    allowed = {
+        "max_shift_hz": fmt_freq(lim["max_shift_hz"]) if lim["max_shift_hz"] else "0 Hz",
+        "max_swr_rise": f"{lim['max_swr_rise']:g}",
+        "max_gamma_change": f"{lim['max_gamma_change']:g}",
+        "max_bw_loss_percent": f"{lim['max_bw_loss_percent']:g} %",
+        "max_loss_change_db": f"{lim['max_loss_change_db']:g} dB",
+    }
+    checked = {"max_bw_loss_percent": finite(pct), "max_loss_change_db": lc is not None}
+    return [{"label": label(LIMIT_LABELS, k), "allowed": allowed[k], "found": found[k],
+             "ok": None if not checked.get(k, True) else k not in exceeded} for k in allowed]
+
+
+def _line_rows(ln: dict) -> list:
+    rows = [{"label": "Baseline corrected through", "value": ln["before"]}]
+    if ln["same_line"]:
+        rows[0]["label"] = "Both sweeps corrected through"
     else:
-        names = ", ".join(LIMIT_NAMES[FIELD_OF_JSON[k]] for k in v["limits_exceeded"])
-        badge = f'<p class="bad">{VERDICT_TEXT[v["status"]]}: ' + e(names) + "</p>"
-    head = e(title or f"{os.path.basename(str(result['after']['file']))} against its baseline")
-    return f"""<!DOCTYPE html>
-<html lang="en"><head><meta charset="utf-8"><title>{head}</title>
-<style>body{{font-family:system-ui,sans-serif;max-width:70em;margin:1.5em auto;padding:0 1.5em;color:#222;background:#fbfaf8}}
-pre{{background:#f6f4ef;padding:1em;white-space:pre-wrap}} img{{max-width:100%}}
-.ok{{color:#1d6b3a;font-weight:bold}} .bad{{color:#a3261d;font-weight:bold}}</style></head>
-<body><h1>{head}</h1>
-{badge}
-<p><b>Cause:</b> {e(result['cause']['code'])} &mdash; {e(result['cause']['text'])}</p>
-<pre>{e(compare_text(result))}</pre>
-{img}
-</body></html>
-"""
+        rows.append({"label": "After sweep corrected through", "value": ln["after"]})
+    lc = ln.get("loss_change_db")
+    if lc:
+        rows.append({"label": "Change of matched loss", "value": f"{lc['at_centre']:+.2f} dB at mid-band, "
+                                                                 f"up to {lc['max_abs']:.2f} dB"})
+    if finite(ln.get("delay_change_ps")):
+        rows.append({"label": "Change of delay", "value": f"{ln['delay_change_ps']:+.0f} ps one way"})
+    fit = ln.get("fitted_change")
+    if fit:
+        rows.append({"label": "As a change of the line", "value":
+                     f"{fit['loss_change_db']['at_centre']:+.2f} dB one-way loss at mid-band, "
+                     f"{fit['delay_change_ps']:+.0f} ps one-way delay; leaves {fit['rms_residual']:.4f} rms in "
+                     f"\u0393 unexplained of {fit['rms_change']:.4f} rms change"})
+    return rows
+
+
+def compare_html(result: dict, png_path: str | None = None, title: str = "", along_png: str | None = None,
+                 *, reports=(), run_time=None) -> str:
+    """The comparison's page: verdict, cause, findings tables, limits, the line, the plots and links.
+
+    ``reports`` lists each side's correction report as ``(side, relative path)`` (e.g. ``("baseline",
+    "vertical-2m.report.html")``), linked from the page when given.
+    """
+    import datetime as _dt
+
+    run_time = run_time or _dt.datetime.now().astimezone()
+    v = result["verdict"]
+    exceeded = v["limits_exceeded"]
+    cause = result["cause"]
+    figures = []
+    uri = file_data_uri(png_path)
+    if uri:
+        figures.append({"uri": uri, "alt": "overlay of baseline and after-work sweeps",
+                        "caption": "Baseline (indigo) and after the work (mustard): SWR and Smith chart at the "
+                                   "feedpoint (solid, top) and at the analyzer (dashed, bottom)."})
+    uri = file_data_uri(along_png)
+    if uri:
+        figures.append({"uri": uri, "alt": "baseline and after-work sweeps along the line",
+                        "caption": "Both sweeps along the line, as seen from the analyzer."})
+    u = result.get("uncertainty")
+    return render_page(
+        "compare.html.j2",
+        title=title or f"{os.path.basename(str(result['after']['file']))} against its baseline",
+        facts=_facts(result),
+        verdict={"ok": v["status"] == WITHIN, "word": VERDICT_TEXT[v["status"]].capitalize(),
+                 "exceeded": [label(LIMIT_LABELS, k) for k in exceeded], "reasons": v["reasons"]},
+        cause={"label": label(CAUSE_LABELS, cause["code"]), "text": cause["text"]},
+        reports=[{"side": side, "name": os.path.basename(str(p)), "href": href(p)} for side, p in reports if p],
+        uncertainty=(f"Intervals: {u['coverage']:.0%} coverage, {u['draws']} Monte Carlo draws (seed {u['seed']}); "
+                     f"{u['method']}.") if u else None,
+        feedpoint={"heading": "At the feedpoint (corrected)", "rows": _end_rows(result["feedpoint"], result, exceeded)},
+        analyzer={"heading": "At the analyzer (measured)", "rows": _end_rows(result["analyzer"], None, exceeded)}
+        if result.get("analyzer") else None,
+        analyzer_missing="the baseline's line is known only at its measured points",
+        limits=_limits_rows(result), line_rows=_line_rows(result["line"]), figures=figures,
+        along_text=(result.get("along_the_line") or {}).get("text") if along_png else None,
+        notes=list(result.get("notes") or []),
+        run_time=run_time.strftime("%Y-%m-%d %H:%M %Z").strip())

@@ -1,101 +1,90 @@
-"""The site's index page: one self-contained page linking every antenna's files."""
+"""The site's index page: one self-contained page linking every antenna's pages and files.
+
+It is ``templates/site_index.html.j2`` on the pages' shared base template and stylesheet (the report's
+colours for within and outside limits); every value placed in it is escaped.
+"""
 from __future__ import annotations
 
-import html
+import datetime as _dt
 import os
-from urllib.parse import quote
 
-
+from ..base.verdicts import ERROR, OUTSIDE, TEXT as VERDICT_TEXT, WITHIN
 from .intervals import fmt_shift_interval
-from ..base.verdicts import ERROR, TEXT as VERDICT_TEXT, WITHIN
+from .labels import CAUSE_LABELS, label
+from .pages import href, render_page
+
+LINKS = (("report_html", "report"), ("compare_html", "comparison"), ("compare_png", "overlay plot"),
+         ("compare_json", "comparison JSON"), ("summary_json", "summary JSON"))
+"""The files linked for each latest sweep, in this order, and what the links say."""
 
 
-def _link(rel_path, text) -> str:
-    return f'<a href="{html.escape(quote(rel_path.replace(os.sep, "/")), quote=True)}">{html.escape(text)}</a>'
-
-
-def _trend_cell(trend) -> str:
-    """A link to the antenna's trend page, with its flags, for the antenna's cell."""
+def _trend(trend) -> dict | None:
     if not trend:
-        return ""
+        return None
     flags = trend.get("flags") or []
-    mark = (f' <b class="flag" title="{html.escape("; ".join(flags), quote=True)}">trend flagged ({len(flags)})</b>'
-            if flags else "")
-    text = f"trend over {trend['runs']} run(s)"
-    return f'<br><small>{_link(trend["page"], text)}{mark}</small>'
+    return {"href": href(trend["page"]), "text": f"trend over {trend['runs']} run(s)",
+            "flags": "; ".join(flags), "count": len(flags)}
 
 
-def _history_note(history) -> str:
+def _history(history) -> str | None:
     if not history:
-        return ""
-    e = html.escape
+        return None
     if history.get("error"):
-        return f'<p class="flag">Not recorded: {e(history["error"])}</p>'
+        return f"Not recorded: {history['error']}"
     flagged = history.get("flagged") or []
-    more = f' Trend flagged for {e(", ".join(flagged))}.' if flagged else " No trend flagged."
-    return (f'<p>History: {history["added"]} new sweep(s) recorded, {history["already"]} already there, in '
-            f'<span style="font-family:monospace">{e(history["store"])}</span>.{more}</p>')
+    more = f" Trend flagged for {', '.join(flagged)}." if flagged else " No trend flagged."
+    return (f"History: {history['added']} new sweep(s) recorded, {history['already']} already there, in "
+            f"{history['store']}.{more}")
 
 
-def index_html(summary: dict) -> str:
-    """The site's index: one self-contained page, a row per comparison, links to each antenna's files.
-
-    Every string from the site file or the sweeps passes through :func:`html.escape`.
-    """
-    e = html.escape
+def _rows(summary: dict) -> list:
     rows = []
     for ant in summary["antennas"]:
-        name = e(ant["name"])
         if ant["verdict"] == ERROR:
-            rows.append(f'<tr class="{ERROR}"><td>{name}</td><td class="st">{VERDICT_TEXT[ERROR]}</td>'
-                        f'<td colspan="4">{e(ant["error"])}</td></tr>')
+            rows.append({"name": ant["name"], "error": ant["error"], "verdict_text": VERDICT_TEXT[ERROR]})
             continue
         base = ant["baseline"]
-        trend = _trend_cell(ant.get("trend"))
-        base_links = " ".join(_link(p, k.replace("_", " ")) for k, p in base["outputs"].items()
-                              if k in ("report_html", "summary_json", "swr_png"))
+        base_report = (base.get("outputs") or {}).get("report_html")
         for cmp in ant["comparisons"]:
-            st = cmp["verdict"]
             shift = cmp["resonance_shift_hz"]
-            shift_txt = "n/a" if shift is None else fmt_shift_interval(shift, cmp.get("resonance_shift_interval_hz"))
-            links = " ".join(_link(p, k.replace("_", " ")) for k, p in cmp["outputs"].items()
-                             if k in ("compare_html", "compare_png", "compare_json", "report_html"))
-            why = "; ".join(cmp["reasons"])
             bp = cmp.get("between_points")
-            btw = ""
+            between = None
             if bp:
                 err = bp.get("estimated_error")
-                btw = (f"<br><small>between characterized points: {e(str(bp.get('method')))}"
-                       + (f", estimated error up to {err:.2g} in |&Gamma;|" if err is not None and
-                          bp.get("method") != "exact" else "") + "</small>")
-            rows.append(
-                f'<tr class="{st}"><td>{name}<br><small>{e(ant["line"] or "")}</small>{btw}{trend}</td>'
-                f'<td class="st">{VERDICT_TEXT[st]}</td>'
-                f'<td>{e(os.path.basename(cmp["file"]))}<br><small>baseline {e(os.path.basename(base["file"]))}: '
-                f'{base_links}</small></td>'
-                f'<td>{e(shift_txt)}</td>'
-                f'<td><b>{e(cmp["cause"]["code"])}</b>: {e(cmp["cause"]["text"])}'
-                f'{"<br><small>" + e(why) + "</small>" if why else ""}</td>'
-                f'<td>{links}</td></tr>')
+                between = (f"between characterized points: {bp.get('method')}"
+                           + (f", estimated error up to {err:.2g} in |\u0393|" if err is not None and
+                              bp.get("method") != "exact" else ""))
+            outs = cmp.get("outputs") or {}
+            links = [{"href": href(outs[k]), "text": text} for k, text in LINKS if outs.get(k)]
+            if base_report:
+                links.insert(1, {"href": href(base_report), "text": "baseline report"})
+            date = cmp.get("date")
+            rows.append({
+                "name": ant["name"], "line": ant.get("line") or "", "between": between, "trend": _trend(ant.get("trend")),
+                "ok": cmp["verdict"] == WITHIN, "verdict_text": VERDICT_TEXT[cmp["verdict"]],
+                "sweep": os.path.basename(cmp["file"]), "baseline": os.path.basename(base["file"]),
+                "date": date if isinstance(date, str) else None,
+                "shift": "n/a" if shift is None else fmt_shift_interval(shift, cmp.get("resonance_shift_interval_hz")),
+                "cause_label": label(CAUSE_LABELS, cmp["cause"]["code"]), "cause_text": cmp["cause"]["text"],
+                "reasons": "; ".join(cmp["reasons"]), "links": links})
+    return rows
+
+
+def index_html(summary: dict, *, run_time: _dt.datetime | None = None) -> str:
+    """The site's index: one self-contained page, a row per comparison, links to each antenna's pages."""
+    run_time = run_time or _dt.datetime.now().astimezone()
     c = summary["counts"]
-    head = e(summary["site"])
-    overall = (f"{VERDICT_TEXT[WITHIN]}: every antenna" if summary["verdict"] == WITHIN else
-               f"{c['outside_limits']} outside limits, {c['error']} with an error")
-    return f"""<!DOCTYPE html>
-<html lang="en"><head><meta charset="utf-8"><title>{head}: antennas against their baselines</title>
-<style>body{{font-family:system-ui,sans-serif;max-width:80em;margin:1.5em auto;padding:0 1.5em;color:#222;background:#fbfaf8}}
-table{{border-collapse:collapse;width:100%}} td,th{{border-bottom:1px solid #d9d4cc;padding:.4em;vertical-align:top;text-align:left}}
-tr.within_limits .st{{color:#1d6b3a}} tr.outside_limits .st,tr.error .st,.flag{{color:#a3261d;font-weight:bold}} small{{color:#555}}</style>
-</head><body>
-<h1>{head}</h1>
-<p>{e(overall)} ({len(summary['antennas'])} antenna(s), site file {e(os.path.basename(summary['file']))}).</p>
-<table><thead><tr><th>Antenna</th><th>Verdict</th><th>Sweep</th><th>Resonance shift</th><th>Cause</th><th>Files</th></tr></thead>
-<tbody>
-{chr(10).join(rows)}
-</tbody></table>
-{_history_note(summary.get("history"))}
-<p><small>Resonance shift: feedpoint, after minus baseline. Limits and the antenna-or-line rule: see
-the README. Sweeps compared through each antenna's line description; nothing here replaces a look at the
-antenna by a qualified climber when the numbers say it changed.</small></p>
-</body></html>
-"""
+    n = len(summary["antennas"])
+    overall = (f"{VERDICT_TEXT[WITHIN].capitalize()}: every antenna." if summary["verdict"] == WITHIN else
+               f"{c.get(OUTSIDE, 0)} outside limits, {c.get(ERROR, 0)} with an error, of {n} antenna(s).")
+    return render_page(
+        "site_index.html.j2", site=summary["site"],
+        facts=[{"label": "Site file", "value": os.path.basename(summary["file"]), "mono": True},
+               {"label": "Antennas", "value": n},
+               {"label": "Run", "value": run_time.strftime("%Y-%m-%d %H:%M %Z").strip()}],
+        counts={"within": c.get(WITHIN, 0), "outside": c.get(OUTSIDE, 0), "error": c.get(ERROR, 0)},
+        overall=overall, rows=_rows(summary), history=_history(summary.get("history")),
+        run_time=run_time.strftime("%Y-%m-%d %H:%M %Z").strip())
+
+
+__all__ = ["index_html"]
