@@ -55,6 +55,7 @@ from ..physics.grid import nearest_points
 from ..physics.line import DB_PER_NP
 from ..base.units import fmt_freq
 from .between import between_points, between_warnings
+from ..base.results import Result
 from ..base.verdicts import verdict_of
 from .findings import resonances
 from .findings import end_findings
@@ -406,7 +407,8 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
 
     verdict = _verdict(fp, line, limits, res_b, res_a)
     _certainty(verdict, fp, limits, intervals)
-    cause = diagnose(fp, sh, line, limits, verdict)
+    verdict = Verdict(**verdict)
+    cause = Cause(**diagnose(fp, sh, line, limits, verdict))
     along = compare_along(before, after)[0]
     if along.get("shown") and along.get("where") == "part-way along the line":
         place = f"{along['first_change_m']:.1f} m" if along.get("first_change_m") is not None else "part-way"
@@ -553,6 +555,39 @@ def _certainty(verdict: dict, fp: dict, limits: Limits, intervals: dict) -> None
     verdict["certainty_text"] = {k: notes[v] for k, v in cert.items() if v in notes}
 
 
+@dataclass(frozen=True)
+class Verdict(Result):
+    """A comparison's verdict against its limits (``verdict`` in the compare JSON).
+
+    ``status`` is ``within_limits`` or ``outside_limits``; ``limits_exceeded`` the JSON names of the limits
+    exceeded, ``reasons`` one sentence each. With uncertainty intervals, ``certainty`` says per limit whether it
+    is exceeded beyond or within the uncertainty (see :func:`_certainty`).
+    """
+
+    status: str
+    limits_exceeded: list
+    reasons: list
+    certainty: dict | None = None
+    beyond_uncertainty: list | None = None
+    within_uncertainty: list | None = None
+    certainty_text: dict | None = None
+
+    OPTIONAL = ("certainty", "beyond_uncertainty", "within_uncertainty", "certainty_text")
+
+    @property
+    def ok(self) -> bool:
+        return self.status == verdict_of(True)
+
+
+@dataclass(frozen=True)
+class Cause(Result):
+    """Antenna or line (``cause`` in the compare JSON): ``code`` (``unchanged``, ``antenna``, ``line``, ``both``,
+    ``unclear``) and a sentence for people."""
+
+    code: str
+    text: str
+
+
 def _verdict(fp: dict, line: dict, limits: Limits, res_b, res_a) -> dict:
 
     exceeded, reasons = [], []
@@ -630,5 +665,5 @@ def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dic
                                        "not what any change of the line's loss or length would do"}
 
 
-__all__ = ["Aligned", "align", "compare_corrections", "diagnose",
+__all__ = ["Aligned", "Cause", "Verdict", "align", "compare_corrections", "diagnose",
            "fit_line_change", "fitted_resonance", "trace_noise"]

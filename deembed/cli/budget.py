@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+from dataclasses import replace
 from typing import Optional
 
 import typer
@@ -36,11 +37,11 @@ def budget_command(
     g_ant = float(rf.gamma_mag_from_swr(swr_ant)) if swr_ant != float("inf") else 1.0
     b = power_budget(p, loss, g_ant)
     if measured_swr is not None:
-        b["inferred_from_measured_swr"] = measured_swr
+        b = replace(b, inferred_from_measured_swr=measured_swr)
     from ..io.jsonfile import to_jsonable
 
     if as_json:
-        print(json.dumps(to_jsonable(b), indent=2))
+        print(json.dumps(to_jsonable(b.to_dict()), indent=2))
         return
     from ..render.text import budget_text
 

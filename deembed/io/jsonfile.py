@@ -6,6 +6,8 @@ import numpy as np
 
 def to_jsonable(obj):
     """Plain JSON types: numpy scalars to Python, NaN/inf to None."""
+    if hasattr(obj, "to_dict"):  # a typed result (deembed.base.results.Result)
+        return to_jsonable(obj.to_dict())
     if isinstance(obj, dict):
         return {str(k): to_jsonable(v) for k, v in obj.items()}
     if isinstance(obj, (list, tuple)):

@@ -6,9 +6,12 @@ Both ends are referred to the line's characteristic impedance, taken as real (50
 """
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from ..base.errors import OptionError
+from ..base.results import Result
 from .rf import gamma_mag_from_swr, return_loss_db, swr
 
 
@@ -23,7 +26,65 @@ def _loss_factor(matched_loss_db, option="loss"):
     return ml, 10.0 ** (ml / 10.0)
 
 
-def power_budget(power_w, matched_loss_db, gamma_antenna) -> dict:
+@dataclass(frozen=True)
+class AtAntenna(Result):
+    """The antenna end: forward, reflected and delivered power (W), SWR and |Gamma| there."""
+
+    forward_w: object
+    reflected_w: object
+    delivered_w: object
+    swr: object
+    gamma_mag: object
+
+
+@dataclass(frozen=True)
+class AtTransmitter(Result):
+    """The transmitter end: forward and reflected power, SWR, return loss (dB), net power into the line, |Gamma|."""
+
+    forward_w: object
+    reflected_w: object
+    swr: object
+    return_loss_db: object
+    net_w: object
+    gamma_mag: object
+
+
+@dataclass(frozen=True)
+class LineBudget(Result):
+    """The line: its matched loss (dB) and the power it dissipates (W)."""
+
+    matched_loss_db: object
+    dissipated_w: object
+
+
+@dataclass(frozen=True)
+class MatchedAtTransmitter(Result):
+    """With a matching unit at the transmitter end: total and additional loss (dB), delivered, dissipated (W)."""
+
+    total_loss_db: object
+    additional_loss_db: object
+    delivered_w: object
+    dissipated_w: object
+
+
+@dataclass(frozen=True)
+class PowerBudget(Result):
+    """Where the power goes (:func:`power_budget`); ``to_dict()`` is ``deembed budget --json``.
+
+    Each value is a float when every input was a scalar, else an array of the broadcast shape.
+    ``inferred_from_measured_swr`` is the SWR read at the transmitter when the antenna's was inferred from it.
+    """
+
+    at_antenna: AtAntenna
+    at_transmitter: AtTransmitter
+    line: LineBudget
+    matched_at_transmitter: MatchedAtTransmitter
+    inferred_from_measured_swr: float | None = None
+
+    OPTIONAL = ("inferred_from_measured_swr",)
+
+
+def power_budget(power_w, matched_loss_db, gamma_antenna) -> PowerBudget:
     """Where the power goes on a line of matched loss ML feeding an antenna of reflection Gamma_L.
 
     Parameters
@@ -42,7 +103,7 @@ def power_budget(power_w, matched_loss_db, gamma_antenna) -> dict:
 
     Returns
     -------
-    dict
+    PowerBudget
         ``at_antenna``: ``forward_w``, ``reflected_w``, ``delivered_w``, ``swr``, ``gamma_mag``;
         ``at_transmitter``: ``forward_w``, ``reflected_w``, ``swr``, ``return_loss_db``, ``net_w``,
         ``gamma_mag``;
@@ -87,16 +148,13 @@ def power_budget(power_w, matched_loss_db, gamma_antenna) -> dict:
 
     with np.errstate(divide="ignore"):
         rl_tx = return_loss_db(g_in)
-    out = {
-        "at_antenna": {"forward_w": fwd_ant, "reflected_w": refl_ant, "delivered_w": delivered,
-                       "swr": swr(gl), "gamma_mag": gl},
-        "at_transmitter": {"forward_w": p, "reflected_w": refl_tx, "swr": swr(g_in),
-                           "return_loss_db": rl_tx, "net_w": net, "gamma_mag": g_in},
-        "line": {"matched_loss_db": ml, "dissipated_w": net - delivered},
-        "matched_at_transmitter": {"total_loss_db": tl, "additional_loss_db": tl - ml,
-                                   "delivered_w": delivered_m, "dissipated_w": p - delivered_m},
-    }
-    return {part: {k: _out(v, scalar) for k, v in d.items()} for part, d in out.items()}
+    o = lambda v: _out(v, scalar)  # noqa: E731
+    return PowerBudget(
+        AtAntenna(o(fwd_ant), o(refl_ant), o(delivered), o(swr(gl)), o(gl)),
+        AtTransmitter(o(p), o(refl_tx), o(swr(g_in)), o(rl_tx), o(net), o(g_in)),
+        LineBudget(o(ml), o(net - delivered)),
+        MatchedAtTransmitter(o(tl), o(tl - ml), o(delivered_m), o(p - delivered_m)),
+    )
 
 
 def antenna_swr_from_measured(measured_swr, matched_loss_db):
