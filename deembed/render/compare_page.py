@@ -181,10 +181,7 @@ def compare_html(result: dict, png_path: str | None = None, title: str = "", alo
         figures.append({"uri": uri, "alt": "overlay of baseline and after-work sweeps",
                         "caption": "Baseline (indigo) and after the work (mustard): SWR and Smith chart at the "
                                    "feedpoint (solid, top) and at the analyzer (dashed, bottom)."})
-    uri = file_data_uri(along_png)
-    if uri:
-        figures.append({"uri": uri, "alt": "baseline and after-work sweeps along the line",
-                        "caption": "Both sweeps along the line, as seen from the analyzer."})
+    along_uri = file_data_uri(along_png)
     u = result.get("uncertainty")
     return render_page(
         "compare.html.j2",
@@ -201,6 +198,6 @@ def compare_html(result: dict, png_path: str | None = None, title: str = "", alo
         if result.get("analyzer") else None,
         analyzer_missing="the baseline's line is known only at its measured points",
         limits=_limits_rows(result), line_rows=_line_rows(result["line"]), figures=figures,
-        along_text=(result.get("along_the_line") or {}).get("text") if along_png else None,
+        along={"uri": along_uri, "text": (result.get("along_the_line") or {}).get("text", "")} if along_uri else None,
         notes=list(result.get("notes") or []),
         run_time=run_time.strftime("%Y-%m-%d %H:%M %Z").strip())
