@@ -82,13 +82,13 @@ def test_site_json_matches_the_schema(capsys, tmp_path, station):
 
 @pytest.mark.parametrize("reading", [("--antenna-swr", "2"), ("--measured-swr", "1.6")])
 def test_budget_json_matches_the_schema(capsys, reading):
-    check("budget", run_json(capsys, "budget", "--power", "100W", "--loss", "1.5", *reading, "--json"))
+    check("budget", run_json(capsys, "budget", "--power", "100W", "--loss", "1.5dB", *reading, "--json"))
 
 
 def test_characterization_json_matches_the_schema(capsys, tmp_path, station):
     data = run_json(capsys, "characterize", "--open", station / "dipole-40m-far-open.s1p",
                     "--short", station / "dipole-40m-far-short.s1p", "--load", station / "dipole-40m-far-load.s1p",
-                    "--length", "38m", "--out", tmp_path / "run.s2p", "--json")
+                    "--length", "38m", "--out", tmp_path / "run", "--json")
     check("characterization", data)
 
 
