@@ -30,6 +30,7 @@ test: $(STAMP)
 bench: $(STAMP)
 	$(PY) benchmarks/run.py
 	$(PY) benchmarks/along.py
+	$(PY) benchmarks/site_workers.py
 	$(PY) benchmarks/uncertainty.py
 
 notebook: $(STAMP)

@@ -867,3 +867,22 @@ def test_time_limit_option_values(capsys, tmp_path):
                        "--out", tmp_path / "o")
     assert code == 2
     one_error_line(err, "--time-limit")
+
+
+# ------------------------------------------------------------------------------------------------------
+# every command that writes: locate and trend go through the same transaction
+
+
+def test_locate_with_a_folder_in_the_way_leaves_the_folder_as_it_was(tmp_path, capsys):
+    sweep = write_sweep(tmp_path / "w.s1p", n=801, f0=1e6, f1=60e6)
+    out = tmp_path / "o"
+    (out / "w.along.json").mkdir(parents=True)
+    (out / "earlier.txt").write_text("kept")
+    before = listing(out)
+    code, _, err = run(capsys, "locate", sweep, *LINE, "--out", out)
+    assert code == 3, err
+    one_error_line(err, "w.along.json", "folder")
+    assert listing(out) == before and not staging_of(out)
+    code, _, err = run(capsys, "locate", sweep, *LINE, "--out", tmp_path / "fresh")
+    assert code == 0, err
+    assert {"w.along.json", "w.along.csv"} <= set(os.listdir(tmp_path / "fresh"))

@@ -28,11 +28,9 @@ def trend_command(
     """
     from ..analysis.trend import parse_trend_limits
     from ..io.jsonfile import to_jsonable
-    from ..jobs.correct import prepare_out_dir
     from ..jobs.trend import run_trend, trend_json, trend_text
 
     limits = parse_trend_limits(max_loss_rise, max_drift)
-    prepare_out_dir(out)
     result = run_trend(source, out, antenna=antenna, limits=limits)
     if as_json:
         print(json.dumps(to_jsonable(trend_json(result)), indent=2, allow_nan=False))

@@ -31,7 +31,7 @@ from ..physics import timedomain as td
 from ..physics.line import LossModel
 from ..analysis.along import AlongOptions, along, m_at
 from ..io.atomic import stem_of
-from .correct import prepare_out_dir
+from ..io.outfolder import OutputFolder
 
 
 LocateOptions = AlongOptions
@@ -208,7 +208,15 @@ def locate_file(sweep_path: str, view: LineView, out_dir: str, opts: LocateOptio
         gated, summary["gate"] = gated_sweep(sweep.freq_hz, sweep.gamma, view, opts, sweep_path)
         if not np.all(np.isfinite(gated)):
             raise OptionError("--keep" if opts.keep else "--remove", "the gated sweep is not finite; widen the window")
-    prepare_out_dir(out_dir)
+    with OutputFolder(out_dir, inputs=[sweep_path, *[i for i in view.inputs if i]]) as out:  # all, or none
+        written = _write_locate(out.stage, sweep_path, sweep, summary, trace, gated, view, opts)
+    written = {k: out.final(v) for k, v in written.items()}
+    return summary, written
+
+
+def _write_locate(folder: str, sweep_path: str, sweep, summary: dict, trace: dict, gated, view, opts) -> dict:
+    """Write the locate outputs into ``folder`` (the transaction's staging folder); returns their paths."""
+    paths = output_paths(sweep_path, folder)
     written = {}
     if gated is not None:
         g = summary["gate"]
@@ -227,7 +235,7 @@ def locate_file(sweep_path: str, view: LineView, out_dir: str, opts: LocateOptio
     summary["outputs"]["along_json"] = os.path.basename(paths["along_json"])
     write_text_atomic(paths["along_json"], json.dumps(to_jsonable(summary), indent=2, allow_nan=False) + "\n")
     written["along_json"] = paths["along_json"]
-    return summary, written
+    return written
 
 
 def write_trace_csv(trace: dict, path: str) -> None:

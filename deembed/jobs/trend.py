@@ -173,9 +173,15 @@ def trend_text(result: dict, out_dir: str | None) -> str:
 def run_trend(source: str, out_dir: str, *, antenna: str | None = None, limits: TrendLimits | None = None) -> dict:
     """Resolve the source, compute every trend and write the outputs. Returns the result with
     ``"written"`` and ``"flagged"`` (any flag raised)."""
+    from ..io.outfolder import OutputFolder
+
     target, site = resolve_source(source)
     result = compute_trends(target, site=site, antenna=antenna, limits=limits)
-    result["written"] = write_trend_outputs(result, out_dir)
+    with OutputFolder(out_dir, inputs=[source, target if isinstance(target, str) else None]) as out:
+        staged = write_trend_outputs(result, out.stage)  # all pages appear together, or none does
+    result["written"] = {"entries": {name: {k: out.final(v) for k, v in paths.items()}
+                                     for name, paths in staged["entries"].items()},
+                         "trend_json": out.final(staged["trend_json"])}
     result["flagged"] = any(e["trend"].flags for e in result["entries"])
     return result
 
