@@ -19,7 +19,7 @@ from ..render.along import locate_text
 
 def sample_folder(out_dir: str) -> str:
     """The repository's sample_sweeps/ when running from a checkout; otherwise freshly generated ones."""
-    here = os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "sample_sweeps")
+    here = os.path.join(os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__)))), "sample_sweeps")
     if os.path.isfile(os.path.join(here, "dipole-40m.s1p")):
         return here
 
