@@ -16,7 +16,7 @@ from deembed.cli.app import main
 from deembed.io.cables import catalog
 from deembed.io.linefile import SectionSpec, build_section, line_from_options, read_line_file
 from deembed.physics.line import LossModel
-from deembed.render.intervals import fmt_freq_interval, fmt_number, step_for
+from deembed.render.intervals import fmt_freq_interval, fmt_number, fmt_shift_interval, step_for
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 SAMPLES = os.path.join(os.path.dirname(HERE), "sample_sweeps")
@@ -129,6 +129,14 @@ def test_digits_follow_the_interval():
 
 
 # ------------------------------------------------------------------------------------------ end to end
+
+def test_a_shift_that_rounds_to_zero_has_no_sign():
+    # common practice, no source: a change that rounds to nothing is printed as 0, not as -0.0
+    assert fmt_shift_interval(-20.0, (-900.0, 800.0)) == "0.0 kHz (-0.9 to +0.8)"
+    assert fmt_shift_interval(-20.0) == "0.0 kHz"
+    assert fmt_shift_interval(-890.2e3) == "-890.2 kHz"
+    assert fmt_shift_interval(1234.0, (1000.0, 1500.0)) == "+1.23 kHz (+1.00 to +1.50)"
+
 
 def test_correct_outputs_carry_intervals_everywhere(capsys, tmp_path):
     line = os.path.join(SAMPLES, "dipole-40m.line.toml")
