@@ -290,3 +290,38 @@ def test_uncertainty_intervals_include_the_between_points_error(tmp_path):
     res_g = correct(sweep_g, line)
     a_g = assess(grid, sweep_g.gamma, res_g.gamma_feedpoint, line, settings=st)
     assert not any(name == "line between characterized points" for name, _ in a_g.mc.feedpoint.inputs)
+
+
+@pytest.mark.parametrize("points", [41, 201])
+def test_summary_json_intervals_include_the_between_points_error(tmp_path, points):
+    """End to end: `correct --line run.s2p` on 400 frequencies off the characterization's grid, with the analyzer's
+    calibration error switched off (--cal-uncertainty none) and a noise-free sweep, so what the intervals hold is
+    the line between its points. summary.json's feedpoint.uncertainty names that source, and its intervals hold
+    the antenna's true figures (scikit-rf's series RLC, R = 40 ohm at 14 MHz: resonance 14 MHz, lowest SWR
+    50/40 = 1.25, hand values). On the coarse grid (41 points, 675 kHz steps) it is the largest source and
+    "limited_by" says so in words."""
+    from deembed.cli.app import main
+    from deembed.io.touchstone import write_touchstone
+
+    grid = np.linspace(3e6, 30e6, points)
+    path, _ = _characterize_file(tmp_path, mixed_run(grid), grid)
+    f2 = _other_points()
+    sweep, truth = _sweep(mixed_run, f2)
+    sp = tmp_path / "analyzer.s1p"
+    write_touchstone(sp, f2, sweep.gamma)
+    out = tmp_path / "out"
+    assert main(["correct", str(sp), "--line", path, "--out", str(out), "--cal-uncertainty", "none", "--no-plots",
+                 "--draws", "1000", "--seed", "4"]) == 0
+    s = json.loads((out / "analyzer.summary.json").read_text())
+    u = s["feedpoint"]["uncertainty"]
+    share = u["contributions"]["resonance_hz"]
+    assert "line between characterized points" in share
+    assert s["line"]["between_points"]["method"] == "interpolated"
+    lo, hi = u["resonance_hz"]
+    assert lo <= 14e6 <= hi
+    lo, hi = u["min_swr"]
+    assert lo <= 1.25 <= hi
+    if points == 41:
+        assert max(share, key=share.get) == "line between characterized points"
+        assert u["limited_by"].startswith("the characterized line's estimated error between its measured points")
+        assert hi - lo > 0.01  # the lowest SWR's interval is that wide because of it

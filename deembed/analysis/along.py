@@ -189,7 +189,7 @@ def for_correction(freq_hz, gamma, line, pad: int | None = None) -> tuple[dict, 
         return {"resolves_line": False, "text": f"no look along the line: {why}"}, None
     grid, why = td.grid_of(freq_hz)
     if grid is None:
-        return {"resolves_line": False, "text": f"no look along the line: the sweep {why}"}, None
+        return {"resolves_line": False, "text": f"no look along the line: {_sweep_why(why)}"}, None
     ok, text = refl_mod.resolves_line(grid, m.delay_s, length_m=m.length_m)
     if not ok:
         return {"resolves_line": False, "text": text}, None
@@ -199,6 +199,16 @@ def for_correction(freq_hz, gamma, line, pad: int | None = None) -> tuple[dict, 
               "length", "reflections"):
         out[k] = summary[k]
     return out, (trace, summary)
+
+
+def _sweep_why(why: str, name: str = "sweep") -> str:
+    """A reason from :func:`~deembed.physics.timedomain.grid_of` ("its frequency steps ...", "it has 9 points")
+    said of a named sweep ("the sweep's frequency steps ...", "the sweep has 9 points")."""
+    if why.startswith("its "):
+        return f"the {name}'s {why[4:]}"
+    if why.startswith("it "):
+        return f"the {name} {why[3:]}"
+    return f"the {name}: {why}"
 
 
 def _same_grid(a: td.Grid, b: td.Grid) -> bool:
@@ -224,7 +234,7 @@ def compare_along(before, after, pad: int | None = None) -> tuple[dict, tuple | 
     for name, corr in (("baseline", before), ("after-work", after)):
         grid, why = td.grid_of(corr.freq_hz)
         if grid is None:
-            return {"shown": False, "text": f"no look along the line: the {name} sweep {why}"}, None
+            return {"shown": False, "text": f"no look along the line: {_sweep_why(why, name + ' sweep')}"}, None
         ok, text = refl_mod.resolves_line(grid, m.delay_s, length_m=m.length_m)
         if not ok:
             return {"shown": False, "text": f"the {name} sweep: {text}"}, None

@@ -384,7 +384,7 @@ def draw_between(line, freq_hz, gamma_an, n_draws: int, seed: int) -> BetweenDra
         return None
     rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(BETWEEN_SPAWN_KEY,)))
     unit = unit_disc(n_draws, rng)
-    name = "line between characterized points"
+    name = BETWEEN_SOURCE
     return BetweenDraws(unit, err, [(name, unit.real), (name, unit.imag)])
 
 
@@ -586,8 +586,9 @@ def end_block(end: EndDraws, nominal: dict, *, coverage: float, n_draws: int, se
                 score[nm] = abs(float(c)) if np.isfinite(c) else 0.0
             worst = max(score, key=score.get)
             what = "resonance" if name == "resonance_hz" else "lowest SWR"
-            text = (f"{worst} tolerance: the {what} cannot be placed in {lost.get(name, 0):.0%} of the draws; "
-                    "tighten that tolerance (measure or characterize the line)")
+            fix = ("characterize the run on a finer grid, or sweep on its own frequencies" if worst == BETWEEN_SOURCE
+                   else "tighten that tolerance (measure or characterize the line)")
+            text = f"{_as_source(worst)}: the {what} cannot be placed in {lost.get(name, 0):.0%} of the draws; {fix}"
         else:
             text = limiting_text(share, v, headline, matched_loss_db)
         out["limited_by"] = text
@@ -614,7 +615,18 @@ def limiting_text(share: dict, values: dict, headline: str, matched_loss_db=None
         return f"analyzer noise ({frac:.0%} of the variance)"
     if name == "analyzer calibration":
         return f"analyzer calibration ({frac:.0%} of the variance)"
-    return f"{name} tolerance ({frac:.0%} of the variance)"
+    return f"{_as_source(name)} ({frac:.0%} of the variance)"
+
+
+BETWEEN_SOURCE = "line between characterized points"
+
+
+def _as_source(name: str) -> str:
+    """A contribution's name as a cause: a section's tolerance, or a characterized line's estimated error
+    between its measured points (which is no tolerance)."""
+    if name == BETWEEN_SOURCE:
+        return "the characterized line's estimated error between its measured points"
+    return f"{name} tolerance"
 
 
 def change_interval(after_values, before_values, coverage: float = DEFAULT_COVERAGE):

@@ -57,12 +57,24 @@ def line_view(cable=None, length=None, vf=None, delay=None, z0=None, loss=(), li
     loss = list(loss or [])
     view = LineView(inputs=[line, cables])
     if line or delay or (length and (vf or cable)):
-        the_line, notes = line_from_options(cable=cable, length=length, vf=vf, delay=delay, z0=z0, loss=loss,
-                                            cables_file=cables, line_file=line)
+        line_vf = vf if line else None  # --vf with --line: the velocity factor of a run the file gives as a delay
+        the_line, notes = line_from_options(cable=cable, length=length, vf=None if line else vf, delay=delay, z0=z0,
+                                            loss=loss, cables_file=cables, line_file=line)
         source = f"line file {os.path.basename(line)}" if line else "the line options"
         m, why = rm.from_line(the_line, source=the_line.describe())
         if m is None:
-            raise OptionError("--line", why + "; describe it as sections (a .toml line file) or give --vf")
+            raise OptionError("--line", why + "; describe it as sections (a .toml line file), or leave --line out "
+                                              "and give --vf or --cable")
+        if line_vf is not None:
+            if m.knows_distance:
+                raise OptionError("--vf", f"{os.path.basename(line)} already gives every section's velocity factor; "
+                                          "leave --vf out")
+            m = rm.with_vf(m, _vf(line_vf))
+            view.notes.append(f"velocity factor {_vf(line_vf):g} (--vf) for the parts of {os.path.basename(line)} "
+                              "known only by their delay")
+        elif not m.knows_distance:
+            view.notes.append(f"{os.path.basename(line) if line else 'the line'} gives the run's delay but not its "
+                              "velocity factor: the trace is against one-way delay (add --vf for distances)")
         view.runmap = m
         view.described_length_m = m.length_m
         view.notes += notes

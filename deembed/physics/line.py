@@ -408,10 +408,12 @@ class Line:
 
     @property
     def delay_s(self) -> float | None:
-        """Total one-way delay of the modelled sections (None if any part is a measured 2-port)."""
-        if any(p.kind != "section" for p in self.parts):
+        """Total one-way delay of the modelled sections and characterized runs (their fitted delay); None if
+        any part is a measured 2-port known only as numbers."""
+        secs = [p if p.kind == "section" else getattr(p, "section", None) for p in self.parts]
+        if any(s is None for s in secs):
             return None
-        return float(sum(p.delay_s for p in self.parts))
+        return float(sum(s.delay_s for s in secs))
 
     def describe(self) -> str:
         head = f"{self.name}: " if self.name else ""

@@ -108,30 +108,52 @@ class RunMap:
         return "; ".join(bits)
 
 
+def model_section(part):
+    """The uniform section that stands for a line part along the line: the part itself for a modelled
+    section, the fitted model of a characterized run (its delay and matched loss; its velocity factor and
+    length are unknown), None for a measured 2-port known only as numbers."""
+    if getattr(part, "kind", "") == "section":
+        return part
+    return getattr(part, "section", None)
+
+
 def from_line(line, source: str = "") -> tuple[RunMap | None, str]:
     """A run map from a :class:`~deembed.physics.line.Line`; (None, why) when a part has no delay (a
-    measured 2-port)."""
+    measured 2-port). A characterized run contributes its fitted delay and loss (:func:`model_section`);
+    its velocity factor is unknown, so the map then gives delays, not distances."""
     stretches = []
     length = 0.0
     length_known = True
     for part in line.parts:
-        delay = getattr(part, "delay_s", None)
-        loss = getattr(part, "loss", None)
+        sec = model_section(part)
+        delay = getattr(sec, "delay_s", None)
+        loss = getattr(sec, "loss", None)
         if delay is None or loss is None:
-            return None, (f"{part.describe()} is a measured 2-port with no known delay, so distances along the line "
-                          "cannot be worked out from the description")
+            return None, (f"{part.describe()} is a measured 2-port with no known delay, so where reflections sit "
+                          "along it cannot be worked out from the description")
         if delay <= 0:
             continue
-        stretches.append(Stretch(float(delay), part.vf, loss.c_np / delay, loss.d_np / delay, part.label))
-        if part.length_m is None:
+        stretches.append(Stretch(float(delay), sec.vf, loss.c_np / delay, loss.d_np / delay,
+                                 getattr(part, "label", sec.label)))
+        if sec.length_m is None:
             length_known = False
         else:
-            length += part.length_m
+            length += sec.length_m
     if not stretches:
         return None, "the line description has no length"
     has_loss = any(s.c_np_per_s or s.d_np_per_s for s in stretches)
     return RunMap(tuple(stretches), length if length_known else None, float(sum(s.delay_s for s in stretches)),
                   has_loss, source), ""
+
+
+def with_vf(m: RunMap, vf: float) -> RunMap:
+    """The same map with ``vf`` for every stretch whose velocity factor is unknown (a characterized run is
+    known by its delay only); the length follows when every stretch then has one."""
+    from dataclasses import replace
+
+    stretches = tuple(s if s.vf is not None else replace(s, vf=float(vf)) for s in m.stretches)
+    length = float(sum(s.delay_s * s.vf * C0_M_PER_S for s in stretches))
+    return replace(m, stretches=stretches, length_m=length)
 
 
 def uniform(vf: float | None, c_np_per_m: float = 0.0, d_np_per_m: float = 0.0, source: str = "") -> RunMap:
