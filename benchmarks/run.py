@@ -272,7 +272,7 @@ def bench_characterize(tmp: str, repeats: int, sizes=(1001, 100_000)):
     for n in sizes:
         st = standards(tmp, n)
         cmds[n] = DEEMBED + ["characterize", "--open", st["open"], "--short", st["short"], "--load", st["load"],
-                             "--out", os.path.join(tmp, f"line-{n}.s2p")]
+                             "--out", os.path.join(tmp, f"char-{n}")]  # --out is a folder (NAME.line.s2p)
     return median_cmds(cmds, repeats)
 
 
