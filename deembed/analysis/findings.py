@@ -61,8 +61,9 @@ def _arrays(freq_hz, values, name):
     return f, v
 
 
-def _num(x):
-    """A plain Python float, or None for NaN/inf (JSON has neither)."""
+def finite_or_none(x):
+    """A plain Python float, or None for None, NaN and infinities (JSON has neither): how every finding's
+    number goes into its JSON form (also used by :mod:`deembed.analysis.magnitude`)."""
     if x is None:
         return None
     x = float(x)
@@ -571,13 +572,14 @@ def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS, *, events=None, 
         {k: np.array([x]) for k, x in events.nominal.items()})
     return {
         "min_swr": v["min_swr"],
-        "resonances_hz": [_num(x) for x in v["resonances_hz"]],
+        "resonances_hz": [finite_or_none(x) for x in v["resonances_hz"]],
         "resonances": v["resonances"],
-        "swr_spans_hz": {k: [[_num(lo), _num(hi)] for lo, hi in sp] for k, sp in v["swr_spans_hz"].items()},
+        "swr_spans_hz": {k: [[finite_or_none(lo), finite_or_none(hi)] for lo, hi in sp]
+                         for k, sp in v["swr_spans_hz"].items()},
         "swr_spans_cut_by_sweep_edge": v["swr_spans_cut_by_sweep_edge"],
         "q": v["q"],
         "q_freq_hz": v["q_freq_hz"],
-        "q_from_span": _num(v["q_from_span"]) if v["q_from_span"] is not None else None,
+        "q_from_span": finite_or_none(v["q_from_span"]) if v["q_from_span"] is not None else None,
         "noise_gamma_rms": v["noise_gamma_rms"],
     }
 
@@ -621,7 +623,7 @@ def sample_end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
             if lo <= f_min <= hi:
                 span2 = (lo, hi)
                 if not span_cut_by_sweep_edge((lo, hi), f):
-                    q_bw = _num(q_from_span(lo, hi, 2.0))
+                    q_bw = finite_or_none(q_from_span(lo, hi, 2.0))
                 break
 
     q = q_freq = None
@@ -632,18 +634,18 @@ def sample_end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
         hw = 0.01 * nearest.freq_hz
         if span2 is not None and span2[1] > span2[0]:
             hw = min(hw, 0.25 * (span2[1] - span2[0]))
-        q = _num(q_impedance(f, z, nearest.freq_hz, half_window_hz=hw))
+        q = finite_or_none(q_impedance(f, z, nearest.freq_hz, half_window_hz=hw))
         q_freq = nearest.freq_hz
 
     return {
-        "min_swr": {"freq_hz": _num(f_min), "swr": _num(s_min)},
-        "resonances_hz": [_num(r.freq_hz) for r in res],
-        "resonances": [{"freq_hz": _num(r.freq_hz), "r_ohm": _num(r.r_ohm), "kind": r.kind,
-                        "swr": _num(r.swr)} for r in res],
-        "swr_spans_hz": {k: [[_num(lo), _num(hi)] for lo, hi in v] for k, v in spans.items()},
+        "min_swr": {"freq_hz": finite_or_none(f_min), "swr": finite_or_none(s_min)},
+        "resonances_hz": [finite_or_none(r.freq_hz) for r in res],
+        "resonances": [{"freq_hz": finite_or_none(r.freq_hz), "r_ohm": finite_or_none(r.r_ohm), "kind": r.kind,
+                        "swr": finite_or_none(r.swr)} for r in res],
+        "swr_spans_hz": {k: [[finite_or_none(lo), finite_or_none(hi)] for lo, hi in v] for k, v in spans.items()},
         "swr_spans_cut_by_sweep_edge": {k: [span_cut_by_sweep_edge(sp, f) for sp in v]
                                         for k, v in spans.items()},
         "q": q,
-        "q_freq_hz": _num(q_freq),
+        "q_freq_hz": finite_or_none(q_freq),
         "q_from_span": q_bw,
     }

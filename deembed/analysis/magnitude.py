@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .findings import (DEFAULT_THRESHOLDS, _num, swr_spans, min_swr, q_from_span,
+from .findings import (DEFAULT_THRESHOLDS, finite_or_none, swr_spans, min_swr, q_from_span,
                         span_cut_by_sweep_edge, threshold_key)
 
 NO_PHASE_REASON = ("not available without phase: a resonance is where the feedpoint reactance crosses zero and "
@@ -19,7 +19,8 @@ NO_PHASE_REASON = ("not available without phase: a resonance is where the feedpo
 
 
 def _spans(f, mag, thresholds):
-    return {threshold_key(t): [[_num(lo), _num(hi)] for lo, hi in swr_spans(f, mag, t)] for t in thresholds}
+    return {threshold_key(t): [[finite_or_none(lo), finite_or_none(hi)] for lo, hi in swr_spans(f, mag, t)]
+            for t in thresholds}
 
 
 def magnitude_findings(freq_hz, gamma_mag, thresholds=DEFAULT_THRESHOLDS, *, gamma_mag_low=None,
@@ -58,14 +59,14 @@ def magnitude_findings(freq_hz, gamma_mag, thresholds=DEFAULT_THRESHOLDS, *, gam
         for lo, hi in swr_spans(f, m, 2.0):
             if lo <= f_min <= hi:
                 if not span_cut_by_sweep_edge((lo, hi), f):
-                    q_span = _num(q_from_span(lo, hi, 2.0))
+                    q_span = finite_or_none(q_from_span(lo, hi, 2.0))
                 break
     out = {
         "phase": False,
-        "min_swr": {"freq_hz": _num(f_min), "swr": _num(s_min)},
+        "min_swr": {"freq_hz": finite_or_none(f_min), "swr": finite_or_none(s_min)},
         "resonances_hz": None,
         "resonances": None,
-        "swr_spans_hz": {k: [[_num(lo), _num(hi)] for lo, hi in v] for k, v in spans.items()},
+        "swr_spans_hz": {k: [[finite_or_none(lo), finite_or_none(hi)] for lo, hi in v] for k, v in spans.items()},
         "swr_spans_cut_by_sweep_edge": {k: [span_cut_by_sweep_edge(sp, f) for sp in v] for k, v in spans.items()},
         "q": None,
         "q_freq_hz": None,
@@ -78,8 +79,8 @@ def magnitude_findings(freq_hz, gamma_mag, thresholds=DEFAULT_THRESHOLDS, *, gam
         # the lowest SWR's range: the least of the lower curve and the least of the upper curve
         _, s_lo = min_swr(f, lo_m)
         _, s_hi = min_swr(f, hi_m)
-        out["min_swr"]["swr_low"] = _num(s_lo)
-        out["min_swr"]["swr_high"] = _num(s_hi)
+        out["min_swr"]["swr_low"] = finite_or_none(s_lo)
+        out["min_swr"]["swr_high"] = finite_or_none(s_hi)
         inner, outer = _spans(f, hi_m, thresholds), _spans(f, lo_m, thresholds)
         out["swr_spans_hz_bound"] = {k: {"inner": inner[k], "outer": outer[k]} for k in spans}
     return out
