@@ -11,6 +11,7 @@ import numpy as np
 
 from ..base.units import fmt_freq
 from ..physics.between import FEEDPOINT_ERROR_WARN, GRID_MARGIN
+from ..physics.line import Line
 
 METHOD_TEXT = {
     "exact": "exact (every sweep frequency is one of the characterized points)",
@@ -22,10 +23,11 @@ METHOD_TEXT = {
 
 def _characterized_part(line):
     """The line's one characterized part when it is the whole line, else None (with the part count)."""
-    parts = [p for p in getattr(line, "parts", ()) if hasattr(p, "between_points")]
+    all_parts = line.parts if isinstance(line, Line) else ()
+    parts = [p for p in all_parts if p.kind == "characterized"]
     if not parts:
         return None, 0
-    return parts[0], len(getattr(line, "parts", ()))
+    return parts[0], len(all_parts)
 
 
 def has_characterized_part(line) -> bool:

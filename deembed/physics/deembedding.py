@@ -9,6 +9,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import rf
+from .line import Line, Section
 
 
 def feedpoint_gamma(gamma_in, s11, s21s12, s22, out=None):
@@ -97,11 +98,12 @@ the processor's cache, and the memory a call needs beyond its inputs and results
 def line_terms(line, freq_hz):
     """(S11, S21*S12, S22, matched loss dB) of ``line`` at ``freq_hz``, each (n,).
 
-    Lines of this package give them in one pass (:meth:`deembed.physics.line.Line.deembed_terms`); any other
-    object with ``s_params`` and ``matched_loss_db`` is taken through its (n, 2, 2) S-parameters.
+    A :class:`~deembed.physics.line.Line` or a :class:`~deembed.physics.line.Section` gives them in one pass
+    (:meth:`deembed.physics.line.Line.deembed_terms`); any other line part (:class:`~deembed.physics.line.LinePart`:
+    a measured or characterized 2-port) is taken through its (n, 2, 2) S-parameters.
     """
     f = np.asarray(freq_hz, dtype=float)
-    if hasattr(line, "deembed_terms"):
+    if isinstance(line, (Line, Section)):
         return line.deembed_terms(f)
     s = line.s_params(f)
     return s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1], np.asarray(line.matched_loss_db(f), dtype=float)
@@ -118,7 +120,7 @@ def correct(sweep, line) -> Correction:
     f = sweep.freq_hz
     g_in = sweep.gamma
     n = f.shape[0]
-    step = BLOCK_POINTS if getattr(line, "blockwise", False) else max(n, 1)
+    step = BLOCK_POINTS if isinstance(line, Line) and line.blockwise else max(n, 1)
     g_feed = np.empty(n, dtype=complex)
     loss = np.empty(n, dtype=float)
     # where the line passes nothing the result is not finite; callers refuse it (jobs.correct.check_finite)

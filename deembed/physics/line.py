@@ -26,6 +26,7 @@ from typing import ClassVar, Protocol
 import numpy as np
 
 from ..base.errors import OptionError
+from ..base.units import fmt_freq
 from .rf import Z_REF_OHM
 
 C0_M_PER_S = 299_792_458.0
@@ -74,8 +75,6 @@ class LossModel:
         fitted = [float(model.db_at(hz)) for _, hz in pts]
         if all(abs(fv - db) <= max(rel_tol * db, abs_tol_db) for (db, _), fv in zip(pts, fitted)):
             return None
-        from ..base.units import fmt_freq
-
         pairs = "; ".join(f"{db:.3g} dB at {fmt_freq(hz)} -> {fv:.3g} dB" for (db, hz), fv in zip(pts, fitted))
         return ("the loss points cannot all be met by a physical line loss (conductor loss rising as sqrt(f) plus "
                 "dielectric loss rising as f, neither negative), so the nearest such loss is used: given -> used: "
@@ -272,7 +271,9 @@ class LinePart(Protocol):
 
     ``kind`` says what the part is: ``"section"`` (a modelled RLGC section: it also has ``z0_ohm``, ``delay_s``,
     ``loss``, ``length_m`` and ``vf``), ``"measured"`` (a 2-port known only at its measured frequencies) or
-    ``"characterized"`` (a run known from a far-end characterization, with a model between its points).
+    ``"characterized"`` (a run known from a far-end characterization, with a model between its points: it also
+    has ``section``, the fitted model, and ``between_points``). Code asks ``part.kind`` (or ``isinstance`` on the
+    concrete classes), never ``hasattr`` or the class name.
     """
 
     kind: ClassVar[str]
@@ -374,19 +375,17 @@ class Line:
         f = np.asarray(freq_hz, dtype=float)
         if len(self.parts) == 1:
             part = self.parts[0]
-            if hasattr(part, "deembed_terms"):
-                return part.deembed_terms(f, z_ref_ohm) if isinstance(part, Section) else part.deembed_terms(f)
-            if hasattr(part, "s_params"):
-                s = part.s_params(f)
-                return s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1], np.asarray(part.matched_loss_db(f), dtype=float)
+            if isinstance(part, Section):
+                return part.deembed_terms(f, z_ref_ohm)
+            s = part.s_params(f)  # a measured or characterized 2-port: its own S (50 ohm)
+            return s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1], s[:, 1, 1], np.asarray(part.matched_loss_db(f), dtype=float)
         total = None
         loss = np.zeros(f.shape)
         for part in self.parts:
             if isinstance(part, Section):
                 p, part_loss = part.abcd_parts_and_loss(f)
             else:
-                m = part.abcd(f)
-                p = (m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1])
+                p = part.abcd_parts(f)
                 part_loss = part.matched_loss_db(f)
             loss += part_loss
             if total is None:
@@ -410,7 +409,7 @@ class Line:
     def delay_s(self) -> float | None:
         """Total one-way delay of the modelled sections and characterized runs (their fitted delay); None if
         any part is a measured 2-port known only as numbers."""
-        secs = [p if p.kind == "section" else getattr(p, "section", None) for p in self.parts]
+        secs = [p if p.kind == "section" else p.section if p.kind == "characterized" else None for p in self.parts]
         if any(s is None for s in secs):
             return None
         return float(sum(s.delay_s for s in secs))
