@@ -5,7 +5,7 @@ import math
 from dataclasses import asdict, dataclass
 
 from ..base.errors import OptionError
-from ..base.units import parse_db, parse_frequency, parse_percent
+from ..base.units import parse_db, parse_frequency, parse_frequency_difference, parse_percent
 
 
 LIMIT_NAMES = {k: k for k in ("max_shift", "max_swr_rise", "max_gamma_change", "max_bw_loss", "max_loss_change")}
@@ -112,9 +112,7 @@ LIMIT_EXAMPLES = {"max_shift": "50kHz", "max_swr_rise": "0.2", "max_gamma_change
 
 def parse_shift(text: str, option: str) -> float:
     """A frequency shift limit: '50kHz', '0Hz' (zero allowed; the unit is required). -> Hz."""
-    from ..base.units import _FREQ, _scaled
-
-    hz = _scaled(text, option, "frequency shift", LIMIT_EXAMPLES["max_shift"], _FREQ)
+    hz = parse_frequency_difference(text, option, LIMIT_EXAMPLES["max_shift"], "frequency shift")
     if hz < 0:
         raise OptionError(option, f"{text!r}: a shift limit must be 0 or more")
     return hz

@@ -63,6 +63,16 @@ def parse_frequency(text, option: str = "frequency", example: str = "7.1MHz") ->
     return hz
 
 
+def parse_frequency_difference(text, option: str = "frequency", example: str = "50kHz",
+                               what: str = "frequency difference") -> float:
+    """A frequency difference or shift: '50kHz', '0Hz', '-20 kHz' -> Hz, sign kept.
+
+    A unit is required, as for :func:`parse_frequency`, but zero and negative values are read as written:
+    the caller decides which are allowed. ``what`` names the quantity in the error ("frequency shift").
+    """
+    return _scaled(text, option, what, example, _FREQ)
+
+
 MAX_LINE_LENGTH_M = 1e6
 """Longest length accepted (1000 km): far beyond any feed line, well inside what the line maths can take."""
 

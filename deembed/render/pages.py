@@ -17,7 +17,9 @@ import math
 import os
 from urllib.parse import quote
 
+from .. import __version__
 from .plots import ANALYZER_COLOUR, FEEDPOINT_COLOUR, GRID_COLOUR
+from .safety import SAFETY_FOOT, SAFETY_ITEMS
 
 TEMPLATES_DIR = os.path.join(os.path.dirname(os.path.abspath(__file__)), "templates")
 
@@ -54,9 +56,6 @@ def environment():
 
 def render_page(template: str, **context) -> str:
     """Render one page template with ``context`` (plus the package version and the safety cautions)."""
-    from .. import __version__
-    from .safety import SAFETY_FOOT, SAFETY_ITEMS
-
     context.setdefault("version", __version__)
     context.setdefault("safety_items", [(h, t) for h, _, t in SAFETY_ITEMS])
     context.setdefault("safety_foot", SAFETY_FOOT)
