@@ -69,3 +69,53 @@ def test_correct_without_plots_loads_numpy_only(tmp_path):
                            "--out", str(tmp_path / "o")], tmp_path)
     assert mods == {"numpy"}
     assert (tmp_path / "o" / "dipole-40m.table.csv").exists()
+
+
+def _help_text(group, args):
+    import contextlib
+    import io
+
+    buf = io.StringIO()
+    with contextlib.redirect_stdout(buf):
+        try:
+            group.main(args, prog_name="deembed", standalone_mode=False)
+        except Exception as exc:  # a usage error: its one-line message, as main() prints it
+            return f"{type(exc).__name__}: {exc.format_message()}"
+    return buf.getvalue()
+
+
+def test_top_level_help_builds_no_command_and_equals_typers_own():
+    # reference: typer's own group, every command built by typer.main.get_command (what `app()` runs)
+    import typer.main
+
+    from deembed.cli.app import app, command
+
+    lazy = command()
+    ours = _help_text(lazy, ["--help"])
+    assert lazy.commands._built == {}  # the listing came from the docstrings alone
+    assert ours == _help_text(typer.main.get_command(app), ["--help"])
+    for line in ("correct ", "characterize ", "trend "):
+        assert "\n  " + line in ours
+
+
+@pytest.mark.parametrize("name", ["correct", "budget", "site"])
+def test_command_help_builds_that_command_only_and_equals_typers_own(name):
+    import typer.main
+
+    from deembed.cli.app import app, command
+
+    lazy = command()
+    ours = _help_text(lazy, [name, "--help"])
+    assert set(lazy.commands._built) == {name}
+    assert ours == _help_text(typer.main.get_command(app), [name, "--help"])
+    assert "--out" in ours or name == "budget"
+
+
+def test_lazy_commands_keep_names_and_suggestions():
+    from deembed.cli.app import app, command
+
+    lazy = command()
+    assert list(lazy.commands) == [c.name for c in app.registered_commands]
+    assert lazy.commands.get("nope") is None
+    out = _help_text(lazy, ["corect"])
+    assert "No such command 'corect'. Did you mean 'correct'" in out

@@ -6,9 +6,13 @@ traceback instead). The statuses are listed at ``EXIT_OK`` below and in the READ
 """
 from __future__ import annotations
 
+import copy
+import inspect
 import sys
+from collections.abc import MutableMapping
 
 import typer
+from typer.core import TyperCommand, TyperGroup
 
 from ..base.errors import DeembedError
 from .budget import budget_command
@@ -26,7 +30,32 @@ from .trend import trend_command
 
 SAFETY = safety_line()
 
+class LazyGroup(TyperGroup):
+    """The command group that builds a command's parameters only when that command is asked for.
+
+    typer turns every command function into click parameters before it can show any help, which reads the
+    type hints of all nine commands and costs ``deembed --help`` more than a third of its time. The top-level
+    help needs only each command's name and first line of help, so :func:`command` gives this group a
+    :class:`_LazyCommands` mapping: the listing comes from the docstrings (through the same click code, so
+    the same text), and ``deembed CMD ...`` builds only CMD. Built through ``typer.main.get_command(app)``
+    (all commands at once, as typer does) it is an ordinary typer group."""
+
+    def list_commands(self, ctx) -> list:
+        return list(self.commands.keys())  # names only: typer's own would build every command
+
+    def format_commands(self, ctx, formatter) -> None:
+        commands = self.commands
+        if not isinstance(commands, _LazyCommands):
+            return super().format_commands(ctx, formatter)
+        self.commands = {name: commands.for_listing(name) for name in commands}  # typer's layout, our rows
+        try:
+            super().format_commands(ctx, formatter)
+        finally:
+            self.commands = commands
+
+
 app = typer.Typer(
+    cls=LazyGroup,
     add_completion=False,
     no_args_is_help=True,
     help="Remove the feed line from an antenna sweep taken at the analyzer end: the feedpoint's true match, "
@@ -97,6 +126,56 @@ def _plain_arguments() -> None:
 
 
 _plain_arguments()
+
+
+class _LazyCommands(MutableMapping):
+    """name -> click command, each built from its typer registration on first access (see :class:`LazyGroup`)."""
+
+    def __init__(self, typer_app: typer.Typer):
+        self._app = typer_app
+        self._infos = {info.name or typer.main.get_command_name(info.callback.__name__): info
+                       for info in typer_app.registered_commands}
+        self._built: dict = {}
+
+    def __getitem__(self, name):
+        if name not in self._built:
+            self._built[name] = typer.main.get_command_from_info(
+                self._infos[name], pretty_exceptions_short=self._app.pretty_exceptions_short,
+                rich_markup_mode=self._app.rich_markup_mode)
+        return self._built[name]
+
+    def __setitem__(self, name, command) -> None:
+        self._built[name] = command
+        self._infos.setdefault(name, None)
+
+    def __delitem__(self, name) -> None:
+        del self._infos[name]
+        self._built.pop(name, None)
+
+    def __iter__(self):
+        return iter(self._infos)
+
+    def __len__(self) -> int:
+        return len(self._infos)
+
+    def for_listing(self, name):
+        """The command if built, else one with its help and flags but no parameters (what a listing shows),
+        made with the arguments typer's ``get_command_from_info`` gives these fields."""
+        info = self._infos[name]
+        if name in self._built or info is None:
+            return self[name]
+        return TyperCommand(name=name, help=inspect.getdoc(info.callback) if info.help is None
+                            else inspect.cleandoc(info.help), short_help=info.short_help, hidden=info.hidden,
+                            deprecated=info.deprecated, rich_markup_mode=self._app.rich_markup_mode)
+
+
+def command():
+    """The click command ``main`` runs: the root options and help as typer builds them, the commands lazily."""
+    shell = copy.copy(app)
+    shell.registered_commands = []  # the group without building a command; they come from the mapping
+    group = typer.main.get_command(shell)
+    group.commands = _LazyCommands(app)
+    return group
 
 
 def _version(value: bool):
@@ -198,7 +277,7 @@ def _run(args: list, debug: bool) -> int:
             from ..io.inputfile import parse_size
 
             os.environ["DEEMBED_MAX_INPUT_SIZE"] = str(parse_size(size, "--max-input-size"))
-        rv = app(args=args, prog_name="deembed", standalone_mode=False)
+        rv = command()(args=args, prog_name="deembed", standalone_mode=False)
         return int(rv) if isinstance(rv, int) else EXIT_OK
     except DeembedError as exc:
         if debug:
