@@ -10,6 +10,8 @@ from dataclasses import dataclass
 import math
 import os
 
+import numpy as np
+
 from ..base.errors import InputFileError, OptionError
 from ..physics.line import LossModel, Section
 
@@ -31,8 +33,6 @@ class Cable:
     tol_source: str = ""
 
     def loss_db_per_100ft(self, freq_hz):
-        import numpy as np
-
         f_mhz = np.asarray(freq_hz, dtype=float) / 1e6
         return self.k1 * np.sqrt(f_mhz) + self.k2 * f_mhz
 
