@@ -8,10 +8,14 @@ from collections.abc import Mapping
 
 import numpy as np
 
+from ..base.errors import InputFileError
+from ..base.units import fmt_freq, fmt_span
 from ..physics import rf
-from ..base.units import fmt_freq
+from ..physics.budget import MAX_MATCHED_LOSS_DB, matched_loss_refusal
 from .between import between_error, between_points, between_warnings, has_characterized_part
 from .findings import end_findings
+from .magnitude import magnitude_findings
+from .trust import assess, sources_record, uncertainty_blocks
 
 TWO_WAY_LOSS_WARN_DB = 10.0
 """Two-way matched loss above which the correction amplifies measurement error too much to trust.
@@ -109,19 +113,92 @@ def table_columns(corr, budget: dict | None = None, swr_band=None) -> Table:
     return Table(corr, budget, swr_band)
 
 
+def sweep_step(freq_hz) -> float | None:
+    """The sweep's step (the median spacing of its points), the resolution its frequencies are printed to;
+    None for a single point."""
+    f = np.asarray(freq_hz, dtype=float)
+    if f.size < 2:
+        return None
+    step = float(np.median(np.diff(f)))
+    return step if np.isfinite(step) and step > 0 else None
+
+
 def ranges_text(freq_hz, mask, limit: int = 4) -> str:
-    """'13.9-14.1 MHz, 21.2 MHz' for the runs where mask is true."""
+    """'20.900 to 21.150 MHz, 21.300 MHz' for the runs where mask is true, printed to the sweep's step
+    (:func:`deembed.base.units.fmt_span`: a run's edges are never the same text)."""
     idx = np.flatnonzero(mask)
     if idx.size == 0:
         return ""
+    step = sweep_step(freq_hz)
     breaks = np.flatnonzero(np.diff(idx) > 1)
     starts = np.concatenate(([idx[0]], idx[breaks + 1]))
     ends = np.concatenate((idx[breaks], [idx[-1]]))
     parts = []
     for a, b in list(zip(starts, ends))[:limit]:
-        parts.append(fmt_freq(freq_hz[a]) if a == b else f"{fmt_freq(freq_hz[a])} to {fmt_freq(freq_hz[b])}")
+        fa, fb = float(freq_hz[a]), float(freq_hz[b])
+        parts.append(fmt_freq(fa, resolution_hz=step) if a == b else fmt_span(fa, fb, step))
     more = len(starts) - limit
     return ", ".join(parts) + (f" and {more} more range(s)" if more > 0 else "")
+
+
+def error_growth_text(two_way_db: float) -> str:
+    """How much a small measurement error grows through a line of ``two_way_db`` two-way matched loss,
+    ``'3.2x'`` (``%.2g``): the factor 10^(dB/20), worked out from the dB figure, which
+    :data:`deembed.physics.budget.MAX_MATCHED_LOSS_DB` keeps far inside floating point (no overflow)."""
+    return f"{10.0 ** (min(float(two_way_db), 2 * MAX_MATCHED_LOSS_DB) / 20.0):.2g}x"
+
+
+def loss_warning(freq_hz, matched_loss_db) -> list[str]:
+    """The warning for a two-way line loss above :data:`TWO_WAY_LOSS_WARN_DB` (none below it)."""
+    two_way = 2 * np.asarray(matched_loss_db, dtype=float)
+    hot = two_way > TWO_WAY_LOSS_WARN_DB
+    if not hot.any():
+        return []
+    worst = float(np.nanmax(np.where(hot, two_way, np.nan)))
+    return [f"two-way line loss exceeds {TWO_WAY_LOSS_WARN_DB:g} dB ({ranges_text(freq_hz, hot)}; up to {worst:.1f} "
+            f"dB): small measurement errors grow about {error_growth_text(worst)} at the feedpoint there, so treat "
+            "those corrected values as rough"]
+
+
+def refuse_absurd_loss(corr) -> None:
+    """Refuse a correction through a line whose matched loss, at the sweep's frequencies, is above
+    :data:`~deembed.physics.budget.MAX_MATCHED_LOSS_DB` (the bound and message of every matched loss): most
+    often the sweep's frequencies are in another unit than the one given (Hz read as MHz), or the length
+    or loss has a typing mistake. Raises :class:`InputFileError` naming the sweep."""
+    ml = np.asarray(corr.matched_loss_db, dtype=float)
+    over = ml > MAX_MATCHED_LOSS_DB
+    if over.any():
+        k = int(np.argmax(np.where(over, ml, -np.inf)))
+        raise InputFileError(corr.source, f"through the line given, {matched_loss_refusal(float(ml[k]), float(corr.freq_hz[k]))} "
+                                          "(and the unit of the sweep's frequencies)")
+
+
+SWR_NOT_PLOTTED = 1e6
+"""SWR above which a point is left out of the SWR plots (the trace breaks there; see
+:data:`PLOT_BOUNDS`): the figure says nothing there (|Gamma| within 2e-6 of 1)."""
+
+PLOT_BOUNDS = {"gamma": 3.0, "swr": SWR_NOT_PLOTTED, "db": 1e3, "ohm": 1e9}
+"""Values beyond these are left out of the plots (:mod:`deembed.render.plots`; the trace breaks there) instead
+of being drawn: the Smith chart shows |Gamma| <= 1.08, the other axes far less than these, and coordinates near
+the float range (a sweep value of 1e200) make the rasterizer's clipping run for minutes. The summary warns
+where points are left out (:func:`unplotted_warnings`)."""
+
+
+def unplotted_warnings(freq_hz, ends) -> list[str]:
+    """One warning per end whose SWR is above :data:`SWR_NOT_PLOTTED` somewhere while |Gamma| is not above 1
+    (points above 1 have their own warning, which says they are not drawn): how many points, and where.
+    ``ends`` is ``{"analyzer": |Gamma| or Gamma, "feedpoint": ...}``."""
+    out = []
+    f = np.asarray(freq_hz, dtype=float)
+    for end, g in ends.items():
+        m = np.abs(np.asarray(g))
+        off = (m <= 1 + 1e-9) & ~(rf.swr(m) <= SWR_NOT_PLOTTED)
+        if off.any():
+            at = "the analyzer" if end == "analyzer" else "the feedpoint"
+            out.append(f"the SWR at {at} is above {SWR_NOT_PLOTTED:.0f}:1 (|Gamma| within 2e-6 of 1) at "
+                       f"{int(off.sum())} of {f.size} points ({ranges_text(f, off)}): those points are left out of "
+                       "the SWR plot")
+    return out
 
 
 def warnings_for(corr) -> list[str]:
@@ -132,19 +209,15 @@ def warnings_for(corr) -> list[str]:
     bad_in = g_in > 1
     if bad_in.any():
         out.append(f"the sweep itself shows |Gamma| above 1 at {int(bad_in.sum())} of {f.size} points "
-                   f"({ranges_text(f, bad_in)}): check the analyzer's calibration and reference plane")
+                   f"({ranges_text(f, bad_in)}): check the analyzer's calibration and reference plane; those points "
+                   "are left out of the SWR plot")
     bad = ~(np.abs(corr.gamma_feedpoint) <= 1 + 1e-9)
     if bad.any():
         out.append(f"the corrected feedpoint |Gamma| comes out above 1 at {int(bad.sum())} of {f.size} points "
                    f"({ranges_text(f, bad)}): the line description (loss, length, velocity factor) or the sweep "
-                   "is wrong there")
-    two_way = 2 * np.asarray(corr.matched_loss_db)
-    hot = two_way > TWO_WAY_LOSS_WARN_DB
-    if hot.any():
-        worst = float(np.max(two_way))
-        out.append(f"two-way line loss exceeds {TWO_WAY_LOSS_WARN_DB:g} dB ({ranges_text(f, hot)}; up to {worst:.1f} dB): "
-                   f"small measurement errors grow about {10 ** (worst / 20):.1f}x at the feedpoint there, so treat "
-                   "those corrected values as rough")
+                   "is wrong there; those points are left out of the SWR plot")
+    out += loss_warning(f, corr.matched_loss_db)
+    out += unplotted_warnings(f, {"analyzer": corr.gamma_analyzer, "feedpoint": corr.gamma_feedpoint})
     if f.size < 3:
         out.append("the sweep has fewer than 3 points: it is corrected, but resonance, bandwidth and Q need a sweep")
     return out
@@ -179,9 +252,9 @@ def summarise(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | 
     """The summary of a correction: both ends' findings (with their uncertainty), the line, warnings (JSON-ready).
 
     ``assessment`` is :func:`deembed.analysis.trust.assess` of the correction (made here, without the
-    Monte Carlo step, when not given)."""
-    from .trust import assess, sources_record, uncertainty_blocks
-
+    Monte Carlo step, when not given). A line whose matched loss is beyond any feed line's is refused
+    (:func:`refuse_absurd_loss`)."""
+    refuse_absurd_loss(corr)
     a = assessment or assess(corr.freq_hz, corr.gamma_analyzer, corr.gamma_feedpoint, corr.line,
                              thresholds=thresholds, settings=None)
     summary = {
@@ -242,12 +315,13 @@ def magnitude_warnings(corr) -> list[str]:
     if bad_in.any():
         out.append(f"the sweep itself shows |Gamma| above 1 (return loss below 0 dB) at {int(bad_in.sum())} of "
                    f"{f.size} points "
-                   f"({ranges_text(f, bad_in)}): check the analyzer's calibration and reference plane")
+                   f"({ranges_text(f, bad_in)}): check the analyzer's calibration and reference plane; those points "
+                   "are left out of the SWR plot")
     over = ~(corr.gamma_feedpoint_mag < 1)
     if over.any():
         out.append(f"the feedpoint estimate reaches |Gamma| 1 or more at {int(over.sum())} of {f.size} points "
                    f"({ranges_text(f, over)}): the line loss given is more than the sweep allows there (check the "
-                   "loss and length); those points are left out of the lowest SWR and the spans")
+                   "loss and length); those points are left out of the lowest SWR, the spans and the SWR plot")
     half = np.maximum(corr.gamma_feedpoint_mag_high - corr.gamma_feedpoint_mag,
                       corr.gamma_feedpoint_mag - corr.gamma_feedpoint_mag_low)
     loose = half > MAG_BOUND_WARN
@@ -256,21 +330,15 @@ def magnitude_warnings(corr) -> list[str]:
         out.append(f"the line is far from matched to 50 ohm at {int(loose.sum())} of {f.size} points "
                    f"({ranges_text(f, loose)}; |Gamma| uncertain by up to {worst:.2f}): the magnitude-only estimate is "
                    "loose there; a sweep with phase (R and X) removes that uncertainty")
-    two_way = 2 * np.asarray(corr.matched_loss_db)
-    hot = two_way > TWO_WAY_LOSS_WARN_DB
-    if hot.any():
-        worst = float(np.max(two_way))
-        out.append(f"two-way line loss exceeds {TWO_WAY_LOSS_WARN_DB:g} dB ({ranges_text(f, hot)}; up to {worst:.1f} dB): "
-                   f"small measurement errors grow about {10 ** (worst / 20):.1f}x at the feedpoint there, so treat "
-                   "those corrected values as rough")
+    out += loss_warning(f, corr.matched_loss_db)
+    out += unplotted_warnings(f, {"analyzer": corr.gamma_analyzer_mag, "feedpoint": corr.gamma_feedpoint_mag})
     return out
 
 
 def magnitude_summary(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | None = None) -> dict:
     """The summary of a magnitude-only correction, in the shape of :func:`summarise` (JSON-ready): both ends'
     findings without resonance and Q (``not_available`` says why), the feedpoint's with its bounds."""
-    from .magnitude import magnitude_findings
-
+    refuse_absurd_loss(corr)
     ok = corr.gamma_feedpoint_mag < 1
     est = np.where(ok, corr.gamma_feedpoint_mag, np.nan)
     summary = {

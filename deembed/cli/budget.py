@@ -20,21 +20,26 @@ def budget_command(
 ):
     """Power budget along a line: what reaches the antenna, what comes back, what the line burns."""
     from ..physics import rf
-    from ..physics.budget import antenna_swr_from_measured, power_budget
+    from ..physics.budget import MAX_SWR, antenna_swr_from_measured, check_matched_loss, check_power, power_budget
     from ..base.units import parse_db, parse_power, parse_swr
 
     p = parse_power(power)
+    check_power(p, "--power")
     loss = parse_db(loss, "--loss", "matched loss", "1.8dB")
-    if not loss < 1000:
-        raise OptionError("--loss", f"{loss:g} dB: the matched loss must be below 1000 dB")
+    check_matched_loss(loss, "--loss")
     if (antenna_swr is None) == (measured_swr is None):
         raise OptionError("--antenna-swr", "give exactly one of --antenna-swr and --measured-swr")
+    for opt, text in (("--antenna-swr", antenna_swr), ("--measured-swr", measured_swr)):
+        if text is not None and parse_swr(text, opt) > MAX_SWR:
+            raise OptionError(opt, f"{text!r} is above {MAX_SWR:.0f}:1, where every figure is that of a total "
+                                   "reflection (|Gamma| = 1 to six digits); give the SWR the analyzer shows, or "
+                                   f"{MAX_SWR:.0f} at most")
     if antenna_swr is not None:
         antenna_swr = parse_swr(antenna_swr, "--antenna-swr")
     else:
         measured_swr = parse_swr(measured_swr, "--measured-swr")
     swr_ant = antenna_swr if antenna_swr is not None else antenna_swr_from_measured(measured_swr, loss)
-    g_ant = float(rf.gamma_mag_from_swr(swr_ant)) if swr_ant != float("inf") else 1.0
+    g_ant = float(rf.gamma_mag_from_swr(swr_ant))
     b = power_budget(p, loss, g_ant)
     if measured_swr is not None:
         b = replace(b, inferred_from_measured_swr=measured_swr)

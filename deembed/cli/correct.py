@@ -47,9 +47,12 @@ def correct_command(
     from ..io.jsonfile import to_jsonable
     from ..jobs import correct as workflow
     from ..base.units import parse_frequency, parse_power
+    from ..physics.budget import check_power
     from ..io.tablesweep import parse_columns
 
     check_port(port)
+    if power:
+        check_power(parse_power(power), "--power")
     the_date, _ = record_options(record, date, name)
     settings = uncertainty_settings(draws, seed, cal_uncertainty)
     the_line, notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate, tol)

@@ -64,6 +64,7 @@ OPTION_FOR_FIELD = {
     "load_r": "--load-r", "standards": "--open/--short/--load", "swr_threshold": "--swr-limits",
     "max_shift": "--max-shift", "max_swr_rise": "--max-swr-rise", "max_gamma_change": "--max-gamma-change",
     "max_bw_loss": "--max-bw-loss", "max_loss_change": "--max-loss-change", "tolerance": "--tol",
+    "columns": "--columns", "max_input_size": "--max-input-size",
 }
 """The library's field names (in :class:`~deembed.base.errors.DeembedError` messages) and the options that set
 them: the command line shows its option names in every error."""
@@ -110,7 +111,7 @@ def build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate=Fal
 
     return line_from_options(cable=cable, length=length, vf=vf, delay=delay, z0=z0, loss=split_list(loss),
                              cables_file=cables, line_file=line, allow_extrapolation=extrapolate,
-                             names=LINE_OPTIONS, tolerances=tolerances or ())
+                             names=LINE_OPTIONS, tolerances=split_list(tolerances))
 
 
 def split_list(values) -> list:

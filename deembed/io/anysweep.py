@@ -8,9 +8,9 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-from ..base.errors import InputFileError, OptionError
+from ..base.errors import InputFileError, OptionError, field_ref
 from .inputfile import check_input_file
-from .tablesweep import COLUMNS_EXAMPLES, read_table_sweep
+from .tablesweep import COLUMNS_EXAMPLES, MagnitudeSweep, named, read_table_sweep
 from .touchstone import read_sweep
 
 __all__ = ["read_any_sweep", "read_phase_sweep"]
@@ -35,7 +35,7 @@ def _looks_like_touchstone(path: Path) -> bool:
 
 
 def read_any_sweep(path, columns=None, *, port: int | None = None, expect_ports: int | None = 1,
-                   option: str = "--columns"):
+                   option: str = "columns"):
     """Read a sweep from Touchstone or, with ``columns``, from a text table.
 
     Parameters
@@ -50,7 +50,8 @@ def read_any_sweep(path, columns=None, *, port: int | None = None, expect_ports:
     expect_ports : int or None
         Port count the caller needs (Touchstone only; a table is always one port).
     option : str
-        How the columns are given, for messages (``--columns``, or a site file's ``columns`` key).
+        How the columns are given, for messages: the field ``columns`` (the command line shows
+        ``--columns``), or a place in a file such as a site file's ``antenna 2 (x): 'columns'``.
 
     Returns
     -------
@@ -61,22 +62,21 @@ def read_any_sweep(path, columns=None, *, port: int | None = None, expect_ports:
     p = Path(path)
     if columns is not None:
         if port is not None:
-            raise OptionError("--port", f"{path} is a text table, which holds one reflection; --port is for "
-                                        "multi-port Touchstone files: leave it out")
+            raise OptionError("port", f"{path} is a text table, which holds one reflection; {field_ref('port')} is "
+                                      "for multi-port Touchstone files: leave it out")
         return read_table_sweep(path, columns, option=option)
     if not _SNP.search(p.name) and p.is_file() and not _looks_like_touchstone(p):
-        how = ("--columns, e.g. --columns freq:MHz,r,x" if option == "--columns"
-               else f'a {option} key, e.g. {option} = "freq:MHz,r,x"')
+        ref = named(option)
+        how = (f"{ref}, e.g. {ref} freq:MHz,r,x" if ref != option or option.startswith("--")
+               else f'a columns key ({option}), e.g. columns = "freq:MHz,r,x"')
         raise InputFileError(str(path), f"this is a text table, not Touchstone: say what its columns hold with "
                                         f"{how} (the others: {COLUMNS_EXAMPLES.split(' or ', 1)[1]})")
     return read_sweep(path, port=port, expect_ports=expect_ports)
 
 
-def read_phase_sweep(path, columns=None, *, port: int | None = None, option: str = "--columns", needs: str = ""):
+def read_phase_sweep(path, columns=None, *, port: int | None = None, option: str = "columns", needs: str = ""):
     """:func:`read_any_sweep` for work that needs the phase (comparison, the look along the line): a sweep of
     SWR or return loss alone is refused with the reason and what to export instead."""
-    from .tablesweep import MagnitudeSweep
-
     sw = read_any_sweep(path, columns, port=port, expect_ports=1, option=option)
     if isinstance(sw, MagnitudeSweep):
         what = "SWR" if sw.quantity == "swr" else "return loss"

@@ -21,7 +21,7 @@ import os
 import re
 import stat
 
-from ..base.errors import InputFileError, OptionError
+from ..base.errors import InputFileError, OptionError, field_ref
 
 ENV_MAX_INPUT = "DEEMBED_MAX_INPUT_SIZE"
 DEFAULT_MAX_INPUT_BYTES = 256 * 1024 ** 2
@@ -34,7 +34,7 @@ _MULT = {"": 1, "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9, "T": 1e12,
 _recorders: list = []
 
 
-def parse_size(text: str, where: str = "--max-input-size") -> int:
+def parse_size(text: str, where: str = "max_input_size") -> int:
     """A size in bytes from ``"256MiB"``, ``"1GB"``, ``"500kB"`` or a bare number of bytes.
 
     Raises
@@ -80,7 +80,7 @@ def _too_big(name: str, size: int | None, limit: int) -> InputFileError:
     what = f"is {format_size(size)}" if size is not None else "is larger than that"
     return InputFileError(name, f"{what}, above the input size limit of {format_size(limit)}; check that it "
                                 f"is the right file, or raise the limit with {ENV_MAX_INPUT}=SIZE (or "
-                                f"--max-input-size SIZE), e.g. 1GiB")
+                                f"{field_ref('max_input_size')} SIZE), e.g. 1GiB")
 
 
 def _os_error(name: str, exc: OSError) -> InputFileError:

@@ -33,9 +33,11 @@ from dataclasses import dataclass, field
 
 from . import cables as _cables
 from ..base.errors import InputFileError, OptionError
+from ..physics.budget import check_matched_loss
 from ..physics.line import C0_M_PER_S, Line, LossModel, MeasuredTwoPort, Section
+from ..physics.tolerance import default_tolerance
 from .tomlfile import load_toml
-from ..base.units import parse_delay, parse_length, parse_loss_point, parse_positive, parse_resistance
+from ..base.units import no_unit, parse_delay, parse_length, parse_loss_point, parse_positive, parse_resistance
 from .charfile import line_from_characterization
 from .touchstone import read_sweep
 
@@ -66,13 +68,17 @@ TOLERANCE_NAMES = ("length", "vf", "delay", "loss", "z0")
 
 
 def parse_tolerance_items(items, option: str = "tolerance") -> dict:
-    """``["length=0.2m", "loss=15%"]`` (or a dict) -> ``{"length": "0.2m", "loss": "15%"}``, names checked."""
+    """``["length=0.2m", "loss=15%"]`` (or a dict) -> ``{"length": "0.2m", "loss": "15%"}``, names checked.
+
+    An item may hold several, separated by commas (``"length=0.2m,vf=0.02"``), as every list is given."""
     out = {}
     if isinstance(items, dict):
         pairs = list(items.items())
     else:
         pairs = []
-        for it in items or ():
+        if isinstance(items, str):
+            items = [items]
+        for it in [t.strip() for item in items or () for t in str(item).split(",") if t.strip()]:
             if "=" not in str(it):
                 raise OptionError(option, f"{it!r}: write NAME=VALUE, e.g. length=0.2m, vf=0.02, loss=15%, z0=2ohm, "
                                           "delay=1ns")
@@ -113,10 +119,20 @@ def _plain(text, option, what, upper):
     return v
 
 
-def _tolerance(spec: SectionSpec, cable, z0, vf, length_m, delay_s, loss_from: str, option: str):
-    """The section's tolerance: defaults (the catalog's where it has them) with the user's figures on top."""
-    from ..physics.tolerance import default_tolerance
+TOLERANCE_EXAMPLES = {"length": "length=0.2m", "vf": "vf=0.02", "delay": "delay=1ns", "loss": "loss=15%",
+                      "z0": "z0=2ohm"}
+"""How each tolerance is written: with its unit (a per cent works for every one; the velocity factor, a pure
+number, also stands bare)."""
 
+_OHM = ("ohms", "ohm", "\u03c9", "\u2126")
+
+
+def _tolerance(spec: SectionSpec, cable, z0, vf, length_m, delay_s, loss_from: str, option: str):
+    """The section's tolerance: defaults (the catalog's where it has them) with the user's figures on top.
+
+    Every figure carries its unit, as every quantity does: a length in m or ft, a delay in ns, Z0 in ohm,
+    the loss in per cent, or any of them in per cent; the velocity factor has no unit, so a bare number (or a
+    per cent) is right for it. A bare number elsewhere is refused with the one hint for a missing unit."""
     by_delay = spec.delay is not None
     tol = default_tolerance(length_m=None if by_delay else length_m, vf=None if by_delay else vf,
                             delay_s=delay_s if by_delay else None, z0_ohm=z0, loss_from=loss_from,
@@ -128,6 +144,8 @@ def _tolerance(spec: SectionSpec, cable, z0, vf, length_m, delay_s, loss_from: s
     new = {}
     for k, text in given.items():
         frac = _fraction(text, option, k)
+        if frac is None and k != "vf" and _is_bare_number(text):
+            raise no_unit(f"{k}={text}", option, TOLERANCE_EXAMPLES[k] + (" or 1%" if k == "length" else ""))
         if k == "length":
             if by_delay or length_m is None:
                 raise OptionError(option, "a length tolerance needs a section given by its length; give delay=... "
@@ -144,11 +162,28 @@ def _tolerance(spec: SectionSpec, cable, z0, vf, length_m, delay_s, loss_from: s
                                           "and vf=... instead")
             new["delay_s"] = frac * delay_s if frac is not None else parse_delay(text, option)
         elif k == "loss":
-            new["loss_fraction"] = frac if frac is not None else _plain(text, option, "loss (a fraction)", 1.0)
+            if frac is None:
+                raise OptionError(option, f"loss tolerance {text!r}: give it as a per cent of the loss, e.g. loss=15%")
+            new["loss_fraction"] = frac
         elif k == "z0":
-            t = text.lower().removesuffix("ohm").strip()
-            new["z0_ohm"] = frac * z0 if frac is not None else _plain(t, option, "Z0 (ohm)", None)
+            if frac is not None:
+                new["z0_ohm"] = frac * z0
+                continue
+            t = text.strip()
+            unit = next((u for u in _OHM if t.lower().endswith(u)), None)
+            if unit is None:
+                raise OptionError(option, f"Z0 tolerance {text!r}: give it in ohm or as a per cent, e.g. z0=2ohm or "
+                                          "z0=4%")
+            new["z0_ohm"] = _plain(t[:-len(unit)].strip(), option, "Z0 (ohm)", None)
     return tol.with_values(**new) if new else tol
+
+
+def _is_bare_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
 
 
 def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Section, list[str]]:
@@ -184,6 +219,8 @@ def build_section(spec: SectionSpec, cat: dict, names: dict = _OPT) -> tuple[Sec
 
     if spec.loss:
         points = [parse_loss_point(p, names["loss"]) for p in spec.loss]
+        for db, hz in points:
+            check_matched_loss(db, names["loss"], hz)
         loss = LossModel.fit(points, names["loss"])
         misfit = LossModel.fit_misfit(loss, points)
         if misfit:
@@ -223,8 +260,7 @@ def line_from_options(*, cable=None, length=None, vf=None, delay=None, z0=None, 
                               tolerance_name=n["tolerance"])
     if not given:
         raise OptionError(n["line"], f"say which line to remove: {n['cable']} ID {n['length']} L, or "
-                                     f"{n['length']}/{n['vf']}/{n['loss']}, or {n['line']} FILE "
-                                     "(see deembed correct --help)")
+                                     f"{n['length']}/{n['vf']}/{n['loss']}, or {n['line']} FILE")
     cat = _cables.catalog(cables_file)
     tol = parse_tolerance_items(tolerances, n["tolerance"])
     sec, notes = build_section(SectionSpec(cable, length, vf, delay, z0, list(loss or []), tolerance=tol), cat,

@@ -40,7 +40,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..base.errors import InputFileError, OptionError
+from ..base.errors import InputFileError, OptionError, field_ref
 from ..physics.rf import Z_REF_OHM
 from .inputfile import read_input_bytes
 from .sweep import Sweep
@@ -62,6 +62,12 @@ _SETS = {
 COLUMNS_EXAMPLES = "freq:MHz,r,x or freq:Hz,re,im or freq:MHz,rl,phase or freq:kHz,swr or freq:MHz,rl"
 _NUMBER = re.compile(r"\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*\Z")
 _CTRL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f]")
+
+
+def named(option: str) -> str:
+    """How a message names where the mapping came from: a field (``columns``) as a field reference, which the
+    command line shows as its option; a place in a file (``antenna 2 (x): 'columns'``) as it is."""
+    return field_ref(option) if re.fullmatch(r"[a-z][a-z0-9_]*", option) else option
 
 
 @dataclass(frozen=True)
@@ -137,13 +143,13 @@ class MagnitudeSweep:
         return 1
 
 
-def parse_columns(text, option: str = "--columns") -> ColumnMap:
+def parse_columns(text, option: str = "columns") -> ColumnMap:
     """Read a column mapping such as ``freq:MHz,r,x`` (see the module docstring).
 
     Raises
     ------
     OptionError
-        Naming ``option`` and what would be right.
+        Naming ``option`` (the field ``columns``, or a place in a file) and what would be right.
     """
     if text is None or not str(text).strip():
         raise OptionError(option, f"name the table's columns in order, e.g. {COLUMNS_EXAMPLES}")
@@ -269,7 +275,7 @@ def _first_field(line: str) -> str:
     return parts[0] if parts else ""
 
 
-def read_table_sweep(path, columns, *, option: str = "--columns"):
+def read_table_sweep(path, columns, *, option: str = "columns"):
     """Read a sweep exported as a text table.
 
     Parameters
@@ -279,7 +285,8 @@ def read_table_sweep(path, columns, *, option: str = "--columns"):
     columns : str or ColumnMap
         The column mapping (see the module docstring).
     option : str
-        How the mapping was given, for messages (``--columns``, or a site file's ``columns`` key).
+        How the mapping was given, for messages: the field ``columns`` (the command line shows its option
+        ``--columns``), or a place in a file such as a site file's ``antenna 2 (x): 'columns'``.
 
     Returns
     -------
@@ -328,32 +335,34 @@ def read_table_sweep(path, columns, *, option: str = "--columns"):
     sep_name = {"\t": "tabs", ";": "semicolons", ",": "commas", " ": "spaces"}[sep]
     if nfields != len(cmap.kinds):
         raise InputFileError(name, f"the table has {nfields} column{'s' if nfields != 1 else ''} (separated by "
-                                   f"{sep_name}) but {option} {cmap.spec} names {len(cmap.kinds)}; name every "
+                                   f"{sep_name}) but {named(option)} {cmap.spec} names {len(cmap.kinds)}; name every "
                                    f"column in order, - to skip one", line=data_line)
 
     import pandas as pd
 
     body = text[pos:]
-    # one more name than columns: a trailing delimiter on any line lands there and must stay empty
+    # only the columns in use are read, so a skipped one may hold anything (text, units, empty); one more
+    # name than columns: a trailing delimiter on any line lands there and must stay empty
     ncols = nfields + (0 if sep == " " else 1)
+    used = [k for k, kind in enumerate(cmap.kinds) if kind is not None]
+    read = used + ([nfields] if ncols > nfields else [])
     try:
         frame = pd.read_csv(io.StringIO(body), sep=r"\s+" if sep == " " else sep, header=None,
-                            names=list(range(ncols)), dtype=float, skip_blank_lines=True,
+                            names=list(range(ncols)), usecols=read, dtype=float, skip_blank_lines=True,
                             decimal="," if dec_comma else ".", skipinitialspace=True, engine="c")
-        vals = frame.to_numpy(dtype=float)
+        vals = frame[read].to_numpy(dtype=float)
     except (ValueError, pd.errors.ParserError):
-        _locate_fault(body, data_line, sep, dec_comma, nfields, cmap, name, option)
+        vals = _slow_values(body, data_line, sep, dec_comma, nfields, cmap, name, option)[:, read]
     if ncols > nfields:
         if not np.isnan(vals[:, -1]).all():
-            _locate_fault(body, data_line, sep, dec_comma, nfields, cmap, name, option)
-        vals = vals[:, :nfields]
-    used = [k for k, kind in enumerate(cmap.kinds) if kind is not None]
-    bad = ~np.isfinite(vals[:, used])
-    if bad.any():
-        _locate_fault(body, data_line, sep, dec_comma, nfields, cmap, name, option)
+            vals = _slow_values(body, data_line, sep, dec_comma, nfields, cmap, name, option)[:, read]
+        vals = vals[:, :len(used)]
+    if not np.isfinite(vals).all():
+        vals = _slow_values(body, data_line, sep, dec_comma, nfields, cmap, name, option)[:, used]
+    where = {k: i for i, k in enumerate(used)}
 
     def col(kind):
-        return vals[:, cmap.index(kind)]
+        return vals[:, where[cmap.index(kind)]]
 
     def line_of(row):
         return _row_line(body, data_line, row)
@@ -427,8 +436,11 @@ def _row_line(body: str, data_line: int, row: int) -> int:
     return data_line
 
 
-def _locate_fault(body, data_line, sep, dec_comma, want, cmap, name, option) -> None:
-    """Find the first bad line and column of the data and raise its one-line error (slow path)."""
+def _slow_values(body, data_line, sep, dec_comma, want, cmap, name, option) -> np.ndarray:
+    """The table read line by line by our own rules (the slow path, when the fast reader met something it
+    could not take): the first bad line raises its one-line error naming the file, the line and the column;
+    otherwise the values, (rows, ``want``) with NaN in skipped columns."""
+    rows = []
     for i, line in enumerate(body.split("\n")):
         if not line.strip():
             continue
@@ -438,8 +450,9 @@ def _locate_fault(body, data_line, sep, dec_comma, want, cmap, name, option) -> 
             fields = fields[:-1]     # one trailing delimiter
         if len(fields) != want:
             raise InputFileError(name, f"this line has {len(fields)} column{'s' if len(fields) != 1 else ''} but "
-                                       f"{option} {cmap.spec} names {want}; every line needs the same columns",
+                                       f"{named(option)} {cmap.spec} names {want}; every line needs the same columns",
                                  line=lineno)
+        row = [math.nan] * want
         for k, (tok, kind) in enumerate(zip(fields, cmap.kinds)):
             if kind is None:
                 continue
@@ -455,4 +468,7 @@ def _locate_fault(body, data_line, sep, dec_comma, want, cmap, name, option) -> 
             if not math.isfinite(v):
                 raise InputFileError(name, f"column {k + 1} ({what}): {t} is too large to be a number; fix or "
                                            "remove the line", line=lineno)
-    raise InputFileError(name, "cannot read the table as numbers; check it against " + option, line=data_line)
+            row[k] = v
+        rows.append(row)
+    # one column more, empty, like the fast reader's column for a trailing delimiter
+    return np.array([r + [math.nan] for r in rows], dtype=float).reshape(len(rows), want + 1)

@@ -12,7 +12,49 @@ import numpy as np
 
 from ..base.errors import OptionError
 from ..base.results import Result
+from ..base.units import fmt_freq
 from .rf import gamma_mag_from_swr, return_loss_db, swr
+
+MAX_MATCHED_LOSS_DB = 1000.0
+"""Bound of a line's one-way matched loss, dB: a larger figure is refused wherever it appears (the budget's
+loss, a loss point of a line, the loss a line model reaches over a sweep's frequencies). At 1000 dB the two-way
+factor is 10^200, still inside floating point (about 10^308); a real feed line never comes near it, so a
+figure beyond it is a typing or unit mistake (a sweep's frequencies in Hz read as MHz, say). Our choice,
+common practice, no source."""
+
+MAX_SWR = 1e6
+"""Largest SWR the budget takes (|Gamma| within 2e-6 of 1): beyond it every power figure is that of a total
+reflection to the printed digits, and the total-loss formula divides by almost zero. Our choice, no source."""
+
+MAX_POWER_W = 1e9
+"""Largest power the budget takes, W (1 GW, far above any transmitter): a larger figure is a typing mistake."""
+
+
+def matched_loss_refusal(loss_db: float, at_hz: float | None = None) -> str:
+    """The one message for a matched loss above :data:`MAX_MATCHED_LOSS_DB` (``at_hz``: where a line model
+    reaches it)."""
+    where = f" at {fmt_freq(at_hz)}" if at_hz is not None else ""
+    return (f"a one-way matched loss of {loss_db:.4g} dB{where} is above the {MAX_MATCHED_LOSS_DB:g} dB any feed line "
+            "may have; check the loss figure, the line's length and the frequency unit")
+
+
+def check_matched_loss(loss_db, field: str = "loss", at_hz=None) -> None:
+    """Refuse a matched loss (a number, or an array with the frequencies ``at_hz``) above
+    :data:`MAX_MATCHED_LOSS_DB`, naming ``field``; NaN is left to the caller."""
+    ml = np.asarray(loss_db, dtype=float)
+    over = ml > MAX_MATCHED_LOSS_DB
+    if np.any(over):
+        k = int(np.argmax(np.where(over, ml, -np.inf)))
+        at = None if at_hz is None else float(np.asarray(at_hz, dtype=float).ravel()[k])
+        raise OptionError(field, matched_loss_refusal(float(ml.ravel()[k]), at))
+
+
+def check_power(power_w, field: str = "power") -> None:
+    """Refuse a power above :data:`MAX_POWER_W` (a number or an array), naming ``field``."""
+    p = np.asarray(power_w, dtype=float)
+    if np.any(p > MAX_POWER_W):
+        raise OptionError(field, f"{float(np.max(p)):g} W is above {MAX_POWER_W / 1e9:g} GW, more than any "
+                                 "transmitter; check the number and its unit (100W, 1.5kW)")
 
 
 def _out(x, scalar: bool):
@@ -22,7 +64,8 @@ def _out(x, scalar: bool):
 def _loss_factor(matched_loss_db, option="loss"):
     ml = np.asarray(matched_loss_db, dtype=float)
     if np.any(~np.isfinite(ml)) or np.any(ml < 0):
-        raise OptionError(option, "the matched line loss must be a finite number of dB, zero or more (e.g. 1.25dB)")
+        raise OptionError(option, "the matched line loss must be a finite number of dB, zero or more (e.g. 1.8dB)")
+    check_matched_loss(ml, option)
     return ml, 10.0 ** (ml / 10.0)
 
 
@@ -129,6 +172,7 @@ def power_budget(power_w, matched_loss_db, gamma_antenna) -> PowerBudget:
     p = np.asarray(power_w, dtype=float)
     if np.any(~np.isfinite(p)) or np.any(p <= 0):
         raise OptionError("power", "the power must be a positive number of watts (e.g. 100W)")
+    check_power(p)
     ml, a = _loss_factor(matched_loss_db)
     gl = np.abs(np.asarray(gamma_antenna, dtype=complex))
     gl = np.where(gl <= 1.0, gl, np.nan)
@@ -144,6 +188,9 @@ def power_budget(power_w, matched_loss_db, gamma_antenna) -> PowerBudget:
 
     with np.errstate(divide="ignore", invalid="ignore"):
         tl = 10.0 * np.log10((a ** 2 - gl2) / (a * (1.0 - gl2)))
+    # TL >= ML exactly ((a^2 - g^2) / (a (1 - g^2)) >= a for a >= 1); rounding can put it a hair below,
+    # which would print as -0.000 dB of additional loss
+    tl = np.where(tl < ml, ml, tl)
     delivered_m = p * 10.0 ** (-tl / 10.0)
 
     with np.errstate(divide="ignore"):

@@ -12,8 +12,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..physics import rf
+from ..analysis.summary import PLOT_BOUNDS
 from ..io.atomic import atomic_path
+from ..physics import rf
 
 ANALYZER_COLOUR = "#5b6b7a"
 FEEDPOINT_COLOUR = "#c0582b"
@@ -131,10 +132,8 @@ def finish(ax, ylabel: str, title: str) -> None:
               borderaxespad=0.0, handlelength=2.6)
 
 
-PLOT_BOUNDS = {"gamma": 3.0, "swr": 1e6, "db": 1e3, "ohm": 1e9}
-"""Values beyond these are left out of the plots (the trace breaks there) instead of being drawn: the
-Smith chart shows |Gamma| <= 1.08, the other axes far less than these, and coordinates near the float
-range (a sweep value of 1e200) make the rasterizer's clipping run for minutes."""
+# PLOT_BOUNDS (deembed.analysis.summary): values beyond them are left out of the plots (the trace breaks
+# there) instead of being drawn, and the summary's warnings say where.
 
 
 def shown(values, bound: float):
