@@ -65,6 +65,7 @@ OPTION_FOR_FIELD = {
     "max_shift": "--max-shift", "max_swr_rise": "--max-swr-rise", "max_gamma_change": "--max-gamma-change",
     "max_bw_loss": "--max-bw-loss", "max_loss_change": "--max-loss-change", "tolerance": "--tol",
     "columns": "--columns", "max_input_size": "--max-input-size",
+    "lowpass": "--lowpass", "resolve": "--resolve", "keep": "--keep", "remove": "--remove", "unit": "--unit",  # locate
 }
 """The library's field names (in :class:`~deembed.base.errors.DeembedError` messages) and the options that set
 them: the command line shows its option names in every error."""
