@@ -66,6 +66,8 @@ OPTION_FOR_FIELD = {
     "max_bw_loss": "--max-bw-loss", "max_loss_change": "--max-loss-change", "tolerance": "--tol",
     "columns": "--columns", "max_input_size": "--max-input-size",
     "lowpass": "--lowpass", "resolve": "--resolve", "keep": "--keep", "remove": "--remove", "unit": "--unit",  # locate
+    "max_loss_rise": "--max-loss-rise", "max_drift": "--max-drift", "time_limit": "--time-limit",  # trend, site
+    "date": "--date", "record": "--record", "no_record": "--no-record",                            # history
 }
 """The library's field names (in :class:`~deembed.base.errors.DeembedError` messages) and the options that set
 them: the command line shows its option names in every error."""
