@@ -61,6 +61,7 @@ _KEYWORD = re.compile(r"\s*\[([^\]]*)\]\s*(.*)\Z")
 _COMMENT_LINE = re.compile(r"^[ \t]*!(.*)$", re.M)
 _OPTION_IN_DATA = re.compile(r"^[ \t]*#.*$", re.M)
 _KEYWORD_IN_DATA = re.compile(r"^[ \t]*\[", re.M)
+_KEYWORD_IN_DATA_B = re.compile(rb"^[ \t]*\[", re.M)
 _SNP = re.compile(r"\.s(\d+)p\Z", re.I)
 _FIRST_TOKEN = re.compile(r"^[ \t]*([^ \t\n]+)", re.M)
 
@@ -147,8 +148,8 @@ def read_sweep(path, *, port: int | None = None, expect_ports: int | None = 1) -
     if port is not None:
         if isinstance(port, bool) or not isinstance(port, (int, np.integer)) or port < 1:
             raise OptionError("port", f"{port!r} is not a port number; use 1, 2, ...")
-    text = _read_text(Path(path), name)
-    hdr, data_start, data_line, data_end = _parse_header(text, name)
+    text = _read_text(Path(path), name)  # str, or bytes for a plain ASCII file (no text copy of it)
+    hdr, data_start, data_line, data_end = _parse_header_of(text, name)
     p = hdr.nports
     if hdr.version == 1:
         m = _SNP.search(name)
@@ -193,9 +194,11 @@ def read_sweep(path, *, port: int | None = None, expect_ports: int | None = 1) -
                  comments=tuple(hdr.comments), notes=tuple(hdr.notes))
 
 
-def _read_text(p: Path, name: str) -> str:
+def _read_text(p: Path, name: str) -> str | bytes:
+    """The file's text with ``\n`` line ends: as bytes when it is all ASCII (then a byte offset is a character
+    offset, and each chunk is decoded when it is parsed, so no str copy of a big file is made), else as str."""
     data = read_input_bytes(p, name)  # a regular file within the size limit, or a clear refusal
-    if not data.strip():
+    if not data or data.isspace():  # (not data.strip(), which copies the file)
         raise InputFileError(name, "the file is empty; export the sweep again as Touchstone (.s1p)")
     binary = ("this looks like a binary file, not a Touchstone text file; export the sweep as "
               "Touchstone (.s1p/.s2p text)")
@@ -211,6 +214,10 @@ def _read_text(p: Path, name: str) -> str:
         ctrl = sum(sample.count(bytes([c])) for c in list(range(0, 9)) + [11, 12] + list(range(14, 32)) + [127])
         if ctrl > 0.1 * len(sample):
             raise InputFileError(name, binary)
+        if data.isascii():
+            if b"\r" in data:
+                data = data.replace(b"\r\n", b"\n").replace(b"\r", b"\n")
+            return data
         if data.startswith(codecs.BOM_UTF8):
             data = data[len(codecs.BOM_UTF8):]
         try:
@@ -221,6 +228,32 @@ def _read_text(p: Path, name: str) -> str:
     if "\r" in text:
         text = text.replace("\r\n", "\n").replace("\r", "\n")
     return text
+
+
+HEAD_BYTES = 1 << 16
+"""The part of an ASCII file decoded to read its header; a header that runs past it is read from the whole."""
+
+
+def _parse_header_of(text, name: str):
+    """:func:`_parse_header` of the text from :func:`_read_text`; for bytes, of the first lines decoded, with
+    the data's end found in the whole file."""
+    if isinstance(text, str):
+        return _parse_header(text, name)
+    cut = text.rfind(b"\n", 0, HEAD_BYTES) + 1  # whole lines only
+    got = _parse_header(text[:cut].decode("ascii"), name, complete=False) if 0 < cut < len(text) else None
+    if got is None:  # no data line among them (or a small file): the whole text
+        return _parse_header(text.decode("ascii"), name)
+    hdr, data_start, data_line, _ = got
+    return hdr, data_start, data_line, _data_end(text, data_start) if hdr.version == 2 else len(text)
+
+
+def _chunk(text, a: int, b: int) -> str:
+    """``text[a:b]`` as str (an ASCII bytes text is decoded here, one chunk at a time)."""
+    return text[a:b] if isinstance(text, str) else text[a:b].decode("ascii")
+
+
+def _nl(text):
+    return "\n" if isinstance(text, str) else b"\n"
 
 
 def _lines(text: str, start: int = 0):
@@ -285,8 +318,10 @@ def _parse_options(content: str, lineno: int, name: str) -> _Options:
     return opts
 
 
-def _parse_header(text: str, name: str):
-    """Read everything before the data. Returns (header, data start, its line number, data end)."""
+def _parse_header(text: str, name: str, complete: bool = True):
+    """Read everything before the data. Returns (header, data start, its line number, data end).
+
+    ``complete=False``: ``text`` is the file's first lines only; None when the data does not start in them."""
     hdr = _Header()
     first = True
     lineno = 0
@@ -397,6 +432,8 @@ def _parse_header(text: str, name: str):
             hdr.opts = _Options()
             hdr.notes.append(_DEFAULTS_NOTE)
         return hdr, pos, lineno, len(text)
+    if not complete:
+        return None
     if pending_ref is not None:
         _finish_reference(hdr, pending_ref, name, final=True)
     if hdr.version == 2:
@@ -451,8 +488,8 @@ def _check_v2_before_data(hdr: _Header, name: str, lineno: int) -> None:
                          f"the keyword was followed")
 
 
-def _data_end(text: str, start: int) -> int:
-    m = _KEYWORD_IN_DATA.search(text, start)
+def _data_end(text, start: int) -> int:
+    m = (_KEYWORD_IN_DATA if isinstance(text, str) else _KEYWORD_IN_DATA_B).search(text, start)
     return m.start() if m else len(text)
 
 
@@ -487,12 +524,13 @@ def _parse_region(text, start, end, first_line, hdr, ncol, per_line, p, name):
     several lines). Returns (values (n, ncol) in the file's units, frequencies in Hz, line of each record)."""
     noise_ok = hdr.version == 1 and p == 2
     exp = hdr.opts.unit_exp
+    nl = _nl(text)
     if per_line:
-        cap = text.count("\n", start, end) + 1  # at most one record per line
+        cap = text.count(nl, start, end) + 1  # at most one record per line
         bounds = []
         a = start
         while a < end:
-            b = text.find("\n", min(a + CHUNK_CHARS, end), end)
+            b = text.find(nl, min(a + CHUNK_CHARS, end), end)
             b = end if b < 0 else b + 1
             bounds.append((a, b))
             a = b
@@ -503,7 +541,7 @@ def _parse_region(text, start, end, first_line, hdr, ncol, per_line, p, name):
     k = 0
     line = first_line
     for a, b in bounds:
-        region = _clean_region(text[a:b], line, hdr, name)
+        region = _clean_region(_chunk(text, a, b), line, hdr, name)
         if region.strip():
             parsed = _parse_fast(region, ncol, per_line)
             if parsed is not None:
@@ -522,13 +560,13 @@ def _parse_region(text, start, end, first_line, hdr, ncol, per_line, p, name):
                 if vals is None:
                     vals = np.empty((cap, ncol))
                     freq = np.empty(cap)
-                    rec = np.empty(cap, dtype=np.int64)
+                    rec = np.empty(cap, dtype=np.int32)  # line numbers: a file within the size limit has < 2**31
                 m = v.shape[0]
                 vals[k:k + m], freq[k:k + m], rec[k:k + m] = v, f, r
                 k += m
             if stopped:
                 break
-        line += text.count("\n", a, b)
+        line += text.count(nl, a, b)
     if vals is None:
         return np.empty((0, ncol)), np.empty(0), np.empty(0, dtype=np.int64)
     return vals[:k], freq[:k], rec[:k]
@@ -719,11 +757,11 @@ def _check_after_data(text: str, data_end: int, hdr: _Header, name: str, nrec: i
                              line=hdr.nfreq_line)
     saw_end = False
     skipping = None
-    lineno = text.count("\n", 0, data_end) if data_end < len(text) else None
+    lineno = text.count(_nl(text), 0, data_end) if data_end < len(text) else None
     if lineno is None:
         hdr.notes.append("no [End] keyword at the end of the version 2 file")
         return
-    for _pos, _e, raw in _lines(text, data_end):
+    for _pos, _e, raw in _lines(_chunk(text, data_end, len(text))):
         lineno += 1
         content = raw.split("!", 1)[0].strip()
         if not content:
