@@ -110,6 +110,12 @@ def budget_columns(corr, power_w: float) -> dict:
 
 def analyse(sweep, line, opts: Options):
     """Correct a sweep and work out everything the outputs show. Returns (correction, summary, table)."""
+    return _analyse(sweep, line, opts)[:3]
+
+
+def _analyse(sweep, line, opts: Options):
+    """:func:`analyse`, and the look along the line's (trace, summary) for its plot when plots are asked for
+    (worked out once per run; None without plots, so that a big sweep's trace is not kept while writing)."""
     corr = correct(sweep, line)
     check_finite(corr)
     a = assess(corr.freq_hz, corr.gamma_analyzer, corr.gamma_feedpoint, line, thresholds=opts.thresholds,
@@ -118,7 +124,9 @@ def analyse(sweep, line, opts: Options):
                         sweep_info={"comments": list(getattr(sweep, "comments", ()))}, assessment=a)
     budget = budget_columns(corr, opts.power_w) if opts.power_w else None
     table = table_columns(corr, budget, swr_band=a.swr_band)
-    summary["along_the_line"] = for_correction(corr.freq_hz, corr.gamma_analyzer, line)[0]
+    summary["along_the_line"], along_data = for_correction(corr.freq_hz, corr.gamma_analyzer, line)
+    if not opts.plots:
+        along_data = None
     if opts.target_hz is not None:
         summary["feedpoint"]["trim"] = trim_for(a, summary, opts.target_hz)
     if opts.power_w:
@@ -132,7 +140,7 @@ def analyse(sweep, line, opts: Options):
             "feedpoint": band_check(corr.freq_hz, corr.gamma_feedpoint, bands, limit),
             "analyzer": band_check(corr.freq_hz, corr.gamma_analyzer, bands, limit),
         }
-    return corr, summary, table
+    return corr, summary, table, along_data
 
 
 def trim_for(a, summary: dict, target_hz: float):
@@ -189,8 +197,9 @@ def budget_summary(corr, budget: dict, power_w: float) -> dict:
     }
 
 
-def write_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options) -> dict:
-    """Write every output atomically; returns the paths written."""
+def write_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options, along_data=False) -> dict:
+    """Write every output atomically; returns the paths written. ``along_data``: the look along the line for
+    its plot as :func:`_analyse` gave it (by default worked out here)."""
 
     written = {}
     comments = [f"deembed: feedpoint reflection of {os.path.basename(corr.source)}",
@@ -201,7 +210,7 @@ def write_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options) 
     write_table_csv(table, paths["table_csv"])
     written["table_csv"] = paths["table_csv"]
     if opts.plots:
-        written.update(write_plots(corr, table, paths, opts))
+        written.update(write_plots(corr, table, paths, opts, along_data))
     summary["outputs"] = {k: os.path.basename(v) for k, v in written.items()}
     if opts.html:
 
@@ -226,10 +235,11 @@ def write_table_csv(table: dict, path: str) -> None:
             write_csv_chunks(fh, table.keys(), table_blocks(table), float_format="%.9g")
 
 
-def write_plots(corr, table: dict, paths: dict, opts: Options) -> dict:
+def write_plots(corr, table: dict, paths: dict, opts: Options, along_data=False) -> dict:
 
     figs = plots.correction_plots(corr, table, opts.thresholds)
-    along_info, along_data = for_correction(corr.freq_hz, corr.gamma_analyzer, corr.line)
+    if along_data is False:  # not worked out by the caller
+        along_data = for_correction(corr.freq_hz, corr.gamma_analyzer, corr.line)[1]
     if along_data is not None:
         trace, along_summary = along_data
         figs["along_png"] = along_plot(trace, along_summary, "m", described_m=along_summary["length"] and
@@ -258,12 +268,15 @@ def correct_file(sweep_path: str, line, out_dir: str, opts: Options | None = Non
     sweep = read_any_sweep(sweep_path, opts.columns, port=opts.port, expect_ports=1, option=opts.columns_option)
     inputs = [sweep_path, opts.bands_file, *line_inputs, *line_sources(line)]
     refuse_overwriting_inputs(output_paths(sweep_path, out_dir), inputs)
-    magnitude = isinstance(sweep, MagnitudeSweep)
-    if magnitude:
+    if isinstance(sweep, MagnitudeSweep):
         corr, summary, table = analyse_magnitude(sweep, line, opts)
+        write = write_magnitude_outputs
     else:
-        corr, summary, table = analyse(sweep, line, opts)
-    write = write_magnitude_outputs if magnitude else write_outputs
+        corr, summary, table, along_data = _analyse(sweep, line, opts)
+
+        def write(corr, summary, table, paths, opts):
+            return write_outputs(corr, summary, table, paths, opts, along_data)
+    del sweep  # the correction holds what the outputs need
     if staged:
         os.makedirs(out_dir, exist_ok=True)
         return corr, summary, write(corr, summary, table, output_paths(sweep_path, out_dir), opts)
