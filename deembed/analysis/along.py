@@ -13,6 +13,7 @@ import numpy as np
 
 from ..base.errors import InputFileError, OptionError
 from ..base.units import parse_length
+from ..physics import runmap as rm
 from ..physics import timedomain as td
 from . import reflections as refl_mod
 
@@ -35,18 +36,21 @@ class AlongOptions:
     plots: bool = True
 
 
-def transform(freq_hz, gamma, opts: AlongOptions, source: str = "the sweep"):
-    """(grid, response) for a sweep, or a one-line error naming the file or ``--lowpass``."""
+def transform(freq_hz, gamma, opts: AlongOptions, source: str = "the sweep", reach_s: float | None = None):
+    """(grid, response) for a sweep, or a one-line error naming the file or the ``lowpass`` choice.
+
+    ``reach_s`` (round trip): how far along the line the band-pass trace is needed; on a dense sweep only that
+    first part of the alias-free period is worked out (:func:`~deembed.physics.timedomain.bandpass`)."""
     grid, why = td.grid_of(freq_hz)
     if grid is None:
         raise InputFileError(source, f"cannot be looked at along the line: {why}")
     if opts.lowpass:
         ok, why = td.lowpass_check(grid)
         if not ok:
-            raise OptionError("--lowpass", f"{source}: no low-pass view: {why}; for one, {td.lowpass_hint(grid)}. "
-                                           "Without --lowpass the band-pass view works on this sweep")
+            raise OptionError("lowpass", f"{source}: no low-pass view: {why}; for one, {td.lowpass_hint(grid)}. "
+                                         "Without the low-pass view the band-pass view works on this sweep")
         return grid, td.lowpass(gamma, grid, opts.beta, opts.pad)
-    return grid, td.bandpass(gamma, grid, opts.beta, opts.pad)
+    return grid, td.bandpass(gamma, grid, opts.beta, opts.pad, reach_s=reach_s)
 
 
 def _one_way(tau_s, runmap):
@@ -56,18 +60,21 @@ def _one_way(tau_s, runmap):
     return runmap.distance_m(tau_s)
 
 
-def along(freq_hz, gamma, view, opts: AlongOptions, source: str = "the sweep") -> tuple[dict, dict]:
+def along(freq_hz, gamma, view, opts: AlongOptions, source: str = "the sweep",
+          reach_s: float | None = None) -> tuple[dict, dict]:
     """The look along the line: (summary, trace). Pure computation; nothing is written.
 
     ``view`` carries what is known of the line: ``runmap`` (a :class:`~deembed.physics.runmap.RunMap` or
-    None), ``described_length_m`` and ``notes`` (``jobs.locate.LineView``).
+    None), ``described_length_m`` and ``notes`` (``jobs.locate.LineView``). ``reach_s`` (round trip, band-pass
+    only): look no farther than that on a dense sweep (:func:`transform`); the figures (resolution, alias-free
+    range) are the sweep's own either way.
     """
-    grid, resp = transform(freq_hz, gamma, opts, source)
+    grid, resp = transform(freq_hz, gamma, opts, source, reach_s)
     m = view.runmap
     found = refl_mod.reflections(resp, grid, m, opts.threshold_db, opts.floor_db, opts.pad, opts.beta)
     period = td.alias_free_s(grid)
     width_rt = td.pulse_width_s(grid, opts.beta, resp.mode, opts.pad)
-    shown = resp.t_s < period - 2 * width_rt
+    shown = resp.t_s < min(period, resp.covers_s) - 2 * width_rt
     tau = resp.t_s[shown] / 2
     dist = _one_way(tau, m)
     seen = resp.magnitude[shown]
@@ -76,7 +83,8 @@ def along(freq_hz, gamma, view, opts: AlongOptions, source: str = "the sweep") -
     if m is not None and m.has_loss:
         coarse = np.linspace(0.0, tau[-1], 257)
         factor = td.two_way_factor(resp.weights, grid.freq_hz, m.loss_np, coarse)
-        trace["at_point"] = seen / np.interp(tau, coarse, factor)
+        with np.errstate(divide="ignore", over="ignore", invalid="ignore"):  # beyond all reason: inf, not a warning
+            trace["at_point"] = seen / np.interp(tau, coarse, factor)
     if resp.mode == "low-pass":
         trace["impulse"] = resp.amplitude[shown]
         step = resp.step[shown]
@@ -89,16 +97,16 @@ def along(freq_hz, gamma, view, opts: AlongOptions, source: str = "the sweep") -
     lp_ok, lp_why = td.lowpass_check(grid)
     summary = {
         "sweep": os.path.basename(source),
-        "points": grid.n, "start_hz": grid.start_hz, "stop_hz": grid.stop_hz, "step_hz": grid.step_hz,
+        "points": grid.n, "low_hz": grid.low_hz, "high_hz": grid.high_hz, "step_hz": grid.step_hz,
         "mode": resp.mode,
         "window": {"kind": "kaiser" if opts.beta > 0 else "none", "beta": opts.beta},
         "padding": opts.pad, "transform_points": int(resp.t_s.size),
         "line": m.describe() if m is not None else None,
         "velocity_factor_known": bool(m is not None and m.knows_distance),
-        "resolution_m": m_at(m, 0.0, res_s),
+        "resolution_m": refl_mod.span_m(m, res_s),
         "resolution_ns": res_s * 1e9,
-        "resolution_formula": "v/(2 B), B = stop - start" if resp.mode == "band-pass" else "v/(4 f_stop)",
-        "trace_width_m": m_at(m, 0.0, width_rt / 2),
+        "resolution_formula": "v/(2 B), B = high - low" if resp.mode == "band-pass" else "v/(4 f_high)",
+        "trace_width_m": refl_mod.span_m(m, width_rt / 2),
         "trace_width_ns": width_rt / 2 * 1e9,
         "alias_free_range_m": m_at(m, 0.0, alias_s),
         "alias_free_range_ns": alias_s * 1e9,
@@ -125,16 +133,16 @@ def along(freq_hz, gamma, view, opts: AlongOptions, source: str = "the sweep") -
                          f"{ln['far_end_one_way_delay_ns']:.1f} ns one way means a velocity factor of {vf_est:.3f} "
                          f"(+/- {vf_est * res_s / (ln['far_end_one_way_delay_ns'] * 1e-9):.3f} from the resolution)")
     if m is not None and m.delay_s:
-        ok, text = refl_mod.resolves_line(grid, m.delay_s, length_m=m.length_m)
+        ok, text = refl_mod.resolves_line(grid, m, resp.mode)
         summary["resolves_line"] = ok
         if not ok:
             summary["notes"].append(text)
     if opts.resolve:
-        want = parse_length(opts.resolve, "--resolve", allow_zero=False)
+        want = parse_length(opts.resolve, "resolve", allow_zero=False)
         vf = _vf_for_needs(m)
         if vf is None:
-            raise OptionError("--resolve", "the sweep needed for a distance depends on the velocity factor; give "
-                                           "--vf or --cable")
+            raise OptionError("resolve", "the sweep needed for a distance depends on the velocity factor; give "
+                                         "`vf` or `cable`")
         reach = max(filter(None, [summary["far_end_m"], view.described_length_m]), default=None)
         summary["sweep_needed"] = refl_mod.sweep_needed(want, vf, 1.5 * reach if reach else None)
     return summary, trace
@@ -168,11 +176,20 @@ def _gamma_of(corr):
 
 
 def _line_map(line):
-    from ..physics import runmap as rm
-
     if line is None:
         return None, "no line description"
     return rm.from_line(line)
+
+
+ALONG_REACH = 8
+"""``correct`` and ``compare`` look along the line out to this many times the described line's one-way delay
+(the plot shows 1.6 times it; echoes between the ends fall within a few times it). A dense sweep, whose
+alias-free range reaches far beyond that, is transformed only that far (our choice, no source)."""
+
+
+def line_reach_s(m) -> float:
+    """The round-trip time ``correct`` and ``compare`` need along a line of run map ``m``."""
+    return 2.0 * ALONG_REACH * m.delay_s
 
 
 def auto_pad(n: int) -> int:
@@ -190,10 +207,11 @@ def for_correction(freq_hz, gamma, line, pad: int | None = None) -> tuple[dict, 
     grid, why = td.grid_of(freq_hz)
     if grid is None:
         return {"resolves_line": False, "text": f"no look along the line: {_sweep_why(why)}"}, None
-    ok, text = refl_mod.resolves_line(grid, m.delay_s, length_m=m.length_m)
+    ok, text = refl_mod.resolves_line(grid, m)
     if not ok:
         return {"resolves_line": False, "text": text}, None
-    summary, trace = along(freq_hz, gamma, _View(m, m.length_m, []), AlongOptions(pad=pad or auto_pad(grid.n)))
+    summary, trace = along(freq_hz, gamma, _View(m, m.length_m, []), AlongOptions(pad=pad or auto_pad(grid.n)),
+                           reach_s=line_reach_s(m))
     out = {"resolves_line": True, "text": text}
     for k in ("mode", "resolution_m", "resolution_ns", "alias_free_range_m", "far_end_m", "compensated",
               "length", "reflections"):
@@ -212,7 +230,7 @@ def _sweep_why(why: str, name: str = "sweep") -> str:
 
 
 def _same_grid(a: td.Grid, b: td.Grid) -> bool:
-    return a.n == b.n and abs(a.start_hz - b.start_hz) <= 1e-6 * a.step_hz and \
+    return a.n == b.n and abs(a.low_hz - b.low_hz) <= 1e-6 * a.step_hz and \
         abs(a.step_hz - b.step_hz) <= 1e-9 * a.step_hz
 
 
@@ -235,18 +253,19 @@ def compare_along(before, after, pad: int | None = None) -> tuple[dict, tuple | 
         grid, why = td.grid_of(corr.freq_hz)
         if grid is None:
             return {"shown": False, "text": f"no look along the line: {_sweep_why(why, name + ' sweep')}"}, None
-        ok, text = refl_mod.resolves_line(grid, m.delay_s, length_m=m.length_m)
+        ok, text = refl_mod.resolves_line(grid, m)
         if not ok:
             return {"shown": False, "text": f"the {name} sweep: {text}"}, None
         grids.append(grid)
     view = _View(m, m.length_m, [])
     pad = pad or auto_pad(max(g.n for g in grids))
     opts = AlongOptions(pad=pad)
-    s_b, tr_b = along(before.freq_hz, _gamma_of(before), view, opts)
-    s_a, tr_a = along(after.freq_hz, _gamma_of(after), view, opts)
+    reach = line_reach_s(m)
+    s_b, tr_b = along(before.freq_hz, _gamma_of(before), view, opts, reach_s=reach)
+    s_a, tr_a = along(after.freq_hz, _gamma_of(after), view, opts, reach_s=reach)
     first_tau = None
     if _same_grid(*grids):
-        diff = td.bandpass(_gamma_of(after) - _gamma_of(before), grids[1], opts.beta, pad)
+        diff = td.bandpass(_gamma_of(after) - _gamma_of(before), grids[1], opts.beta, pad, reach_s=reach)
         shown = diff.t_s < tr_a["one_way_delay_s"][-1] * 2
         mag = diff.magnitude[shown]
         i = int(np.argmax(mag))

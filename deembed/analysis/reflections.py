@@ -10,6 +10,12 @@ Peak rules (our choices, common practice, no source):
 * a peak is a local maximum of the trace's magnitude at least ``threshold_db`` below the strongest
   (default 30 dB, inside the default window's side-lobe level of about 44 dB) and, when a floor is
   given, with a seen return loss at or below ``floor_db``;
+* a peak must stand out: its prominence, the height in dB above the higher of the two valleys that part it
+  from higher parts of the trace (or from the trace's ends where there is none, as
+  ``scipy.signal.peak_prominences`` defines it; a peak at the first sample is judged by its inner side alone),
+  must be at least :data:`PROMINENCE_DB` (3 dB). A shoulder on the flank or tail of a larger peak (a bump
+  on the far end's tail, a ripple on a main lobe) has a valley a fraction of a dB below it and is not listed;
+  two reflections far enough apart to be told apart have a valley between them deeper than that;
 * peaks closer together than half the trace's own width are one reflection (the stronger one kept);
 * its position and height come from a parabola through the three samples around the maximum of the
   magnitude in dB (the main lobe is close to a Gaussian, whose logarithm is a parabola);
@@ -24,9 +30,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..base.units import fmt_freq
 from ..physics import timedomain as td
 
 DEFAULT_THRESHOLD_DB = 30.0
+PROMINENCE_DB = 3.0  # a peak stands at least this far above the valley that parts it from higher ground
 NEAR_TOTAL = 0.7  # |Gamma| at the point above which a far end is called an open or short
 
 
@@ -100,10 +108,11 @@ class Findings:
 
 
 def find_peaks(t_s, mag, width_s: float, threshold_db: float = DEFAULT_THRESHOLD_DB, floor_gamma: float = 0.0,
-               t_max_s: float | None = None):
+               t_max_s: float | None = None, prominence_db: float = PROMINENCE_DB):
     """Peaks of a magnitude trace: arrays (time, height, half-height width), time order.
 
-    Vectorised: local maxima by neighbour comparison, refined by a parabola in dB.
+    Vectorised: local maxima by neighbour comparison, kept when at least ``prominence_db`` prominent
+    (:func:`prominence_db`), refined by a parabola in dB.
     """
     mag = np.asarray(mag, dtype=float)
     t = np.asarray(t_s, dtype=float)
@@ -124,6 +133,9 @@ def find_peaks(t_s, mag, width_s: float, threshold_db: float = DEFAULT_THRESHOLD
         idx = np.concatenate([[0], idx])
     if idx.size == 0:
         return np.empty(0), np.empty(0), np.empty(0)
+    db = 20 * np.log10(np.maximum(mag, 1e-300))
+    if prominence_db > 0:
+        idx = idx[prominence(db[:stop], idx) >= prominence_db]
     # merge peaks closer than half a width: keep the strongest of each cluster (greedy, strongest first)
     order = idx[np.argsort(-mm[idx])]
     min_sep = max(int(round(0.5 * width_s / dt)), 1)
@@ -133,7 +145,6 @@ def find_peaks(t_s, mag, width_s: float, threshold_db: float = DEFAULT_THRESHOLD
             kept.append(i)
     idx = np.sort(np.array(kept, dtype=int))
     # parabolic refinement in dB (edge samples are left as they are)
-    db = 20 * np.log10(np.maximum(mag, 1e-300))
     i0 = np.clip(idx, 1, n - 2)
     y0, y1, y2 = db[i0 - 1], db[i0], db[i0 + 1]
     den = y0 - 2 * y1 + y2
@@ -146,6 +157,30 @@ def find_peaks(t_s, mag, width_s: float, threshold_db: float = DEFAULT_THRESHOLD
     heights = 10 ** (peak_db / 20)
     widths = np.array([_half_width(mag, i, dt) for i in idx])
     return times, heights, widths
+
+
+def prominence(y, idx) -> np.ndarray:
+    """Topographic prominence of the peaks ``idx`` of the trace ``y`` (dB in, dB out).
+
+    On each side, the lowest value between the peak and the nearest sample higher than it (or the trace's
+    end when there is none); the prominence is the peak's height above the higher of the two (the definition
+    of ``scipy.signal.peak_prominences``). A peak at the first or last sample has one side, and that one counts.
+    One peak at a time (there are a handful), each a pass over the trace.
+    """
+    y = np.asarray(y, dtype=float)
+    n = y.size
+    out = np.empty(len(idx))
+    for k, i in enumerate(np.asarray(idx, dtype=int)):
+        top = y[i]
+        bases = []
+        if i > 0:
+            higher = np.flatnonzero(y[:i] > top)
+            bases.append(y[(higher[-1] + 1 if higher.size else 0):i].min())
+        if i < n - 1:
+            higher = np.flatnonzero(y[i + 1:] > top)
+            bases.append(y[i + 1:(i + 1 + higher[0] if higher.size else n)].min())
+        out[k] = top - max(bases) if bases else np.inf
+    return out
 
 
 def _half_width(mag, i: int, dt: float) -> float:
@@ -174,11 +209,10 @@ def reflections(resp: td.Response, grid: td.Grid, runmap=None, threshold_db: flo
                 ) -> Findings:
     """The reflections along the line, the far end and the line's length (see the module notes)."""
     width_rt = td.pulse_width_s(grid, beta, resp.mode, pad)
-    period = td.alias_free_s(grid)
     guard = 2 * width_rt
     floor_gamma = 10 ** (-floor_db / 20) if floor_db is not None else 0.0
     times, heights, widths = find_peaks(resp.t_s, resp.magnitude, width_rt, threshold_db, floor_gamma,
-                                        t_max_s=period - guard)
+                                        t_max_s=min(td.alias_free_s(grid), resp.covers_s) - guard)
     tau = times / 2
     dist = runmap.distance_m(tau) if runmap is not None and len(tau) else None
     at_point = None
@@ -245,11 +279,7 @@ def length_estimate(refl, grid: td.Grid, mode: str, runmap=None) -> LengthEstima
     """The far end's distance (or delay) with the resolution, against the description when there is one."""
     res_s = td.resolution_s(grid, mode) / 2  # one way
     fe = next((r for r in refl if r.far_end), None)
-    res_m = None
-    if runmap is not None and runmap.knows_distance:
-        at = fe.delay_s if fe else 0.0
-        a, b = runmap.distance_m(np.array([at, at + res_s]))
-        res_m = float(b - a)
+    res_m = span_m(runmap, res_s)
     est = LengthEstimate(fe.distance_m if fe else None, fe.delay_s if fe else None, res_m, res_s)
     if runmap is not None:
         est.described_m = runmap.length_m
@@ -277,7 +307,7 @@ def length_estimate(refl, grid: td.Grid, mode: str, runmap=None) -> LengthEstima
         est.verdict = f"the sweep puts the far end at {est.far_end_m:.1f} m (resolution {res_m:.2f} m)"
     else:
         est.verdict = (f"the sweep puts the far end at {fe.delay_s * 1e9:.1f} ns one way (resolution "
-                       f"{res_s * 1e9:.2f} ns); give --vf for a distance")
+                       f"{res_s * 1e9:.2f} ns); a velocity factor would give a distance")
     return est
 
 
@@ -291,7 +321,7 @@ def sweep_needed(resolve_m: float, vf: float, reach_m: float | None, mode: str =
     v = vf * td.C0_M_PER_S
     res_s = 2 * resolve_m / v
     out = {"resolve_m": resolve_m, "span_hz": td.span_for_resolution_hz(res_s, "band-pass"),
-           "lowpass_stop_hz": td.span_for_resolution_hz(res_s, "low-pass")}
+           "lowpass_high_hz": td.span_for_resolution_hz(res_s, "low-pass")}
     if reach_m:
         out["reach_m"] = reach_m
         out["max_step_hz"] = td.step_for_range_hz(2 * reach_m / v)
@@ -302,25 +332,44 @@ RESOLVE_FRACTION = 5      # a sweep "resolves the line" when its resolution is a
 REACH_MARGIN = 1.5        # ... and its alias-free range reaches 1.5 times the line's length
 
 
-def resolves_line(grid: td.Grid, delay_s: float | None, vf: float | None = None,
-                  length_m: float | None = None) -> tuple[bool, str]:
-    """Whether a sweep can show where along a line of one-way ``delay_s`` reflections sit, and if not, a
-    one-line statement of the sweep that would (our criterion: resolution at most a fifth of the line,
-    alias-free range at least 1.5 times it; common practice, no source)."""
+def span_m(runmap, span_s: float) -> float | None:
+    """A one-way delay span (a resolution, a trace width) in metres on this line, or None when no velocity
+    factor is known.
+
+    One conversion for every such figure (``locate``'s resolution, ``correct``'s "along the line" note, the
+    length estimate), so the same sweep and line print the same resolution everywhere: at the described line's
+    mean velocity, its length over its one-way delay, when the description gives both (a line of sections of
+    different velocity factor: a jumper and a main run); otherwise through the run map from the analyzer end
+    (one velocity factor: ``--vf`` or a catalog cable).
+    """
+    if runmap is None or not runmap.knows_distance:
+        return None
+    if runmap.length_m and runmap.delay_s:
+        return float(span_s * runmap.length_m / runmap.delay_s)
+    a, b = runmap.distance_m(np.array([0.0, span_s]))
+    return float(b - a)
+
+
+def resolves_line(grid: td.Grid, runmap, mode: str = "band-pass") -> tuple[bool, str]:
+    """Whether a sweep can show where along a line reflections sit, and if not, a one-line statement of the
+    sweep that would (our criterion: resolution at most a fifth of the line's one-way delay, alias-free range
+    at least 1.5 times it; common practice, no source). The resolution is the transform's (``mode``) converted
+    to metres by :func:`span_m`, the same figure ``locate`` prints."""
+    delay_s = runmap.delay_s if runmap is not None else None
     if not delay_s or delay_s <= 0:
         return False, "the line's delay is unknown, so whether this sweep resolves it cannot be said"
-    res = td.resolution_s(grid) / 2
+    res = td.resolution_s(grid, mode) / 2
     reach = td.alias_free_s(grid) / 2
     ok = res <= delay_s / RESOLVE_FRACTION and reach >= REACH_MARGIN * delay_s
     need_span = td.span_for_resolution_hz(2 * delay_s / RESOLVE_FRACTION)
     need_step = td.step_for_range_hz(2 * REACH_MARGIN * delay_s)
-    if length_m is not None:
-        scale = length_m / delay_s
-        where = f"{res * scale:.2f} m resolution over a {length_m:.1f} m line"
+    res_m = span_m(runmap, res)
+    if res_m is not None and runmap.length_m is not None:
+        where = f"{res_m:.2f} m resolution over a {runmap.length_m:.1f} m line"
     else:
         where = f"{res * 1e9:.1f} ns resolution over a {delay_s * 1e9:.1f} ns line"
     if ok:
         return True, f"this sweep resolves the line ({where})"
-    return False, (f"this sweep ({grid.start_hz / 1e6:.6g} to {grid.stop_hz / 1e6:.6g} MHz) is too narrow to show where "
-                   f"along the line reflections sit ({where}); a sweep at least {need_span / 1e6:.3g} MHz wide "
-                   f"in steps of at most {need_step / 1e3:.4g} kHz would (see deembed locate)")
+    return False, (f"this sweep ({fmt_freq(grid.low_hz)} to {fmt_freq(grid.high_hz)}) is too narrow to show where "
+                   f"along the line reflections sit ({where}); a sweep at least {fmt_freq(need_span, 3)} wide "
+                   f"in steps of at most {fmt_freq(need_step, 3)} would (see deembed locate)")

@@ -19,19 +19,19 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..base.errors import InputFileError, OptionError
-from ..base.units import FEET_PER_M, parse_delay, parse_length
+from ..base.units import FEET_PER_M, parse_delay, parse_length, parse_positive
 from ..io import cables as cables_mod
-from ..io.atomic import atomic_path, check_not_input, write_text_atomic
+from ..io.atomic import atomic_path, check_not_input, stem_of, write_text_atomic
 from ..io.jsonfile import to_jsonable
 from ..io.linefile import line_from_options
 from ..io.anysweep import read_phase_sweep
 from ..io.touchstone import write_touchstone
+from ..io.outfolder import OutputFolder
 from ..physics import runmap as rm
 from ..physics import timedomain as td
 from ..physics.line import LossModel
 from ..analysis.along import AlongOptions, along, m_at
-from ..io.atomic import stem_of
-from ..io.outfolder import OutputFolder
+from ..render.along import along_plot, save
 
 
 LocateOptions = AlongOptions
@@ -63,18 +63,19 @@ def line_view(cable=None, length=None, vf=None, delay=None, z0=None, loss=(), li
         source = f"line file {os.path.basename(line)}" if line else "the line options"
         m, why = rm.from_line(the_line, source=the_line.describe())
         if m is None:
-            raise OptionError("--line", why + "; describe it as sections (a .toml line file), or leave --line out "
-                                              "and give --vf or --cable")
+            raise OptionError("line", why + "; describe it as sections (a .toml line file), or leave `line` out "
+                                            "and give `vf` or `cable`")
         if line_vf is not None:
             if m.knows_distance:
-                raise OptionError("--vf", f"{os.path.basename(line)} already gives every section's velocity factor; "
-                                          "leave --vf out")
+                raise OptionError("vf", f"{os.path.basename(line)} already gives every section's velocity factor; "
+                                        "leave `vf` out")
             m = rm.with_vf(m, _vf(line_vf))
-            view.notes.append(f"velocity factor {_vf(line_vf):g} (--vf) for the parts of {os.path.basename(line)} "
+            view.notes.append(f"velocity factor {_vf(line_vf):g} (given) for the parts of {os.path.basename(line)} "
                               "known only by their delay")
         elif not m.knows_distance:
             view.notes.append(f"{os.path.basename(line) if line else 'the line'} gives the run's delay but not its "
-                              "velocity factor: the trace is against one-way delay (add --vf for distances)")
+                              "velocity factor: the trace is against one-way delay (a velocity factor would give "
+                              "distances)")
         view.runmap = m
         view.described_length_m = m.length_m
         view.notes += notes
@@ -82,34 +83,33 @@ def line_view(cable=None, length=None, vf=None, delay=None, z0=None, loss=(), li
             view.notes.append(f"no loss known from {source}: reflections are shown as seen only")
         return view
     if loss:
-        raise OptionError("--loss", "--loss is the whole run's matched loss, so it needs the run's --length (with "
-                                    "--vf or --cable) or --delay; or give --cable for a loss per metre")
+        raise OptionError("loss", "`loss` is the whole run's matched loss, so it needs the run's `length` (with "
+                                  "`vf` or `cable`) or `delay`; or give `cable` for a loss per metre")
     if z0:
-        view.notes.append("--z0 is not used to look along the line")
+        view.notes.append("the line's Z0 is not used to look along the line")
     if length:
-        view.described_length_m = parse_length(length, "--length", allow_zero=False)
+        view.described_length_m = parse_length(length, "length", allow_zero=False)
         view.runmap = rm.uniform(None, source=f"length {view.described_length_m:g} m, velocity factor unknown")
         view.notes.append("velocity factor unknown: distances are shown as one-way delay, and the far end's delay "
                           "with the given length estimates the velocity factor")
         return view
     if cable:
-        c = cables_mod.lookup(cable, cables_mod.catalog(cables), "--cable")
+        c = cables_mod.lookup(cable, cables_mod.catalog(cables), "cable")
         v = c.vf if vf is None else _vf(vf)
         per_m = LossModel.from_k(c.k1, c.k2, 1.0)
         view.runmap = rm.uniform(v, per_m.c_np, per_m.d_np, source=f"{c.name} (catalog: velocity factor, loss per m)")
         return view
     if vf:
         view.runmap = rm.uniform(_vf(vf), source="the given velocity factor")
-        view.notes.append("no loss known (give --cable, or --length with --loss): reflections are shown as seen only")
+        view.notes.append("no loss known (give a cable, or the run's length with its loss): reflections are shown "
+                          "as seen only")
         return view
-    view.notes.append("no velocity factor known (give --vf or --cable): the trace is against one-way delay")
+    view.notes.append("no velocity factor known (give one, or a cable): the trace is against one-way delay")
     return view
 
 
 def _vf(text) -> float:
-    from ..base.units import parse_positive
-
-    return parse_positive(text, "--vf", "velocity factor", upper=1.0)
+    return parse_positive(text, "vf", "velocity factor", upper=1.0)
 
 
 def output_paths(sweep_path: str, out_dir: str) -> dict:
@@ -133,7 +133,7 @@ def gate_window(text: str, option: str, m) -> tuple[float, float]:
             continue
         dist = parse_length(p, option)
         if m is None or not m.knows_distance:
-            raise OptionError(option, f"{p!r} is a distance, but no velocity factor is known; give --vf or --cable, "
+            raise OptionError(option, f"{p!r} is a distance, but no velocity factor is known; give `vf` or `cable`, "
                                       "or the window as one-way delays (e.g. 0ns:15ns)")
         out.append(float(m.delay_of_distance_s(dist)[0]))
     lo, hi = out
@@ -145,8 +145,8 @@ def gate_window(text: str, option: str, m) -> tuple[float, float]:
 def gated_sweep(freq_hz, gamma, view: LineView, opts: LocateOptions, source: str) -> tuple[np.ndarray, dict]:
     """Gate the sweep (``--keep`` or ``--remove``): the gated reflection and what the gate did."""
     if opts.keep and opts.remove:
-        raise OptionError("--keep", "give either --keep or --remove, not both")
-    option, text = ("--keep", opts.keep) if opts.keep else ("--remove", opts.remove)
+        raise OptionError("keep", "give either `keep` or `remove`, not both")
+    option, text = ("keep", opts.keep) if opts.keep else ("remove", opts.remove)
     grid, why = td.grid_of(freq_hz)
     if grid is None:
         raise InputFileError(source, f"cannot be gated: {why}")
@@ -163,7 +163,10 @@ def gated_sweep(freq_hz, gamma, view: LineView, opts: LocateOptions, source: str
             "edge_width_ns": res_s * 1e9, "band_edge": edge}
     notes = []
     if hi - max(lo, 0.0) < 2 * res_s:
-        notes.append("the window is narrower than two resolution cells: what it keeps is mostly the window's own shape")
+        notes.append("the window is narrower than two resolution cells: what it keeps is mostly the window's own shape"
+                     if opts.keep else
+                     "the window is narrower than two resolution cells: it takes away only the middle of a reflection "
+                     "there, and the reflection's flanks stay in the sweep")
     info["notes"] = notes
     info["band_edge_text"] = band_edge_text(edge)
     return g.gamma, info
@@ -202,7 +205,7 @@ def band_edge_text(edge: dict) -> str:
     return (f"band edges: at {spans} the window's taper and the gate's frequency kernel (which reaches past the "
             f"sweep) take off more than {EDGE_DB:g} dB, up to {edge['droop_max_db']:.0f} dB at the very edge; it is "
             "divided back out, which multiplies errors and noise there as much, so do not rely on those points "
-            "(a wider sweep, or a lower --kaiser-beta, narrows the zone)" + tail)
+            "(a wider sweep, or a lower Kaiser beta, narrows the zone)" + tail)
 
 
 def locate_file(sweep_path: str, view: LineView, out_dir: str, opts: LocateOptions) -> tuple[dict, dict]:
@@ -211,15 +214,15 @@ def locate_file(sweep_path: str, view: LineView, out_dir: str, opts: LocateOptio
                              needs="looking along the line (a time-domain transform)")
     paths = output_paths(sweep_path, out_dir)
     for p in paths.values():
-        check_not_input(p, [sweep_path, *[i for i in view.inputs if i]], "--out")
+        check_not_input(p, [sweep_path, *[i for i in view.inputs if i]], "out")
     if opts.unit not in ("m", "ft"):
-        raise OptionError("--unit", f"{opts.unit!r}: use m or ft")
+        raise OptionError("unit", f"{opts.unit!r}: use m or ft")
     summary, trace = along(sweep.freq_hz, sweep.gamma, view, opts, sweep_path)
     gated = None
     if opts.keep or opts.remove:
         gated, summary["gate"] = gated_sweep(sweep.freq_hz, sweep.gamma, view, opts, sweep_path)
         if not np.all(np.isfinite(gated)):
-            raise OptionError("--keep" if opts.keep else "--remove", "the gated sweep is not finite; widen the window")
+            raise OptionError("keep" if opts.keep else "remove", "the gated sweep is not finite; widen the window")
     with OutputFolder(out_dir, inputs=[sweep_path, *[i for i in view.inputs if i]]) as out:  # all, or none
         written = _write_locate(out.stage, sweep_path, sweep, summary, trace, gated, view, opts)
     written = {k: out.final(v) for k, v in written.items()}
@@ -239,8 +242,6 @@ def _write_locate(folder: str, sweep_path: str, sweep, summary: dict, trace: dic
     write_trace_csv(trace, paths["along_csv"])
     written["along_csv"] = paths["along_csv"]
     if opts.plots:
-        from ..render.along import along_plot, save
-
         save(along_plot(trace, summary, opts.unit, described_m=view.described_length_m), paths["along_png"])
         written["along_png"] = paths["along_png"]
     summary["outputs"] = {k: os.path.basename(v) for k, v in written.items()}

@@ -12,7 +12,7 @@ Pure numpy; built from a line description by :func:`from_line` or from a cable a
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -149,8 +149,6 @@ def from_line(line, source: str = "") -> tuple[RunMap | None, str]:
 def with_vf(m: RunMap, vf: float) -> RunMap:
     """The same map with ``vf`` for every stretch whose velocity factor is unknown (a characterized run is
     known by its delay only); the length follows when every stretch then has one."""
-    from dataclasses import replace
-
     stretches = tuple(s if s.vf is not None else replace(s, vf=float(vf)) for s in m.stretches)
     length = float(sum(s.delay_s * s.vf * C0_M_PER_S for s in stretches))
     return replace(m, stretches=stretches, length_m=length)

@@ -3,7 +3,10 @@
 Plot colours follow the other plots: what the analyzer sees in slate, the reflection at its place
 (line loss taken off) in copper; reflections found are marked with their distance, the far end with a
 filled marker, the described line's end with a dotted line, a gate window as a shaded band.
-Figures are built without pyplot (no global state); nothing calls ``show()``.
+Figures are built without pyplot (no global state); nothing calls ``show()``. As the correction plots
+(:mod:`deembed.render.plots`): a fixed layout (set margins, the legend in a row above the axes, no layout
+solver and no search for an empty corner), and each trace cut to the part in view and thinned to its
+min/max envelope when it has more points than the axes have pixel columns (:func:`~deembed.render.plots.envelope`).
 """
 from __future__ import annotations
 
@@ -12,6 +15,8 @@ import math
 import numpy as np
 
 from ..base.units import FEET_PER_M, fmt_freq
+from .plots import DPI, RUNS_PER_COLUMN, envelope
+from .plots import save as save_png
 
 SEEN_COLOUR = "#5b6b7a"
 AT_POINT_COLOUR = "#c0582b"
@@ -43,6 +48,25 @@ def _x_of(refl: dict, unit: str, by_distance: bool):
     return _dist(refl["distance_m"], unit) if by_distance else refl["one_way_delay_ns"]
 
 
+ALONG_FIGSIZE = {False: (9, 4.8), True: (9, 6.5)}   # by low-pass (a second panel for the impedance)
+ALONG_MARGINS = {False: {"left": 0.08, "right": 0.98, "bottom": 0.105, "top": 0.85},
+                 True: {"left": 0.08, "right": 0.98, "bottom": 0.075, "top": 0.885, "hspace": 0.22}}
+"""Fixed layout of the along-the-line plot (fractions of the figure): room above for the title and the legend."""
+
+
+def _columns(ax) -> int:
+    """Pixel columns of the axes at the saved resolution."""
+    return max(int(ax.figure.get_figwidth() * DPI * ax.get_position().width), 1)
+
+
+def _in_view(x, x_end: float, width_px: int, *ys) -> np.ndarray:
+    """Indices of the samples to draw: those up to one past ``x_end`` (the plot's right end), thinned to the
+    min/max envelope of ``ys`` over the axes' pixel columns when there are more of them than it can show."""
+    stop = int(min(x.shape[0], np.searchsorted(x, x_end, side="right") + 1))
+    keep = envelope(stop, RUNS_PER_COLUMN * width_px, *[y[:stop] for y in ys if y is not None])
+    return keep
+
+
 def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float | None = None,
                other: dict | None = None, labels=("seen at the analyzer", "at its place (line loss taken off)"),
                colours=(AT_POINT_COLOUR, "#9aa7b3")):
@@ -54,22 +78,29 @@ def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float |
     from matplotlib.figure import Figure
 
     lowpass = trace.get("impedance_ohm") is not None
-    fig = Figure(figsize=(9, 6.5 if lowpass else 4.8), layout="constrained")
+    fig = Figure(figsize=ALONG_FIGSIZE[lowpass])
+    fig.subplots_adjust(**ALONG_MARGINS[lowpass])
     ax = fig.add_subplot(2 if lowpass else 1, 1, 1)
     x, xlabel = _x(trace, unit)
     by_distance = trace["distance_m"] is not None
     with np.errstate(divide="ignore"):
         seen_db = 20 * np.log10(trace["seen"])
         at_db = 20 * np.log10(trace["at_point"]) if trace["at_point"] is not None else None
+    x_end = view_end(x, trace, summary, unit, described_m)
+    z = np.clip(trace["impedance_ohm"], 0, 500) if lowpass else None
+    keep = _in_view(x, x_end, _columns(ax), seen_db, at_db, z)
     if other is not None:
         ox, _ = _x(other, unit)
         with np.errstate(divide="ignore"):
-            ax.plot(ox, 20 * np.log10(other["seen"]), color=colours[1], lw=1.4, ls="--", label=labels[1])
-        ax.plot(x, seen_db, color=colours[0], lw=1.7, label=labels[0])
+            other_db = 20 * np.log10(other["seen"])
+        okeep = _in_view(ox, x_end, _columns(ax), other_db)
+        ax.plot(ox[okeep], other_db[okeep], color=colours[1], lw=1.4, ls="--", label=labels[1])
+        ax.plot(x[keep], seen_db[keep], color=colours[0], lw=1.7, label=labels[0])
     else:
-        ax.plot(x, seen_db, color=SEEN_COLOUR, lw=1.4, ls="--" if at_db is not None else "-", label=labels[0])
+        ax.plot(x[keep], seen_db[keep], color=SEEN_COLOUR, lw=1.4, ls="--" if at_db is not None else "-",
+                label=labels[0])
         if at_db is not None:
-            ax.plot(x, at_db, color=AT_POINT_COLOUR, lw=1.8, label=labels[1])
+            ax.plot(x[keep], at_db[keep], color=AT_POINT_COLOUR, lw=1.8, label=labels[1])
     gate = summary.get("gate")
     if gate:
         lo = gate["from_m"] if by_distance else gate["from_one_way_ns"]
@@ -103,18 +134,19 @@ def along_plot(trace: dict, summary: dict, unit: str = "m", described_m: float |
         weakest = min(-(r["return_loss_at_point_db"] or r["return_loss_db"]) for r in summary["reflections"])
         bottom = max(min(bottom, weakest - 15), -90.0)
     ax.set_ylim(bottom, top)
-    ax.set_xlim(float(x[0]), view_end(x, trace, summary, unit, described_m))
+    ax.set_xlim(float(x[0]), x_end)
     ax.set_xlabel(xlabel)
     ax.set_ylabel("Reflection (dB, 0 = total)")
     mode = summary.get("mode", "band-pass")
-    ax.set_title(f"Along the line ({mode}, {fmt_freq(summary['start_hz'])} to {fmt_freq(summary['stop_hz'])}, "
-                 f"resolution {fmt_res(summary, unit)})", fontsize=10)
+    ax.set_title(f"Along the line ({mode}, {fmt_freq(summary['low_hz'])} to {fmt_freq(summary['high_hz'])}, "
+                 f"resolution {fmt_res(summary, unit)})", fontsize=10, pad=22)
     ax.grid(True, color=GRID_COLOUR, lw=0.6)
-    ax.legend(loc="best", fontsize=8)
+    handles, _ = ax.get_legend_handles_labels()
+    ax.legend(loc="lower left", bbox_to_anchor=(0.0, 1.005), ncol=max(len(handles), 1), fontsize=8, frameon=False,
+              borderaxespad=0.0, handlelength=2.6)
     if lowpass:
         ax2 = fig.add_subplot(2, 1, 2, sharex=ax)
-        z = np.clip(trace["impedance_ohm"], 0, 500)
-        ax2.plot(x, z, color=STEP_COLOUR, lw=1.6, label="impedance along the line (from the step response)")
+        ax2.plot(x[keep], z[keep], color=STEP_COLOUR, lw=1.6, label="impedance along the line (from the step response)")
         ax2.axhline(50, color="#8a8a8a", lw=0.8, ls=":")
         ax2.set_ylim(0, min(max(150.0, float(np.nanpercentile(z, 99)) * 1.1), 500.0))
         ax2.set_xlabel(xlabel)
@@ -149,11 +181,9 @@ def fmt_res(summary: dict, unit: str = "m") -> str:
     return f"{summary['resolution_ns']:.2f} ns"
 
 
-def save(fig, path, dpi: int = 110) -> None:
-    from ..io.atomic import atomic_path
-
-    with atomic_path(path) as tmp:
-        fig.savefig(tmp, dpi=dpi, format="png")
+def save(fig, path, dpi: int = DPI) -> None:
+    """Save a figure atomically (:func:`deembed.render.plots.save`)."""
+    save_png(fig, path, dpi)
 
 
 def length_text(ln: dict, unit: str = "m") -> str:
@@ -201,7 +231,7 @@ def locate_text(summary: dict, out_dir: str | None = None) -> str:
     """The terminal view of ``deembed locate``."""
     u = summary.get("unit", "m")
     by_distance = summary.get("velocity_factor_known")
-    lines = [f"Along the line: {summary['sweep']}, {fmt_freq(summary['start_hz'])} to {fmt_freq(summary['stop_hz'])}, "
+    lines = [f"Along the line: {summary['sweep']}, {fmt_freq(summary['low_hz'])} to {fmt_freq(summary['high_hz'])}, "
              f"{summary['points']} points in steps of {fmt_freq(summary['step_hz'])}",
              f"  {summary['mode']} transform, window "
              + (f"Kaiser beta {summary['window']['beta']:g}" if summary['window']['kind'] == "kaiser" else "none")
@@ -246,7 +276,7 @@ def locate_text(summary: dict, out_dir: str | None = None) -> str:
     need = summary.get("sweep_needed")
     if need:
         s = (f"  To resolve {fmt_dist(need['resolve_m'], u, 2)}: a sweep at least {fmt_freq(need['span_hz'])} wide "
-             f"(band-pass), or from near 0 Hz to {fmt_freq(need['lowpass_stop_hz'])} (low-pass)")
+             f"(band-pass), or from near 0 Hz to {fmt_freq(need['lowpass_high_hz'])} (low-pass)")
         if need.get("max_step_hz"):
             s += f"; to reach {fmt_dist(need['reach_m'], u, 0)} without aliasing, steps of at most {fmt_freq(need['max_step_hz'])}"
         lines.append(s)
