@@ -70,6 +70,17 @@ def assert_refused(code, err, needles, out_dir=None, before=None, line=None):
     return msg
 
 
+def assert_unwritable(code, err, needles, before):
+    """Exit 3 (results that cannot be written), one line on stderr holding every needle, files as they were."""
+    assert code == 3, err
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert len(lines) == 1 and lines[0].startswith("error: ") and "Traceback" not in err, err
+    for needle in needles:
+        assert str(needle) in lines[0], lines[0]
+    for path, data in before.items():
+        assert Path(path).read_bytes() == data, f"{path} was modified"
+
+
 @pytest.fixture
 def good_text():
     """The shack sweep as Touchstone text: the E10 antenna behind the line, RI, MHz, with a comment."""
@@ -379,11 +390,15 @@ def test_bad_bands_file(capsys, tmp_path, good_sweep, name, text, needles, line)
 # outputs: never over an input, never half-written
 
 
-def test_out_that_is_a_file_is_refused(capsys, tmp_path, good_sweep):
+@pytest.mark.parametrize("below", [False, True], ids=["out is a file", "out below a file"])
+def test_out_that_is_a_file_is_refused_as_results_that_cannot_be_written(capsys, tmp_path, good_sweep, below):
+    """One rule for a file in the way of the results folder, itself or a folder above it (README, exit
+    statuses): the results cannot be written, exit status 3, the file named and kept."""
     target = tmp_path / "results"
     target.write_text("keep me")
-    code, _, err = run(capsys, "correct", good_sweep, *LINE_OPTS, "--out", target)
-    assert_refused(code, err, ["--out", "is a file"], before=snapshot(target, good_sweep))
+    before = snapshot(target, good_sweep)
+    code, _, err = run(capsys, "correct", good_sweep, *LINE_OPTS, "--out", target / "sub" if below else target)
+    assert_unwritable(code, err, ["is a file", "--out", target], before)
 
 
 def test_out_that_would_overwrite_an_input_through_a_link_is_refused(capsys, tmp_path, good_sweep):
@@ -418,7 +433,7 @@ def test_a_line_that_passes_nothing_is_refused_before_writing(capsys, tmp_path, 
     write_touchstone(str(run_file), F_HZ, s)
     out = tmp_path / "out"
     code, _, err = run(capsys, "correct", good_sweep, "--line", run_file, "--out", out)
-    assert_refused(code, err, [str(good_sweep), "no finite", "1 of 41", "14 MHz", "S21"], out,
+    assert_refused(code, err, [str(good_sweep), "no finite", "1 of 41", "14.00 MHz", "S21"], out,  # to the 50 kHz step
                    snapshot(good_sweep, run_file))
 
 
@@ -754,7 +769,10 @@ def test_compare_bad_input(capsys, tmp_path, station, case):
         needles = ["--out", "is a file"]
     before = snapshot(*[p for p in station.iterdir()])
     code, _, err = run(capsys, "compare", base, after, *extra, "--out", out)
-    assert_refused(code, err, needles, None if case == "out is a file" else out, before)
+    if case == "out is a file":  # results that cannot be written: exit status 3 (README), the file kept
+        assert_unwritable(code, err, needles, {**before, out: b"keep"})
+        return
+    assert_refused(code, err, needles, out, before)
 
 
 @pytest.mark.parametrize("text, needles, line", [

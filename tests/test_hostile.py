@@ -311,6 +311,24 @@ def test_out_below_a_file(tmp_path, capsys):
     one_error_line(err, "afile")
 
 
+@pytest.mark.parametrize("command", ["correct", "characterize", "compare", "locate"])
+@pytest.mark.parametrize("below", [False, True], ids=["out is a file", "out below a file"])
+def test_a_file_where_the_results_folder_goes_is_exit_3_for_every_command(tmp_path, capsys, command, below):
+    """One rule (README, exit statuses): a file standing where the results folder (or a folder above it) goes
+    means the results cannot be written: exit status 3, the file named, the file kept as it was."""
+    (tmp_path / "afile").write_text("keep me")
+    out = tmp_path / "afile" / "sub" if below else tmp_path / "afile"
+    sweep = write_sweep(tmp_path / "x.s1p")
+    args = {"correct": ["correct", sweep, *LINE, "--no-plots"],
+            "characterize": ["characterize", "--open", SAMPLES / "dipole-40m-far-open.s1p"],
+            "compare": ["compare", sweep, write_sweep(tmp_path / "y.s1p"), *LINE, "--draws", "0"],
+            "locate": ["locate", SAMPLES / "dipole-40m.s1p", "--line", SAMPLES / "dipole-40m.line.toml"]}[command]
+    code, _, err = run(capsys, *args, "--out", out)
+    assert code == 3, err
+    one_error_line(err, "afile", "is a file", "--out")
+    assert (tmp_path / "afile").read_text() == "keep me"
+
+
 def test_characterize_out_below_a_file_names_no_temporary_file(tmp_path, capsys):
     (tmp_path / "afile").write_text("x")
     code, _, err = run(capsys, "characterize", "--open", SAMPLES / "dipole-40m-far-open.s1p",
@@ -635,6 +653,61 @@ def test_a_killed_lock_holder_leaves_no_stuck_lock(tmp_path, capsys):
     assert not (out / ".deembed-lock").exists() and not staging_of(out)
 
 
+def test_a_run_started_second_is_refused_at_once_not_at_the_end_of_the_first(tmp_path):
+    """The lock is taken when the command starts: a slow run that started first keeps the folder, and a quick
+    run started after it is refused (exit 3, the first run's process named) while the first is still working,
+    instead of winning the folder and the slow run being refused at its end."""
+    slow = write_sweep(tmp_path / "slow.s1p", n=4001)
+    quick = write_sweep(tmp_path / "quick.s1p")
+    out = tmp_path / "o"
+    lock = out / ".deembed-lock"
+    first = spawn("correct", slow, *LINE, "--out", out, "--no-plots", "--draws", "3000")
+    try:
+        wait_for(lambda: lock.exists() and lock.read_text().strip() == str(first.pid), "the first run's lock")
+        second = subprocess.run([sys.executable, "-m", "deembed", "correct", str(quick), *LINE, "--out", str(out),
+                                 "--no-plots", "--draws", "0"], capture_output=True, text=True,
+                                timeout=HANG_GUARD_S)
+        first_still_working = first.poll() is None
+        _, err1 = first.communicate(timeout=HANG_GUARD_S)
+    finally:
+        if first.poll() is None:
+            first.kill()
+    assert second.returncode == 3, second.stderr
+    one_error_line(second.stderr, "another deembed run", f"process {first.pid}")
+    assert first_still_working, "the second run was only refused after the first had finished"
+    assert first.returncode == 0, err1
+    assert sorted(os.listdir(out)) == ["slow.feedpoint.s1p", "slow.summary.json", "slow.table.csv"]
+
+
+def test_a_command_killed_while_it_holds_the_folder_leaves_no_stuck_lock(tmp_path, capsys):
+    """SIGKILL (no clean-up possible) of a real command that holds --out from its start: the next run takes the
+    folder over and leaves neither lock nor staging folder."""
+    slow = write_sweep(tmp_path / "slow.s1p", n=4001)
+    out = tmp_path / "o"
+    lock = out / ".deembed-lock"
+    first = spawn("correct", slow, *LINE, "--out", out, "--no-plots", "--draws", "3000")
+    try:
+        wait_for(lambda: lock.exists() and lock.read_text().strip() == str(first.pid), "the first run's lock")
+    finally:
+        first.kill()
+        first.communicate(timeout=HANG_GUARD_S)
+    assert lock.exists()  # left behind by the killed run, held by no one
+    code, _, err = run(capsys, "correct", write_sweep(tmp_path / "x.s1p"), *LINE, "--out", out, "--no-plots")
+    assert code == 0, err
+    assert sorted(os.listdir(out)) == ["x.feedpoint.s1p", "x.summary.json", "x.table.csv"]
+
+
+def test_a_refused_command_leaves_no_folder_it_created(tmp_path, capsys):
+    """The folder is created when the command starts (to hold the lock); bad input found after that removes it
+    again, so nothing is left."""
+    out = tmp_path / "new" / "o"
+    code, _, err = run(capsys, "correct", write_sweep(tmp_path / "x.s1p"), "--length", "30m", "--vf", "2",
+                       "--out", out)
+    assert code == 2
+    one_error_line(err, "--vf")
+    assert not (tmp_path / "new").exists()
+
+
 def test_two_runs_racing_into_one_out_never_mix_their_outputs(tmp_path):
     """Two sweeps with the same name (so the same output names) and different point counts, run at once
     into one folder: each run ends with 0 or the clear 'busy' refusal, and the folder holds one run's
@@ -886,3 +959,77 @@ def test_locate_with_a_folder_in_the_way_leaves_the_folder_as_it_was(tmp_path, c
     code, _, err = run(capsys, "locate", sweep, *LINE, "--out", tmp_path / "fresh")
     assert code == 0, err
     assert {"w.along.json", "w.along.csv"} <= set(os.listdir(tmp_path / "fresh"))
+
+
+# ------------------------------------------------------------------------------------------------------
+# one command's outputs for one sweep are one set: a rerun replaces the whole set
+
+
+def test_a_no_plots_rerun_removes_the_earlier_report_and_plots_and_nothing_else(tmp_path, capsys):
+    sweep = write_sweep(tmp_path / "x.s1p")
+    other = write_sweep(tmp_path / "y.s1p")
+    out = tmp_path / "o"
+    code, _, err = run(capsys, "correct", sweep, *LINE, "--out", out, "--draws", "0", "--power", "100W")
+    assert code == 0, err
+    assert (out / "x.report.html").is_file() and (out / "x.swr.png").is_file() and (out / "x.budget.png").is_file()
+    code, _, err = run(capsys, "correct", other, *LINE, "--out", out, "--draws", "0")
+    assert code == 0, err
+    (out / "notes.txt").write_text("my notes")            # not an output name: never touched
+    (out / "x.swr.png.bak").write_text("my copy")        # nor a name merely like one
+    others_before = {n: (out / n).read_bytes() for n in os.listdir(out) if n.startswith("y.")}
+    code, _, err = run(capsys, "correct", sweep, *LINE, "--out", out, "--draws", "0", "--no-plots")
+    assert code == 0, err
+    x_files = sorted(n for n in os.listdir(out) if n.startswith("x.") and n != "x.s1p" and n != "x.swr.png.bak")
+    assert x_files == ["x.feedpoint.s1p", "x.summary.json", "x.table.csv"]
+    summary = json.loads((out / "x.summary.json").read_text())
+    assert sorted(set(summary["outputs"].values()) | {"x.summary.json"}) == x_files
+    assert (out / "notes.txt").read_text() == "my notes" and (out / "x.swr.png.bak").read_text() == "my copy"
+    assert {n: (out / n).read_bytes() for n in os.listdir(out) if n.startswith("y.")} == others_before
+
+
+def test_a_rerun_that_fails_at_the_commit_keeps_the_whole_earlier_set(tmp_path, capsys, monkeypatch):
+    """The earlier set's files are set aside in the same transaction as the new files are moved in: a move that
+    fails puts every one back, the plots and report of the earlier run included."""
+    from deembed.io import outfolder
+
+    sweep = write_sweep(tmp_path / "x.s1p")
+    out = tmp_path / "o"
+    code, _, err = run(capsys, "correct", sweep, *LINE, "--out", out, "--draws", "0")
+    assert code == 0, err
+    before = listing(out)
+    real_replace = os.replace
+    failed = []
+
+    def failing(src, dst):  # the move of the new summary into place fails, once (the undo then works)
+        if not failed and str(dst).endswith("x.summary.json") and ".deembed-stage-" in str(src) \
+                and ".previous" not in str(src):
+            failed.append(dst)
+            raise OSError(errno.ENOSPC, "No space left on device", str(dst))
+        return real_replace(src, dst)
+
+    monkeypatch.setattr(outfolder.os, "replace", failing)
+    code, _, err = run(capsys, "correct", sweep, *LINE, "--out", out, "--draws", "0", "--no-plots")
+    assert code == 3 and failed
+    one_error_line(err, "disk is full")
+    assert listing(out) == before and not staging_of(out)
+
+
+def test_a_magnitude_rerun_replaces_a_full_set_of_the_same_stem(tmp_path, capsys):
+    """The same stem read first with phase (R and X), then as SWR alone: the earlier set's Touchstone file, report
+    and plots, which a sweep without phase has none of, go."""
+    f = np.linspace(28.0, 29.0, 101)
+    z = 50 + 30j * (f - 28.5)
+    g = (z - 50) / (z + 50)
+    s = (1 + abs(g)) / (1 - abs(g))
+    (tmp_path / "a").mkdir()
+    (tmp_path / "b").mkdir()
+    (tmp_path / "a" / "v.csv").write_text("".join(f"{a:.4f},{b.real:.4f},{b.imag:.4f}\n" for a, b in zip(f, z)))
+    (tmp_path / "b" / "v.csv").write_text("".join(f"{a:.4f},{b:.5f}\n" for a, b in zip(f, s)))
+    out = tmp_path / "o"
+    code, _, err = run(capsys, "correct", tmp_path / "a" / "v.csv", "--columns", "freq:MHz,r,x", *LINE, "--out", out,
+                       "--draws", "0")
+    assert code == 0, err
+    assert (out / "v.feedpoint.s1p").is_file() and (out / "v.report.html").is_file()
+    code, _, err = run(capsys, "correct", tmp_path / "b" / "v.csv", "--columns", "freq:MHz,swr", *LINE, "--out", out)
+    assert code == 0, err
+    assert sorted(os.listdir(out)) == ["v.summary.json", "v.swr.png", "v.table.csv"]

@@ -56,6 +56,7 @@ def characterize_command(
     from ..analysis.characterize import characterization_report, characterize
     from ..io.charfile import write_characterization
     from ..io.atomic import check_not_input
+    from ..io.outfolder import OutputFolder, claimed
     from ..io.touchstone import read_sweep
     from ..base.units import parse_capacitance, parse_frequency, parse_inductance, parse_length, parse_resistance
 
@@ -65,8 +66,6 @@ def characterize_command(
     if str(out).lower().endswith(".s2p"):
         raise OptionError("--out", f"{out!r}: --out is a folder (the run's 2-port is written into it as NAME.line.s2p); "
                                    "give a folder, e.g. --out results")
-    if os.path.exists(out) and not os.path.isdir(out):
-        raise OptionError("--out", f"{out} is a file; give a folder for the results")
     out_file = os.path.join(out, characterization_name(next(iter(given.values()))))
     check_not_input(out_file, list(given.values()) + [cables], "--out")
     z0 = parse_resistance(z0, "--z0")
@@ -96,29 +95,28 @@ def characterize_command(
     if at:
         at_hz = sorted({parse_frequency(t, "--at") for t in split_list(at)})
 
-    sweeps = {name: read_sweep(path, expect_ports=1) for name, path in given.items()}
-    names = list(sweeps)
-    ref = sweeps[names[0]]
-    for name in names[1:]:
-        sw = sweeps[name]
-        if sw.freq_hz.shape != ref.freq_hz.shape or not np.array_equal(sw.freq_hz, ref.freq_hz):
-            raise InputFileError(given[name], f"its frequencies differ from those of {given[names[0]]}; sweep every "
-                                              "standard over the same points")
-    if ref.freq_hz.size and ref.freq_hz[0] <= 0:
-        raise InputFileError(given[names[0]], "starts at 0 Hz; a line cannot be characterized at DC (its model "
-                                              "has no Z0 there); drop the 0 Hz point")
-    gam = {name: sw.gamma for name, sw in sweeps.items()}
-    ch = characterize(ref.freq_hz, gamma_open=gam.get("open"), gamma_short=gam.get("short"),
-                      gamma_load=gam.get("load"), z0_ohm=z0, open_c_f=c_f, short_l_h=l_h, load_r_ohm=r_ohm)
-    report = characterization_report(ch, at_hz=at_hz, length_m=length_m, cable=cab,
-                                     gamma_open=gam.get("open"), gamma_short=gam.get("short"))
-    report["inputs"] = dict(given)
-    report["out"] = str(out_file)
-    from ..io.outfolder import OutputFolder
-
-    with OutputFolder(out, inputs=[*given.values(), cables]) as folder:
-        write_characterization(folder.path(os.path.basename(out_file)), ch,
-                               comments=tuple(f"{k}: {v}" for k, v in given.items()))
+    with claimed(out):  # the folder is this run's from here: a second run into it is refused at once
+        sweeps = {name: read_sweep(path, expect_ports=1) for name, path in given.items()}
+        names = list(sweeps)
+        ref = sweeps[names[0]]
+        for name in names[1:]:
+            sw = sweeps[name]
+            if sw.freq_hz.shape != ref.freq_hz.shape or not np.array_equal(sw.freq_hz, ref.freq_hz):
+                raise InputFileError(given[name], f"its frequencies differ from those of {given[names[0]]}; sweep "
+                                                  "every standard over the same points")
+        if ref.freq_hz.size and ref.freq_hz[0] <= 0:
+            raise InputFileError(given[names[0]], "starts at 0 Hz; a line cannot be characterized at DC (its model "
+                                                  "has no Z0 there); drop the 0 Hz point")
+        gam = {name: sw.gamma for name, sw in sweeps.items()}
+        ch = characterize(ref.freq_hz, gamma_open=gam.get("open"), gamma_short=gam.get("short"),
+                          gamma_load=gam.get("load"), z0_ohm=z0, open_c_f=c_f, short_l_h=l_h, load_r_ohm=r_ohm)
+        report = characterization_report(ch, at_hz=at_hz, length_m=length_m, cable=cab,
+                                         gamma_open=gam.get("open"), gamma_short=gam.get("short"))
+        report["inputs"] = dict(given)
+        report["out"] = str(out_file)
+        with OutputFolder(out, inputs=[*given.values(), cables]) as folder:
+            write_characterization(folder.path(os.path.basename(out_file)), ch,
+                                   comments=tuple(f"{k}: {v}" for k, v in given.items()))
     if as_json:
         print(json.dumps(report, indent=2))
     else:

@@ -45,6 +45,7 @@ def correct_command(
 ):
     """Correct a sweep through a known line: feedpoint Touchstone, table, summary, plots and report."""
     from ..io.jsonfile import to_jsonable
+    from ..io.outfolder import claimed
     from ..jobs import correct as workflow
     from ..base.units import parse_frequency, parse_power
     from ..physics.budget import check_power
@@ -55,16 +56,20 @@ def correct_command(
         check_power(parse_power(power), "--power")
     the_date, _ = record_options(record, date, name)
     settings = uncertainty_settings(draws, seed, cal_uncertainty)
-    the_line, notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate, tol)
-    opts = workflow.Options(
-        port=port, thresholds=parse_thresholds(swr_limits or "1.5,2,3"),
-        target_hz=parse_frequency(target, "--target") if target else None,
-        power_w=parse_power(power) if power else None,
-        bands=bands, bands_file=bands_file, plots=not no_plots, html=not no_plots, notes=notes,
-        uncertainty=settings,
-        columns=parse_columns(columns) if columns is not None else None,
-    )
-    corr, summary, _ = workflow.correct_file(sweep, the_line, out, opts, line_inputs=[line, cables])
+    # the folder is this run's from here, before any file is read (a second run into it is refused at once),
+    # and the run's outputs are one set: an earlier run's files for this sweep that this one does not write
+    # go with the commit
+    with claimed(out, replaces=workflow.output_paths(sweep, "").values()):
+        the_line, notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate, tol)
+        opts = workflow.Options(
+            port=port, thresholds=parse_thresholds(swr_limits or "1.5,2,3"),
+            target_hz=parse_frequency(target, "--target") if target else None,
+            power_w=parse_power(power) if power else None,
+            bands=bands, bands_file=bands_file, plots=not no_plots, html=not no_plots, notes=notes,
+            uncertainty=settings,
+            columns=parse_columns(columns) if columns is not None else None,
+        )
+        corr, summary, _ = workflow.correct_file(sweep, the_line, out, opts, line_inputs=[line, cables])
     if as_json:
         print(json.dumps(to_jsonable(summary), indent=2))
     else:
