@@ -74,7 +74,10 @@ def locate_command(
                              threshold_db=_db(threshold, "--threshold"),
                              floor_db=_db(floor, "--floor") if floor else None, unit=unit, keep=keep, remove=remove,
                              resolve=resolve, plots=not no_plots)
-    summary, _ = job.locate_file(sweep, view, out, opts)
+    from ..io.outfolder import claimed
+
+    with claimed(out):  # --out is this run's from here: a second run into it is refused at once
+        summary, _ = job.locate_file(sweep, view, out, opts)
     if as_json:
         print(json.dumps(to_jsonable(summary), indent=2))
     else:

@@ -31,7 +31,10 @@ def trend_command(
     from ..jobs.trend import run_trend, trend_json, trend_text
 
     limits = parse_trend_limits(max_loss_rise, max_drift)
-    result = run_trend(source, out, antenna=antenna, limits=limits)
+    from ..io.outfolder import claimed
+
+    with claimed(out):  # --out is this run's from here: a second run into it is refused at once
+        result = run_trend(source, out, antenna=antenna, limits=limits)
     if as_json:
         print(json.dumps(to_jsonable(trend_json(result)), indent=2, allow_nan=False))
     else:
