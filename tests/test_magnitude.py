@@ -156,3 +156,32 @@ def test_bound_formula_edge_cases():
     assert np.isinf(high[0])
     assert low[0] == pytest.approx(0.6 / (0.25 + 0.3 * 0.6))
     assert np.isinf(swr_from_mag(np.array([1.0]))[0])
+
+
+def test_magnitude_summary_matches_the_summary_schema(tmp_path, capsys):
+    """``correct`` of an SWR-only sweep, printed (--json) and written (.summary.json), against the package's JSON
+    Schema (draft 2020-12; jsonschema's Draft202012Validator is the independent checker): resonances and Q are
+    null, each with its reason under ``not_available``. The schema refuses a null resonance list without the
+    reason, so the check can fail."""
+    import json
+    import pathlib
+
+    jsonschema = pytest.importorskip("jsonschema")
+    from deembed.cli.app import main
+    from deembed.render.jsonschemas import load_schema
+
+    sweep = pathlib.Path(__file__).resolve().parents[1] / "sample_sweeps" / "vertical-10m.swr.csv"
+    code = main(["correct", str(sweep), "--columns", "freq:kHz,swr", "--cable", "rg8x", "--length", "25m",
+                 "--out", str(tmp_path), "--json", "--power", "100W"])
+    out, err = capsys.readouterr()
+    assert code == 0, err
+    validator = jsonschema.Draft202012Validator(load_schema("summary"))
+    for data in (json.loads(out), json.loads((tmp_path / "vertical-10m.swr.summary.json").read_text())):
+        errors = ["/".join(map(str, e.path)) + ": " + e.message for e in validator.iter_errors(data)]
+        assert not errors, errors[:5]
+        for end in ("feedpoint", "analyzer"):
+            assert data[end]["resonances_hz"] is None and data[end]["resonances"] is None
+            assert data[end]["not_available"]["resonances"] == NO_PHASE_REASON
+    broken = json.loads(out)
+    del broken["feedpoint"]["not_available"]
+    assert any(validator.iter_errors(broken))
