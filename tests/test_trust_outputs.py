@@ -232,3 +232,61 @@ def test_characterized_line_uncertainty_comes_from_its_fit(capsys, tmp_path):
     assert "line between characterized points" in u["contributions"]["resonance_hz"]
     lo, hi = u["resonance_hz"]
     assert lo < 6.96e6 < hi                                   # the demo dipole's resonance (jobs/samples.py)
+
+
+# ------------------------------------------------------------------------------- trim: interval and draws lost
+
+def test_trim_interval_follows_the_resonance_interval_and_its_lost_draws_rule():
+    # f ~ 1/L (check-values F23 [C]): the change is (f_res/f_target - 1) x 100 %, an affine map of the resonance,
+    # so its coverage interval is the resonance's interval mapped through it (a quantile of an increasing affine
+    # function of the draws is that function of the quantile; JCGM 101:2008 7.7). Both follow one rule: with more
+    # than MAX_LOST_FRACTION of the draws lost, neither has an interval.
+    from deembed.analysis.uncertainty import MAX_LOST_FRACTION, interval
+
+    rng = np.random.default_rng(3)
+    draws = rng.normal(7.0e6, 8e3, 1000)
+    for lost in (0.01, 0.24):
+        d = draws.copy()
+        d[: int(lost * d.size)] = np.nan
+        t = trim_advice(7.0e6, 7.15e6, resonance_draws_hz=d)
+        res_iv = interval(d)
+        assert t["resonance_lost_fraction"] == pytest.approx(lost)
+        if lost <= MAX_LOST_FRACTION:
+            assert t["length_change_percent_interval"] == pytest.approx([(x / 7.15e6 - 1) * 100 for x in res_iv],
+                                                                        rel=1e-12)
+        else:
+            assert res_iv is None and t["length_change_percent_interval"] is None
+
+
+def test_trim_interval_is_read_in_the_verbs_direction():
+    # a negative change means shorten (trim_advice); -0.9 % with [-1.72, +0.066] is "shorten by 0.9 %, from -0.1
+    # to 1.7" (JCGM 100:2008 7.2.6 for the digits: two of the half-width 0.89, then one decimal)
+    from deembed.render import report
+    from deembed.render.text import correction_text
+
+    def summary(pct, iv, lost=None):
+        trim = {"resonance_hz": 7.03838e6, "target_hz": 7.1e6, "length_change_percent": pct,
+                "length_change_percent_interval": iv, "resonance_lost_fraction": lost, "refused": None}
+        return {"sweep": {"file": "x.s1p", "points": 501, "low_hz": 6.6e6, "high_hz": 7.6e6},
+                "line": {"description": "run", "matched_loss_db": {"at_low": 0.4, "at_high": 0.5}, "low_hz": 6.6e6,
+                         "high_hz": 7.6e6},
+                "feedpoint": {"trim": trim, "resonances": [{"freq_hz": 7.03838e6, "kind": "series"}]},
+                "analyzer": {}, "warnings": []}
+
+    def trim_line(s):
+        (line,) = [x for x in correction_text(s).splitlines() if x.startswith("trim")]
+        return line
+
+    cases = ((-0.87, [-1.72, 0.066], "shorten the element by about 0.9 % (-0.1 to 1.7)"),
+             (-1.9, [-2.4, -1.5], "shorten the element by about 1.9 % (1.5 to 2.4)"),
+             (1.2, [0.8, 1.6], "lengthen the element by about 1.2 % (0.8 to 1.6)"),
+             (1.2, [-0.3, 2.6], "lengthen the element by about 1.2 % (-0.3 to 2.6)"))
+    for pct, iv, said in cases:
+        s = summary(pct, iv)
+        assert said in trim_line(s)
+        page = report._trim(s["feedpoint"], None, 2e3)
+        assert f"{page['verb'].lower()} the element by about {page['amount'].replace(chr(160), ' ')}" == said
+    # 501 points over 1 MHz: a 2 kHz step, so the resonance without an interval gets kHz digits (not 7.03838)
+    assert "resonance 7.038 MHz, target 7.1 MHz" in trim_line(summary(-0.87, None, 0.24))
+    assert "no interval: the resonance is not placed in 24% of the draws" in trim_line(summary(-0.87, None, 0.24))
+    assert report._trim(summary(-0.87, None, 0.24)["feedpoint"], None, 2e3)["note"].startswith("No interval")

@@ -5,7 +5,7 @@ Both sweeps are de-embedded (normally through the same line description) and com
 the feedpoint resonance shift, the change in lowest SWR and in the 2:1 bandwidth, the largest change in
 |Gamma| across the band. :func:`compare_corrections` returns a JSON-ready dict with a verdict against
 :class:`Limits` and a plain-language cause. Pure functions of arrays and small objects; nothing here
-reads or writes files (see :mod:`deembed.compare_report` and :mod:`deembed.site`).
+reads or writes files (see :mod:`deembed.jobs.compare` and :mod:`deembed.jobs.site`).
 
 Frequency grids
 ---------------
@@ -29,9 +29,14 @@ scaled smoothly, the phase turned in proportion to frequency. A detuned or damag
 feedpoint reflection near its resonance and not in that form. So the after feedpoint is fitted as
 ``Gamma_after = Gamma_before * exp(-2 c sqrt(f) - j 4 pi f dtau)`` (:func:`fit_line_change`: a
 conductor-like loss change c and a one-way delay change dtau). If that fit leaves no more
-than the trace noise (estimated from the sweeps themselves, :func:`trace_noise`) the change is called
-the line's; otherwise the antenna's (or its connection at the feedpoint). When the trace noise at the
-feedpoint is itself above the |Gamma| limit the sweeps cannot tell, and the cause says so.
+than the trace noise (each sweep's noise, estimated from the data as ``correct`` does, referred to the
+feedpoint: :func:`feedpoint_noise`) the change is called the line's. A fault at one place on the line
+(a wet joint, a crushed spot) is no uniform change of loss or length, so the fit cannot explain it; when
+the sweeps resolve the line and the look along it (:func:`deembed.analysis.along.compare_along`, the
+transform of the difference of the two sweeps) puts the start of the change on the line, well before
+its far end (:func:`change_part_way`), the change is the line's at that distance. Otherwise it is the
+antenna's (or its connection at the feedpoint). When the trace noise at the feedpoint is itself above
+the |Gamma| limit the sweeps cannot tell, and the cause says so.
 
 *A fresh line description for the after sweep* (``after_line``, e.g. a new far-end characterization).
 Each sweep is de-embedded through its own line, so the feedpoint comparison is the antenna's alone and
@@ -48,19 +53,21 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..physics import rf
-from ..physics.deembedding import Correction, embed_gamma
 from ..base.errors import DeembedError, InputFileError
+from ..base.results import Result
+from ..base.units import fmt_freq
+from ..base.verdicts import verdict_of
+from ..physics import rf
+from ..physics.deembedding import Correction, embed_gamma, line_terms
 from ..physics.grid import nearest_points
 from ..physics.line import DB_PER_NP
-from ..base.units import fmt_freq
-from .between import between_points, between_warnings
-from ..base.results import Result
-from ..base.verdicts import verdict_of
-from .findings import resonances
-from .findings import end_findings
-from .limits import Limits
 from .along import compare_along
+from .between import between_points, between_warnings
+from .findings import end_findings, resonances
+from .limits import Limits
+from .summary import ranges_text, warnings_for
+from .trust import UncertaintySettings, assess
+from .uncertainty import MAX_LOST_FRACTION, change_interval, draw_line, feedpoint_gain, interval, seeds
 
 MIN_COMMON_POINTS = 3
 """Fewest exactly common frequencies for a point-by-point comparison; fewer means interpolation."""
@@ -92,8 +99,8 @@ class Aligned:
     """
 
     freq_hz: np.ndarray
-    gamma_feed_before: np.ndarray
-    gamma_feed_after: np.ndarray
+    gamma_feedpoint_before: np.ndarray
+    gamma_feedpoint_after: np.ndarray
     gamma_analyzer_before: np.ndarray | None
     gamma_analyzer_after: np.ndarray
     loss_before_db: np.ndarray
@@ -187,27 +194,34 @@ def fitted_resonance(freq_hz, gamma, near_hz, *, fraction: float = RESONANCE_FIT
     return float(f0 + roots[np.argmin(np.abs(roots))] * half)
 
 
-def trace_noise(gamma) -> float:
-    """RMS trace noise of a smooth reflection sweep (complex, total of both parts), from its second differences.
+def feedpoint_noise(corr: Correction, noise_rms: float) -> float | None:
+    """The sweep's noise referred to the feedpoint: RMS over the sweep of ``noise_rms / gain`` (complex, in Gamma).
 
-    Notes
-    -----
-    For independent noise n_k of variance s^2 (complex), d_k = n_(k-1) - 2 n_k + n_(k+1) has variance 6 s^2,
-    and |d_k|^2 of complex Gaussian noise is exponential, median 6 s^2 ln 2. The median keeps the few
-    points where the reflection itself curves sharply (a resonance on a coarse grid) from counting as noise.
+    ``noise_rms`` is the analyzer-end noise that ``correct`` reports for the same sweep (estimated from the data by
+    :func:`deembed.analysis.smooth.noise_rms`, through :func:`deembed.analysis.trust.assess`); ``gain`` is
+    |dGamma_analyzer / dGamma_feedpoint| at each point (:func:`deembed.analysis.uncertainty.feedpoint_gain`), so
+    each point's feedpoint noise is the analyzer's divided by what the line does to a small change. These are the
+    per-point noise levels the feedpoint's local models assume. None when no point has a finite gain.
     """
-    g = np.asarray(gamma, complex)
-    g = g[np.isfinite(g)]
-    if g.size < 5:
-        return 0.0
-    d = g[:-2] - 2 * g[1:-1] + g[2:]
-    return float(np.sqrt(np.median(np.abs(d) ** 2) / (6 * np.log(2))))
+    f = np.asarray(corr.freq_hz, float)
+    if f.size == 0:
+        return None
+    try:
+        _, s21s12, s22, _ = line_terms(corr.line, f)
+    except DeembedError:  # a measured 2-port known only on its own points (not these)
+        return None
+    gain = feedpoint_gain(s21s12, s22, corr.gamma_feedpoint)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        sigma = float(noise_rms) / gain
+    ok = np.isfinite(sigma)
+    return float(np.sqrt(np.mean(sigma[ok] ** 2))) if ok.any() else None
 
 
-def _end_numbers(freq_hz, g_before, g_after, fb=None, fa=None) -> dict:
+def _end_numbers(freq_hz, g_before, g_after, fb=None, fa=None, *, noise=(None, None)) -> dict:
     """Changes at one end: findings from ``fb``/``fa`` (each sweep's own findings on its own grid, so that a
-    sweep's findings are the same here as in ``correct``; worked out on the common grid when not given) and
-    the point-by-point changes of |Gamma| on the common grid."""
+    sweep's findings are the same here as in ``correct``; worked out on the common grid when not given), the
+    point-by-point changes of |Gamma| on the common grid, and ``noise`` (before, after): each sweep's noise at
+    this end (``trace_noise_before``/``_after``; see :func:`compare_corrections`)."""
     fb = fb if fb is not None else end_findings(freq_hz, g_before, thresholds=(2.0,))
     fa = fa if fa is not None else end_findings(freq_hz, g_after, thresholds=(2.0,))
     bw_b = _span_total(fb["swr_spans_hz"]["2"])
@@ -230,7 +244,7 @@ def _end_numbers(freq_hz, g_before, g_after, fb=None, fa=None) -> dict:
         "largest_gamma_change_at_hz": float(freq_hz[i]) if i is not None else None,
         "largest_gamma_vector_change": float(np.max(dc[np.isfinite(dc)])) if np.isfinite(dc).any() else None,
         "rms_gamma_change": float(np.sqrt(np.mean(dc[np.isfinite(dc)] ** 2))) if np.isfinite(dc).any() else None,
-        "trace_noise_before": trace_noise(g_before), "trace_noise_after": trace_noise(g_after),
+        "trace_noise_before": noise[0], "trace_noise_after": noise[1],
         "_findings_before": fb,
     }
 
@@ -323,7 +337,8 @@ def _same_line(a, b) -> bool:
 
 # -------------------------------------------------------------------------------------- comparison
 
-def compare_corrections(before: Correction, after: Correction, limits: Limits | None = None, settings=None) -> dict:
+def compare_corrections(before: Correction, after: Correction, limits: Limits | None = None, settings=None, *,
+                        warnings=()) -> dict:
     """Compare an after-work correction with its baseline (JSON-ready dict).
 
     Parameters
@@ -337,6 +352,9 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         How the intervals are worked out (default: 1000 draws, seed 1, the hobby calibration preset; 0 draws
         for none). Each sweep's findings come from its own grid (:func:`deembed.analysis.trust.assess`), the
         same as ``correct`` gives.
+    warnings : iterable of str
+        Warnings about the inputs made before the comparison (the line description's, such as loss points no
+        physical line loss can meet); they head the result's ``warnings``.
 
     Returns
     -------
@@ -345,19 +363,32 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         the after sweep's nearest one of the same sense, each placed by its local model; None when either has
         none), ``resonance_shift_interval_hz``, ``min_swr_change_interval``, ``swr_2_width_change_interval_hz``
         (coverage intervals from paired draws) and ``uncertainty`` (how they were made),
-        ``resonance_before_hz``, ``resonance_after_hz``, ``min_swr_change``, ``swr_2_width_change_hz``,
+        ``resonance_before_hz``, ``resonance_after_hz`` with ``resonance_before_interval_hz`` and
+        ``resonance_after_interval_hz``, ``min_swr_change``, ``swr_2_width_change_hz``,
         ``largest_gamma_change_feedpoint``, ``largest_gamma_change_analyzer`` (largest change in |Gamma|);
-        ``feedpoint`` and ``analyzer`` blocks with the details of each end; ``line`` (same line or not, the
-        matched-loss change, the fitted line change); ``grid``; ``limits``; ``verdict``
-        ``{"status": "within_limits" | "outside_limits", "limits_exceeded": [JSON limit names], "reasons"}``;
-        ``cause``
-        ``{"code", "text"}``; ``notes``.
+        ``baseline`` and ``after`` (file, points, ``step_hz``: the sweep's median frequency step);
+        ``feedpoint`` and ``analyzer`` blocks with the details of each end (``trace_noise_before``/``_after``: at
+        the analyzer, the sweep's noise as ``correct`` reports it; at the feedpoint, that noise referred to the
+        feedpoint, :func:`feedpoint_noise`); ``line`` (same line or not, the matched-loss change, the fitted line
+        change); ``grid``; ``limits``; ``verdict``
+        ``{"status": "within_limits" | "outside_limits", "limits_exceeded": [JSON limit names], "reasons"}``
+        with the certainty of each limit (:func:`_certainty`); ``cause`` ``{"code", "text"}``; ``warnings``
+        (``warnings`` given, then each correction's own, as ``correct`` gives them); ``notes``.
+
+    Raises
+    ------
+    InputFileError
+        When a sweep has no phase, or its feedpoint reflection is below 1 in |Gamma| at none of its points
+        (:func:`check_feedpoint`): then nothing at the feedpoint can be compared, and a verdict would pass by
+        default.
     """
     for c in (before, after):
         if getattr(c, "has_phase", True) is False:
             raise InputFileError(c.source, "this sweep holds SWR or return loss only, without phase; comparing with a "
                                            "baseline (resonance shift, the antenna-or-line cause) needs the phase: "
                                            "export R and X, or a Touchstone file")
+    for c in (before, after):
+        check_feedpoint(c)
     limits = limits or Limits()
     al = align(before, after)
     f = al.freq_hz
@@ -366,7 +397,8 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
     a_b, a_a = tr["before"], tr["after"]
     fb = end_findings(before.freq_hz, before.gamma_feedpoint, thresholds=(2.0,), events=a_b.events_fp)
     fa = end_findings(after.freq_hz, after.gamma_feedpoint, thresholds=(2.0,), events=a_a.events_fp)
-    fp = _end_numbers(f, al.gamma_feed_before, al.gamma_feed_after, fb, fa)
+    fp = _end_numbers(f, al.gamma_feedpoint_before, al.gamma_feedpoint_after, fb, fa,
+                      noise=(feedpoint_noise(before, a_b.noise_rms), feedpoint_noise(after, a_a.noise_rms)))
     fp.pop("_findings_before")
     kb, ka = _matched_resonances(a_b.events_fp, a_a.events_fp)
     res_b = a_b.events_fp.nominal[f"res_hz_{kb}"] if kb is not None else None
@@ -375,13 +407,13 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
     if al.gamma_analyzer_before is not None:
         sh = _end_numbers(f, al.gamma_analyzer_before, al.gamma_analyzer_after,
                           end_findings(before.freq_hz, before.gamma_analyzer, thresholds=(2.0,), events=a_b.events_an),
-                          end_findings(after.freq_hz, after.gamma_analyzer, thresholds=(2.0,), events=a_a.events_an))
+                          end_findings(after.freq_hz, after.gamma_analyzer, thresholds=(2.0,), events=a_a.events_an),
+                          noise=(a_b.noise_rms, a_a.noise_rms))
         sh.pop("_findings_before")
     else:
         sh = None
-    intervals = _change_intervals(a_b, a_a, kb, ka)
+    intervals, lost = _change_intervals(a_b, a_a, kb, ka)
 
-    same = _same_line(before.line, after.line)
     dloss = al.loss_after_db - al.loss_before_db
     line = {
         "same_line": same,
@@ -396,34 +428,38 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
     if not same and db is not None and da is not None:
         line["delay_change_ps"] = float((da - db) * 1e12)
     if same:
-        line["fitted_change"] = fit_line_change(f, al.gamma_feed_before, al.gamma_feed_after)
+        line["fitted_change"] = fit_line_change(f, al.gamma_feedpoint_before, al.gamma_feedpoint_after)
     bp_before = between_points(before.line, before.freq_hz, before.gamma_feedpoint)
     bp_after = between_points(after.line, after.freq_hz, after.gamma_feedpoint)
     if bp_before or bp_after:
         line["between_points"] = {"before": bp_before, "after": bp_after}
     wb, wa = between_warnings(bp_before), between_warnings(bp_after)
-    between_notes = ([w for w in wb if w in wa] + [f"baseline: {w}" for w in wb if w not in wa]
-                     + [f"after work: {w}" for w in wa if w not in wb])  # one characterization: said once
+    between_notes = _said_once(wb, wa)
 
-    verdict = _verdict(fp, line, limits, res_b, res_a)
-    _certainty(verdict, fp, limits, intervals)
+    step = _step_hz(before.freq_hz), _step_hz(after.freq_hz)
+    verdict = _verdict(fp, line, limits, res_b, res_a, resolution_hz=min((x for x in step if x), default=None))
+    _certainty(verdict, fp, limits, intervals, line, uncertain=a_b.mc is not None and a_a.mc is not None,
+               why=_why_no_interval(lost, res_b, res_a))
     verdict = Verdict(**verdict)
-    cause = Cause(**diagnose(fp, sh, line, limits, verdict))
     along = compare_along(before, after)[0]
-    if along.get("shown") and along.get("where") == "part-way along the line":
+    cause = Cause(**diagnose(fp, sh, line, limits, verdict, along=along))
+    if along.get("shown") and along.get("where") == "part-way along the line" and cause.code != "line":
         place = f"{along['first_change_m']:.1f} m" if along.get("first_change_m") is not None else "part-way"
         notes_along = [f"the look along the line puts the start of the change part-way along the line ({place}): "
                        "check the line there (a joint, a splice, water) as well as the antenna"]
     else:
         notes_along = []
     mc = a_b.mc
+    cov = mc.coverage if mc is not None else None
     return {
-        "baseline": {"file": before.source, "points": int(before.freq_hz.size)},
-        "after": {"file": after.source, "points": int(after.freq_hz.size)},
+        "baseline": {"file": before.source, "points": int(before.freq_hz.size), "step_hz": step[0]},
+        "after": {"file": after.source, "points": int(after.freq_hz.size), "step_hz": step[1]},
         "grid": {"method": al.method, "points": int(f.size), "low_hz": float(f[0]), "high_hz": float(f[-1])},
         "resonance_shift_hz": fp["resonance_shift_hz"],
         "resonance_before_hz": res_b,
         "resonance_after_hz": res_a,
+        "resonance_before_interval_hz": _draws_interval(a_b, kb, cov),
+        "resonance_after_interval_hz": _draws_interval(a_a, ka, cov),
         "min_swr_change": fp["min_swr_change"],
         "swr_2_width_change_hz": fp["swr_2_width_change_hz"],
         "resonance_shift_interval_hz": intervals.get("resonance_shift_hz"),
@@ -435,7 +471,8 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
                       "the line and of the calibration residuals, their noise is independent" if same else
                       "Monte Carlo propagation of distributions (JCGM 101:2008); each sweep through its own line, "
                       "the calibration residuals shared, the noise independent",
-            "noise_gamma_rms_before": a_b.noise_rms, "noise_gamma_rms_after": a_a.noise_rms},
+            "noise_gamma_rms_before": a_b.noise_rms, "noise_gamma_rms_after": a_a.noise_rms,
+            "not_worked_out": NO_INTERVAL_TEXT},
         "largest_gamma_change_feedpoint": fp["largest_gamma_change"],
         "largest_gamma_change_analyzer": sh["largest_gamma_change"] if sh else None,
         "feedpoint": fp,
@@ -445,10 +482,57 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         "verdict": verdict,
         "cause": cause,
         "along_the_line": along,
+        "warnings": list(warnings) + _said_once(warnings_for(before), warnings_for(after)),
         "notes": notes_along + list(al.notes) + between_notes + ([f"only {al.freq_hz.size} common frequencies: resonance, bandwidth and the "
                                     "antenna-or-line cause need a sweep, so this verdict says little"]
                                    if al.freq_hz.size < 3 else []),
     }
+
+
+NO_INTERVAL_TEXT = ("no interval is worked out for the largest change of |Gamma|: it is a maximum over frequency "
+                    "of each draw's whole trace at both sweeps, which the draws do not keep (only each sweep's "
+                    "findings and its SWR band)")
+"""Why the largest |Gamma| change has no interval (said in ``uncertainty.not_worked_out``)."""
+
+
+def _said_once(before: list, after: list) -> list:
+    """Warnings of both sweeps: those of both once, the others with the sweep they are about."""
+    return ([w for w in before if w in after] + [f"baseline: {w}" for w in before if w not in after]
+            + [f"after work: {w}" for w in after if w not in before])
+
+
+def _step_hz(freq_hz) -> float | None:
+    """A sweep's median frequency step, Hz (None for a single point): what its frequencies resolve."""
+    f = np.asarray(freq_hz, float)
+    return float(np.median(np.diff(f))) if f.size > 1 else None
+
+
+def _draws_interval(a, k, coverage):
+    """Coverage interval of one sweep's compared resonance (None without draws, or when it is lost too often)."""
+    if a.mc is None or k is None:
+        return None
+    return interval(a.mc.feedpoint.values[f"res_hz_{k}"], coverage)
+
+
+def check_feedpoint(corr: Correction) -> None:
+    """Refuse a correction with no feedpoint reflection to compare.
+
+    A passive antenna reflects less than it is sent, so its |Gamma| is below 1 (common practice, no source). When
+    removing the line gives 1 or more (or no finite value) at every point of a sweep, every feedpoint finding is
+    undefined, the limits have nothing to check and a verdict would pass by default: the line description (loss,
+    length, velocity factor) or the sweep is wrong. Raises :class:`InputFileError` naming the sweep."""
+    g = np.asarray(corr.gamma_feedpoint, complex)
+    with np.errstate(invalid="ignore"):
+        usable = np.abs(g) < 1.0
+    if g.size and not usable.any():
+        f = np.asarray(corr.freq_hz, float)
+        bad = ~np.isfinite(g)
+        how = (f"no finite feedpoint reflection at {int(bad.sum())} of {g.size} points ({ranges_text(f, bad)}), and "
+               "|Gamma| 1 or more at the others" if bad.any() else
+               f"a feedpoint |Gamma| of 1 or more at every one of its {g.size} points")
+        raise InputFileError(corr.source, f"removing the line gives {how}, which no antenna has: nothing at the "
+                                          "feedpoint can be compared. Check the line description (loss, length, "
+                                          "velocity factor) and the sweep")
 
 
 def trust_pair(before: Correction, after: Correction, same_line: bool, settings=None) -> dict:
@@ -458,9 +542,6 @@ def trust_pair(before: Correction, after: Correction, same_line: bool, settings=
     as they physically do. Both also share each draw of the calibration residuals: the same analyzer and kit
     are assumed (our choice; a kit's residual errors are mostly its standards' own, the same at every
     calibration). Their noise is independent."""
-    from .trust import UncertaintySettings, assess
-    from .uncertainty import draw_line, seeds
-
     st = UncertaintySettings() if settings is None else settings
     st = st if st.draws > 0 else None
     ld = None
@@ -500,29 +581,72 @@ def _span2_total_draws(a):
     return total
 
 
-def _change_intervals(a_b, a_a, kb, ka) -> dict:
-    """Coverage intervals of the compared changes from paired draws (after minus before)."""
-    from .uncertainty import change_interval
-
+def _change_intervals(a_b, a_a, kb, ka) -> tuple[dict, dict]:
+    """Coverage intervals of the compared changes from paired draws (after minus before), and for each change
+    the share of draws that lost it at each sweep, ``{name: (baseline, after)}`` (NaN draws; the interval is None
+    when more than :data:`~deembed.analysis.uncertainty.MAX_LOST_FRACTION` of the differences are lost)."""
     if a_b.mc is None or a_a.mc is None:
-        return {}
+        return {}, {}
     vb, va = a_b.mc.feedpoint.values, a_a.mc.feedpoint.values
     cov = a_b.mc.coverage
-    out = {"min_swr_change": change_interval(va["min_swr"], vb["min_swr"], cov),
-           "swr_2_width_change_hz": change_interval(_span2_total_draws(a_a), _span2_total_draws(a_b), cov)}
+    pairs = {"min_swr_change": (va["min_swr"], vb["min_swr"]),
+             "swr_2_width_change_hz": (_span2_total_draws(a_a), _span2_total_draws(a_b))}
     if kb is not None and ka is not None:
-        out["resonance_shift_hz"] = change_interval(va[f"res_hz_{ka}"], vb[f"res_hz_{kb}"], cov)
-    return out
+        pairs["resonance_shift_hz"] = (va[f"res_hz_{ka}"], vb[f"res_hz_{kb}"])
+    out, lost = {}, {}
+    for name, (after_draws, before_draws) in pairs.items():
+        out[name] = change_interval(after_draws, before_draws, cov)
+        lost[name] = (_lost(before_draws), _lost(after_draws))
+    return out, lost
 
 
-def _certainty(verdict: dict, fp: dict, limits: Limits, intervals: dict) -> None:
-    """Say, for each limit with an interval, whether it is exceeded beyond the uncertainty or only within it.
+def _lost(draws) -> float:
+    d = np.asarray(draws, dtype=float)
+    return float(np.mean(np.isnan(d))) if d.size else 0.0
+
+
+def _why_no_interval(lost: dict, res_b, res_a) -> dict:
+    """For each limit, why its change has no interval (the words of ``certainty_text`` for ``undetermined``)."""
+
+    def share(name, what):
+        fb, fa = lost.get(name, (0.0, 0.0))
+        sides = [f"{x:.0%} of the {side} draws" for x, side in ((fb, "baseline's"), (fa, "after sweep's"))
+                 if x > MAX_LOST_FRACTION]
+        where = " and ".join(sides) or "too many of the paired draws"
+        return (f"its interval was not placed: {what} is lost in {where} (more than {MAX_LOST_FRACTION:.1%}); "
+                "tighten the line's tolerances (measure or characterize the line)")
+
+    shift = ("the resonance is no longer inside the after sweep, so there is no shift to give an interval"
+             if res_b is not None and res_a is None else
+             "the baseline has no resonance to compare" if res_b is None else share("resonance_shift_hz",
+                                                                                    "the resonance"))
+    return {"max_shift_hz": shift,
+            "max_swr_rise": share("min_swr_change", "the lowest SWR"),
+            "max_bw_loss_percent": share("swr_2_width_change_hz", "an edge of the 2:1 span"),
+            "max_gamma_change": "no interval is worked out for the largest change of |Gamma| (the draws keep "
+                                "each sweep's findings, not every draw's whole trace)",
+            "max_loss_change_db": "no interval is worked out for the change of the two lines' matched loss"}
+
+
+CERTAINTY_TEXT = {"exceeded_within_uncertainty": "exceeded, but only within the uncertainty",
+                  "beyond": "exceeded beyond the uncertainty",
+                  "inside_within_uncertainty": "within the limit, but the uncertainty reaches past it"}
+"""What the terminal and the page say for each certainty (``undetermined`` says why, see :func:`_certainty`)."""
+
+
+def _certainty(verdict: dict, fp: dict, limits: Limits, intervals: dict, line: dict | None = None, *,
+               uncertain: bool = False, why: dict | None = None) -> None:
+    """Say, for each limit checked, whether it is exceeded beyond the uncertainty or only within it.
 
     ``verdict["certainty"][name]`` is ``"beyond"`` (exceeded, the whole interval past the limit),
     ``"exceeded_within_uncertainty"`` (exceeded, but the interval reaches back inside), ``"inside_within_uncertainty"``
-    (inside, but the interval reaches past the limit) or ``"inside"`` (the whole interval inside);
-    ``verdict["beyond_uncertainty"]`` lists the limits exceeded beyond it and ``verdict["within_uncertainty"]`` those
-    exceeded only within it."""
+    (inside, but the interval reaches past the limit), ``"inside"`` (the whole interval inside) or, when the
+    uncertainty was worked out (``uncertain``) but this limit's change has no interval, ``"undetermined"``;
+    ``verdict["beyond_uncertainty"]`` lists the limits exceeded beyond it, ``verdict["within_uncertainty"]`` those
+    exceeded only within it and ``verdict["undetermined"]`` those exceeded with no interval to tell.
+    ``verdict["certainty_text"]`` has a sentence for each limit whose certainty needs saying; for an
+    ``undetermined`` one it says why there is no interval (``why[name]``)."""
+    why = why or {}
     checks = []
     iv = intervals.get("resonance_shift_hz")
     if iv is not None and fp.get("resonance_shift_hz") is not None:
@@ -545,14 +669,24 @@ def _certainty(verdict: dict, fp: dict, limits: Limits, intervals: dict) -> None
             cert[name] = "beyond" if all_past else "exceeded_within_uncertainty"
         else:
             cert[name] = "inside_within_uncertainty" if some_past else "inside"
+    if uncertain:
+        checked = {"max_shift_hz": fp.get("resonance_shift_hz") is not None,
+                   "max_swr_rise": fp.get("min_swr_change") is not None,
+                   "max_gamma_change": fp.get("largest_gamma_change") is not None,
+                   "max_bw_loss_percent": fp.get("swr_2_width_change_percent") is not None,
+                   "max_loss_change_db": (line or {}).get("loss_change_db") is not None}
+        for name, was in checked.items():
+            if name not in cert and (was or name in verdict["limits_exceeded"]):
+                cert[name] = "undetermined"
     verdict["certainty"] = cert
-    verdict["beyond_uncertainty"] = [k for k in verdict["limits_exceeded"] if cert.get(k) == "beyond"]
-    verdict["within_uncertainty"] = [k for k in verdict["limits_exceeded"]
-                                     if cert.get(k) == "exceeded_within_uncertainty"]
-    notes = {"exceeded_within_uncertainty": "exceeded, but only within the uncertainty",
-             "beyond": "exceeded beyond the uncertainty",
-             "inside_within_uncertainty": "within the limit, but the uncertainty reaches past it"}
-    verdict["certainty_text"] = {k: notes[v] for k, v in cert.items() if v in notes}
+    exceeded = verdict["limits_exceeded"]
+    verdict["beyond_uncertainty"] = [k for k in exceeded if cert.get(k) == "beyond"]
+    verdict["within_uncertainty"] = [k for k in exceeded if cert.get(k) == "exceeded_within_uncertainty"]
+    verdict["undetermined"] = [k for k in exceeded if cert.get(k) == "undetermined"]
+    text = {k: CERTAINTY_TEXT[v] for k, v in cert.items() if v in CERTAINTY_TEXT}
+    text.update({k: f"{'exceeded' if k in exceeded else 'within the limit'}; how certain cannot be said: "
+                    f"{why.get(k, 'no interval')}" for k, v in cert.items() if v == "undetermined"})
+    verdict["certainty_text"] = {k: text[k] for k in cert if k in text}
 
 
 @dataclass(frozen=True)
@@ -561,7 +695,7 @@ class Verdict(Result):
 
     ``status`` is ``within_limits`` or ``outside_limits``; ``limits_exceeded`` the JSON names of the limits
     exceeded, ``reasons`` one sentence each. With uncertainty intervals, ``certainty`` says per limit whether it
-    is exceeded beyond or within the uncertainty (see :func:`_certainty`).
+    is exceeded beyond or within the uncertainty, or cannot say (``undetermined``; see :func:`_certainty`).
     """
 
     status: str
@@ -570,9 +704,10 @@ class Verdict(Result):
     certainty: dict | None = None
     beyond_uncertainty: list | None = None
     within_uncertainty: list | None = None
+    undetermined: list | None = None
     certainty_text: dict | None = None
 
-    OPTIONAL = ("certainty", "beyond_uncertainty", "within_uncertainty", "certainty_text")
+    OPTIONAL = ("certainty", "beyond_uncertainty", "within_uncertainty", "undetermined", "certainty_text")
 
     @property
     def ok(self) -> bool:
@@ -588,7 +723,11 @@ class Cause(Result):
     text: str
 
 
-def _verdict(fp: dict, line: dict, limits: Limits, res_b, res_a) -> dict:
+def _verdict(fp: dict, line: dict, limits: Limits, res_b, res_a, *, resolution_hz: float | None = None) -> dict:
+    """The limits exceeded and a sentence for each; frequencies in them to ``resolution_hz`` (the sweeps' step)."""
+
+    def freq(hz):
+        return fmt_freq(hz, resolution_hz=resolution_hz) if resolution_hz else fmt_freq(hz, 6)
 
     exceeded, reasons = [], []
     shift = fp["resonance_shift_hz"]
@@ -597,7 +736,7 @@ def _verdict(fp: dict, line: dict, limits: Limits, res_b, res_a) -> dict:
         reasons.append(f"the feedpoint resonance moved {shift / 1e3:+.1f} kHz (limit {fmt_freq(limits.max_shift_hz)})")
     elif res_b is not None and res_a is None:
         exceeded.append("max_shift_hz")
-        reasons.append(f"the feedpoint resonance at {fmt_freq(res_b, 6)} is no longer inside the sweep")
+        reasons.append(f"the feedpoint resonance at {freq(res_b)} is no longer inside the sweep")
     rise = fp["min_swr_change"]
     if rise is not None and rise > limits.max_swr_rise:
         exceeded.append("max_swr_rise")
@@ -605,7 +744,7 @@ def _verdict(fp: dict, line: dict, limits: Limits, res_b, res_a) -> dict:
     dg = fp["largest_gamma_change"]
     if dg is not None and dg > limits.max_gamma_change:
         exceeded.append("max_gamma_change")
-        reasons.append(f"the feedpoint |Gamma| changed by up to {dg:.3f} at {fmt_freq(fp['largest_gamma_change_at_hz'], 6)} "
+        reasons.append(f"the feedpoint |Gamma| changed by up to {dg:.3f} at {freq(fp['largest_gamma_change_at_hz'])} "
                        f"(limit {limits.max_gamma_change:g})")
     pct = fp["swr_2_width_change_percent"]
     if pct is not None and -pct > limits.max_bw_loss_percent:
@@ -622,8 +761,30 @@ def _verdict(fp: dict, line: dict, limits: Limits, res_b, res_a) -> dict:
 FEEDPOINT_LIMITS = ("max_shift_hz", "max_swr_rise", "max_gamma_change", "max_bw_loss_percent")
 
 
-def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dict) -> dict:
-    """Antenna or line: the rule in the module notes, as ``{"code", "text"}``."""
+def change_part_way(along: dict | None):
+    """Where the look along the line puts the start of the change, when that is on the line itself rather than at
+    its far end: ``(where, distance text, far-end text or None)`` or None.
+
+    The start counts as on the line when :func:`deembed.analysis.along.compare_along` places it part-way along or at
+    the analyzer end, which it does only more than two range resolutions from the far end the sweep itself
+    shows; without a far end found in the sweep nothing is said (the start cannot be told from the antenna)."""
+    if not along or not along.get("shown"):
+        return None
+    where = along.get("where")
+    if where not in ("part-way along the line", "at the analyzer end (jumper or connectors there)"):
+        return None
+    d, fe, res = along.get("first_change_m"), along.get("far_end_m_after"), along.get("resolution_m")
+    if d is None or fe is None or res is None or not d < fe - res:
+        return None
+    return where, f"{d:.1f} m", f"{fe:.1f} m (resolution {res:.2f} m)"
+
+
+def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dict, along: dict | None = None) -> dict:
+    """Antenna or line: the rule in the module notes, as ``{"code", "text"}``.
+
+    ``along`` is the comparison's look along the line (:func:`deembed.analysis.along.compare_along`); with one line
+    description, a change that starts on the line (:func:`change_part_way`) is the line's even when the
+    uniform-line fit cannot explain it (a fault at one place is no uniform change of loss or length)."""
     fp_out = any(k in verdict["limits_exceeded"] for k in FEEDPOINT_LIMITS)
     if not line["same_line"]:
         line_out = "max_loss_change_db" in verdict["limits_exceeded"]
@@ -643,7 +804,7 @@ def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dic
 
     if not fp_out:
         return {"code": "unchanged", "text": "no change beyond the limits: the feedpoint looks as it did at the baseline"}
-    noise = math.hypot(fp["trace_noise_before"], fp["trace_noise_after"])
+    noise = math.hypot(fp["trace_noise_before"] or 0.0, fp["trace_noise_after"] or 0.0)
     if noise > limits.max_gamma_change:
         return {"code": "unclear", "text": f"the feedpoint traces are too noisy to tell (about {noise:.3f} rms in Gamma "
                                            "after correction): sweep with more averaging, or characterize the line"}
@@ -661,9 +822,19 @@ def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dic
         return {"code": "line", "text": f"looks like the line, not the antenna: the whole change is what {what} "
                                         "would do (the |Gamma| curve kept its shape). Check the run for water, "
                                         "damage or a changed jumper, and characterize it again"}
+    on_line = change_part_way(along)
+    if on_line is not None:
+        where, at, far = on_line
+        place = ("at the analyzer end: the jumper or connectors there, or the analyzer's calibration"
+                 if where.startswith("at the analyzer end") else
+                 "part-way along the line: a joint, a splice, water or damage there")
+        return {"code": "line", "text": f"looks like the line at {at}: the look along the line puts the start of the "
+                                        f"change there, well before the far end at {far}, {place}. What lies beyond "
+                                        "that point, the antenna included, is seen through it, so whether the antenna "
+                                        "changed too can be told only once the line is put right"}
     return {"code": "antenna", "text": "looks like the antenna (or its connection at the feedpoint): the change is "
                                        "not what any change of the line's loss or length would do"}
 
 
-__all__ = ["Aligned", "Cause", "Verdict", "align", "compare_corrections", "diagnose",
-           "fit_line_change", "fitted_resonance", "trace_noise"]
+__all__ = ["Aligned", "Cause", "Verdict", "align", "change_part_way", "check_feedpoint", "compare_corrections",
+           "diagnose", "feedpoint_noise", "fit_line_change", "fitted_resonance"]

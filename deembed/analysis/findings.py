@@ -14,6 +14,8 @@ import numpy as np
 
 from ..base.errors import OptionError
 from ..physics.rf import gamma_from_z, swr, z_from_gamma
+from .smooth import MIN_WINDOW_POINTS, find_events
+from .uncertainty import interval
 
 DEFAULT_THRESHOLDS = (1.5, 2.0, 3.0)
 """SWR levels whose bandwidths :func:`end_findings` reports."""
@@ -458,7 +460,7 @@ def trim_advice(resonance_hz, target_hz, *, resonance_draws_hz=None, coverage: f
     resonance_hz, target_hz : float
         The series resonance to move and where it should go, Hz.
     resonance_draws_hz : ndarray, optional
-        Monte Carlo draws of the resonance: the change then gets a coverage interval.
+        Monte Carlo draws of the resonance (NaN where a draw lost it): the change then gets a coverage interval.
     coverage : float
         Coverage probability of that interval.
 
@@ -466,13 +468,19 @@ def trim_advice(resonance_hz, target_hz, *, resonance_draws_hz=None, coverage: f
     -------
     dict
         ``{"target_hz", "resonance_hz", "length_change_percent", "length_change_percent_interval",
-        "refused"}``; a negative change means shorten. ``refused`` is None, or the reason there is no advice
-        (the target is more than :data:`TRIM_RULE_LIMIT` away), with ``length_change_percent`` None.
+        "resonance_lost_fraction", "refused"}``; a negative change means shorten. ``refused`` is None, or the
+        reason there is no advice (the target is more than :data:`TRIM_RULE_LIMIT` away), with
+        ``length_change_percent`` None. ``resonance_lost_fraction`` is the share of the draws that lost the
+        resonance (None without draws).
 
     Notes
     -----
     Resonant frequency scales as 1/length (common practice, no source), so
     L_new / L_old = f_res / f_target and the change is (f_res / f_target - 1) * 100 %.
+
+    The interval follows the resonance's own rule (:func:`deembed.analysis.uncertainty.interval`): when more
+    than :data:`~deembed.analysis.uncertainty.MAX_LOST_FRACTION` of the draws lose the resonance, neither the
+    resonance nor the change gets an interval (an interval from the draws that kept it would be too narrow).
     """
     res, tgt = float(resonance_hz), float(target_hz)
     if not (math.isfinite(tgt) and tgt > 0):
@@ -480,7 +488,7 @@ def trim_advice(resonance_hz, target_hz, *, resonance_draws_hz=None, coverage: f
     if not (math.isfinite(res) and res > 0):
         raise OptionError("resonance frequency", f"{resonance_hz!r} is not a positive frequency")
     out = {"target_hz": tgt, "resonance_hz": res, "length_change_percent": (res / tgt - 1.0) * 100.0,
-           "length_change_percent_interval": None, "refused": None}
+           "length_change_percent_interval": None, "resonance_lost_fraction": None, "refused": None}
     if abs(tgt / res - 1) > TRIM_RULE_LIMIT:
         out["length_change_percent"] = None
         out["refused"] = (f"the target is {abs(tgt / res - 1):.0%} away from the resonance; the rule that resonance "
@@ -489,11 +497,10 @@ def trim_advice(resonance_hz, target_hz, *, resonance_draws_hz=None, coverage: f
                           "cut or add in steps and sweep again")
         return out
     if resonance_draws_hz is not None:
-        d = np.asarray(resonance_draws_hz, dtype=float)
-        d = d[np.isfinite(d)]
+        d = np.asarray(resonance_draws_hz, dtype=float).reshape(-1)
         if d.size >= 10:
-            lo, hi = np.quantile((d / tgt - 1.0) * 100.0, [(1 - coverage) / 2, (1 + coverage) / 2])
-            out["length_change_percent_interval"] = [float(lo), float(hi)]
+            out["resonance_lost_fraction"] = float(np.mean(~np.isfinite(d)))
+            out["length_change_percent_interval"] = interval((d / tgt - 1.0) * 100.0, coverage)
     return out
 
 
@@ -559,8 +566,6 @@ def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS, *, events=None, 
         ``noise_gamma_rms``: the noise the local models assumed (complex RMS in Gamma).
         Every number is a Python float; NaN and inf become None.
     """
-    from .smooth import MIN_WINDOW_POINTS, find_events
-
     f, g = _arrays(freq_hz, gamma, "gamma")
     if f.size < MIN_WINDOW_POINTS:     # too short for a local model: between-sample interpolation
         out = sample_end_findings(f, g, thresholds)

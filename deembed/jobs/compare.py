@@ -19,7 +19,7 @@ from ..analysis.along import compare_along
 from ..render.compare_page import along_overlay, compare_html, compare_plot
 from ..render.plots import save
 from ..io.outfolder import OutputFolder
-from .correct import line_sources
+from .correct import check_finite, line_sources
 
 
 def compare_paths(after_path: str, out_dir: str) -> dict:
@@ -61,7 +61,7 @@ def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *
 def compare_files(baseline: str, after: str, line, *, after_line: str | None = None, limits: Limits | None = None,
                   port: int | None = None, out: str | None = None, cables: str | None = None,
                   extrapolate: bool = False, inputs=(), title: str = "", settings=None, tolerances=(),
-                  columns=None) -> dict:
+                  columns=None, warnings=()) -> dict:
     """Correct a baseline and an after-work sweep and compare them; write the outputs when ``out`` is given.
 
     Parameters
@@ -84,6 +84,11 @@ def compare_files(baseline: str, after: str, line, *, after_line: str | None = N
         How the intervals are worked out (default: 1000 draws, seed 1, hobby calibration; 0 draws for none).
     tolerances : iterable of str
         ``NAME=VALUE`` line tolerances for ``after_line`` (as ``--tol``).
+    columns : optional
+        How to read a text table (``--columns``), for both sweeps.
+    warnings : iterable of str
+        Warnings about ``line`` made while building it (e.g. loss points no physical loss meets): they head the
+        comparison's ``warnings``, as in ``correct``.
 
     Returns
     -------
@@ -95,22 +100,29 @@ def compare_files(baseline: str, after: str, line, *, after_line: str | None = N
     result, _, _ = compare_files_with_corrections(baseline, after, line, after_line=after_line, limits=limits,
                                                   port=port, out=out, cables=cables, extrapolate=extrapolate,
                                                   inputs=inputs, title=title, settings=settings,
-                                                  tolerances=tolerances, columns=columns)
+                                                  tolerances=tolerances, columns=columns, warnings=warnings)
     return result
 
 
 def compare_files_with_corrections(baseline: str, after: str, line, *, after_line: str | None = None,
                                    limits: Limits | None = None, port: int | None = None, out: str | None = None,
                                    cables: str | None = None, extrapolate: bool = False, inputs=(),
-                                   title: str = "", settings=None, tolerances=(), columns=None) -> tuple:
-    """:func:`compare_files`, also returning both corrections: ``(result, before, after)`` (for recording)."""
+                                   title: str = "", settings=None, tolerances=(), columns=None, warnings=()) -> tuple:
+    """:func:`compare_files`, also returning both corrections: ``(result, before, after)`` (for recording).
+
+    Both corrections are refused as ``correct`` refuses them (:func:`deembed.jobs.correct.check_finite`: a
+    feedpoint reflection that is not finite somewhere), before anything is worked out or written."""
     other = line
+    warnings = list(warnings)
     if after_line:
-        other, _ = read_line_file(after_line, cables, extrapolate, tolerances=tolerances)
+        other, after_notes = read_line_file(after_line, cables, extrapolate, tolerances=tolerances)
+        warnings += [f"after-work line: {n}" for n in after_notes]
     need = "comparing with a baseline (resonance shift, the antenna-or-line cause)"
     before = correct(read_phase_sweep(baseline, columns, port=port, needs=need), line)
     later = correct(read_phase_sweep(after, columns, port=port, needs=need), other)
-    result = compare_corrections(before, later, limits, settings=settings)
+    for corr in (before, later):
+        check_finite(corr)
+    result = compare_corrections(before, later, limits, settings=settings, warnings=warnings)
     if out:
         result["outputs"] = write_compare_folder(result, before, later, after, out,
                                                  inputs=[baseline, after, after_line, cables, *inputs,

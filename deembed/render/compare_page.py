@@ -12,11 +12,13 @@ import os
 from ..base.units import fmt_freq
 from ..base.verdicts import TEXT as VERDICT_TEXT, WITHIN
 from ..physics import rf
+from ..analysis.compare import CERTAINTY_TEXT
+from .along import along_plot
 from .intervals import fmt_number, fmt_shift_interval
 from .labels import CAUSE_LABELS, LIMIT_LABELS, label
 from .pages import file_data_uri, finite, href, render_page
 from .plots import PLOT_BOUNDS, finish, shown, smith_frame, smith_grid, smith_trace, swr_scale
-from .along import along_plot
+from .text import freq_text
 
 BEFORE_COLOUR = "#3f51a3"
 AFTER_COLOUR = "#d19a1c"
@@ -76,15 +78,35 @@ def _sfmt(v, spec):
     return "n/a" if not finite(v) else format(v, spec)
 
 
-def _end_rows(end: dict, result: dict | None, exceeded) -> list:
-    """The rows of one end's table (``result`` given for the feedpoint, which also has the resonance)."""
+def _freq(v, interval=None, step_hz=None) -> str:
+    return freq_text(v, interval, step_hz) if finite(v) else "n/a"
+
+
+def _width_change(end: dict, iv) -> str:
+    """The change of the 2:1 width in per cent of the baseline's, with its interval when there is one."""
+    pct, bw_b = end.get("swr_2_width_change_percent"), end.get("swr_2_width_before_hz")
+    if not finite(pct):
+        return _sfmt(end["swr_2_width_change_hz"] / 1e3, "+.1f") + " kHz"
+    iv_pct = [100 * x / bw_b for x in iv] if iv and finite(bw_b) and bw_b > 0 else None
+    text = fmt_number(pct, iv_pct, default_decimals=1)
+    head, _, rest = text.partition(" (")
+    sign = lambda t: t if t.startswith("-") else "+" + t  # noqa: E731
+    if rest:
+        lo, _, hi = rest.rstrip(")").partition(" to ")
+        return f"{sign(head)} % ({sign(lo)} to {sign(hi)})"
+    return f"{sign(head)} %"
+
+
+def _end_rows(end: dict, result: dict | None, exceeded, step_hz=None) -> list:
+    """The rows of one end's table (``result`` given for the feedpoint, which also has the resonance and the
+    intervals); frequencies with the digits their interval supports, else the sweeps' step ``step_hz``."""
     rows = []
     if result is not None:
+        steps = ((result.get("baseline") or {}).get("step_hz"), (result.get("after") or {}).get("step_hz"))
         rows.append({"label": "Resonance", "hint": "reactance zero nearest the best match, fitted",
-                     "before": fmt_freq(result["resonance_before_hz"], 7) if finite(result["resonance_before_hz"])
-                     else "n/a",
-                     "after": fmt_freq(result["resonance_after_hz"], 7) if finite(result["resonance_after_hz"])
-                     else "n/a",
+                     "before": _freq(result["resonance_before_hz"], result.get("resonance_before_interval_hz"),
+                                     steps[0]),
+                     "after": _freq(result["resonance_after_hz"], result.get("resonance_after_interval_hz"), steps[1]),
                      "change": fmt_shift_interval(result["resonance_shift_hz"], result.get("resonance_shift_interval_hz")),
                      "over": "max_shift_hz" in exceeded})
     rows.append({"label": "Lowest SWR", "before": _sfmt(end["min_swr_before"], ".3f"),
@@ -92,26 +114,26 @@ def _end_rows(end: dict, result: dict | None, exceeded) -> list:
                  "change": fmt_number(end["min_swr_change"], (result or {}).get("min_swr_change_interval"),
                                       default_decimals=3) if result is not None else _sfmt(end["min_swr_change"], "+.3f"),
                  "over": result is not None and "max_swr_rise" in exceeded})
-    rows.append({"label": "Lowest SWR at", "before": fmt_freq(end["min_swr_freq_before_hz"], 7)
-                 if finite(end["min_swr_freq_before_hz"]) else "n/a",
-                 "after": fmt_freq(end["min_swr_freq_after_hz"], 7) if finite(end["min_swr_freq_after_hz"]) else "n/a",
+    rows.append({"label": "Lowest SWR at", "before": _freq(end["min_swr_freq_before_hz"], None, step_hz),
+                 "after": _freq(end["min_swr_freq_after_hz"], None, step_hz),
                  "change": fmt_shift_interval(end["min_swr_freq_shift_hz"])})
-    pct = end.get("swr_2_width_change_percent")
     rows.append({"label": "Width of the 2:1 span", "hint": "all spans together",
                  "before": fmt_freq(end["swr_2_width_before_hz"], 4) if end["swr_2_width_before_hz"] else "none",
                  "after": fmt_freq(end["swr_2_width_after_hz"], 4) if end["swr_2_width_after_hz"] else "none",
-                 "change": f"{pct:+.1f} %" if finite(pct) else _sfmt(end["swr_2_width_change_hz"] / 1e3, "+.1f") + " kHz",
+                 "change": _width_change(end, (result or {}).get("swr_2_width_change_interval_hz")),
                  "over": result is not None and "max_bw_loss_percent" in exceeded})
     at = end.get("largest_gamma_change_at_hz")
-    rows.append({"label": "Largest change of |\u0393|", "hint": f"at {fmt_freq(at, 6)}" if finite(at) else None,
+    rows.append({"label": "Largest change of |\u0393|", "hint": f"at {_freq(at, None, step_hz)}" if finite(at) else None,
                  "before": "", "after": "", "change": _sfmt(end["largest_gamma_change"], ".3f"),
                  "over": result is not None and "max_gamma_change" in exceeded})
     rows.append({"label": "Largest change of \u0393 (complex)", "before": "", "after": "",
                  "change": _sfmt(end["largest_gamma_vector_change"], ".3f")})
     rows.append({"label": "RMS change of \u0393 (complex)", "before": "", "after": "",
                  "change": _sfmt(end["rms_gamma_change"], ".3f")})
-    rows.append({"label": "Trace noise", "hint": "rms in \u0393, from the sweep itself",
-                 "before": _sfmt(end["trace_noise_before"], ".4f"), "after": _sfmt(end["trace_noise_after"], ".4f"),
+    rows.append({"label": "Trace noise", "hint": "rms in \u0393, estimated from the sweep itself as the correction "
+                                                 "reports it" + (", referred to the feedpoint through the line"
+                                                                 if result is not None else ""),
+                 "before": _sfmt(end["trace_noise_before"], ".2g"), "after": _sfmt(end["trace_noise_after"], ".2g"),
                  "change": ""})
     return rows
 
@@ -122,8 +144,9 @@ def _limits_rows(result: dict) -> list:
     pct = fp.get("swr_2_width_change_percent")
     lc = ln.get("loss_change_db")
     found = {
-        "max_shift_hz": fmt_shift_interval(result["resonance_shift_hz"]),
-        "max_swr_rise": _sfmt(fp["min_swr_change"], "+.3f"),
+        "max_shift_hz": fmt_shift_interval(result["resonance_shift_hz"], result.get("resonance_shift_interval_hz")),
+        "max_swr_rise": fmt_number(fp["min_swr_change"], result.get("min_swr_change_interval"), default_decimals=3)
+        if result.get("min_swr_change_interval") else _sfmt(fp["min_swr_change"], "+.3f"),
         "max_gamma_change": _sfmt(fp["largest_gamma_change"], ".3f"),
         "max_bw_loss_percent": f"{-pct:.1f} % lost" if finite(pct) and pct < 0 else
         (f"{pct:+.1f} %" if finite(pct) else "no 2:1 span at the baseline"),
@@ -137,8 +160,19 @@ def _limits_rows(result: dict) -> list:
         "max_loss_change_db": f"{lim['max_loss_change_db']:g} dB",
     }
     checked = {"max_bw_loss_percent": finite(pct), "max_loss_change_db": lc is not None}
+    v = result["verdict"]
+    cert, cert_text = v.get("certainty") or {}, v.get("certainty_text") or {}
+
+    def certainty(k):
+        c = cert.get(k)
+        if c is None:
+            return None
+        text = cert_text.get(k) or CERTAINTY_TEXT.get(c) or ("the whole interval is inside the limit" if c == "inside"
+                                                              else "no interval to tell")
+        return {"code": c, "text": text[:1].upper() + text[1:]}
+
     return [{"label": label(LIMIT_LABELS, k), "allowed": allowed[k], "found": found[k],
-             "ok": None if not checked.get(k, True) else k not in exceeded} for k in allowed]
+             "ok": None if not checked.get(k, True) else k not in exceeded, "certainty": certainty(k)} for k in allowed]
 
 
 def _line_rows(ln: dict) -> list:
@@ -149,14 +183,14 @@ def _line_rows(ln: dict) -> list:
         rows.append({"label": "After sweep corrected through", "value": ln["after"]})
     lc = ln.get("loss_change_db")
     if lc:
-        rows.append({"label": "Change of matched loss", "value": f"{lc['at_centre']:+.2f} dB at mid-band, "
+        rows.append({"label": "Change of matched loss", "value": f"{lc['at_centre']:+.2f} dB at band centre, "
                                                                  f"up to {lc['max_abs']:.2f} dB"})
     if finite(ln.get("delay_change_ps")):
         rows.append({"label": "Change of delay", "value": f"{ln['delay_change_ps']:+.0f} ps one way"})
     fit = ln.get("fitted_change")
     if fit:
         rows.append({"label": "As a change of the line", "value":
-                     f"{fit['loss_change_db']['at_centre']:+.2f} dB one-way loss at mid-band, "
+                     f"{fit['loss_change_db']['at_centre']:+.2f} dB one-way loss at band centre, "
                      f"{fit['delay_change_ps']:+.0f} ps one-way delay; leaves {fit['rms_residual']:.4f} rms in "
                      f"\u0393 unexplained of {fit['rms_change']:.4f} rms change"})
     return rows
@@ -183,6 +217,8 @@ def compare_html(result: dict, png_path: str | None = None, title: str = "", alo
                                    "feedpoint (solid, top) and at the analyzer (dashed, bottom)."})
     along_uri = file_data_uri(along_png)
     u = result.get("uncertainty")
+    steps = [x for x in ((result.get("baseline") or {}).get("step_hz"), (result.get("after") or {}).get("step_hz")) if x]
+    step = min(steps) if steps else None
     return render_page(
         "compare.html.j2",
         title=title or f"{os.path.basename(str(result['after']['file']))} against its baseline",
@@ -192,10 +228,13 @@ def compare_html(result: dict, png_path: str | None = None, title: str = "", alo
         cause={"label": label(CAUSE_LABELS, cause["code"]), "text": cause["text"]},
         reports=[{"side": side, "name": os.path.basename(str(p)), "href": href(p)} for side, p in reports if p],
         uncertainty=(f"Intervals: {u['coverage']:.0%} coverage, {u['draws']} Monte Carlo draws (seed {u['seed']}); "
-                     f"{u['method']}.") if u else None,
-        feedpoint={"heading": "At the feedpoint (corrected)", "rows": _end_rows(result["feedpoint"], result, exceeded)},
-        analyzer={"heading": "At the analyzer (measured)", "rows": _end_rows(result["analyzer"], None, exceeded)}
+                     f"{u['method']}." + (f" {u['not_worked_out'][:1].upper()}{u['not_worked_out'][1:]}."
+                                          if u.get("not_worked_out") else "")) if u else None,
+        feedpoint={"heading": "At the feedpoint (corrected)",
+                   "rows": _end_rows(result["feedpoint"], result, exceeded, step)},
+        analyzer={"heading": "At the analyzer (measured)", "rows": _end_rows(result["analyzer"], None, exceeded, step)}
         if result.get("analyzer") else None,
+        warnings=[str(w) for w in result.get("warnings") or []],
         analyzer_missing="the baseline's line is known only at its measured points",
         limits=_limits_rows(result), line_rows=_line_rows(result["line"]), figures=figures,
         along={"uri": along_uri, "text": (result.get("along_the_line") or {}).get("text", "")} if along_uri else None,

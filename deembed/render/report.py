@@ -15,12 +15,15 @@ import math
 import os
 
 from . import plots
+from ..analysis.between import METHOD_TEXT as BETWEEN_TEXT
 from ..base.units import fmt_freq
+from ..base.verdicts import TEXT as VERDICT_TEXT, WITHIN
 from ..io.atomic import write_text_atomic
+from ..physics.between import FEEDPOINT_ERROR_WARN
 from .intervals import fmt_freq_interval, fmt_number
 from .pages import LINE_LOSS_COLOUR, file_data_uri, finite, num, png_data_uri, render_page
 from .plots import ANALYZER_COLOUR, FEEDPOINT_COLOUR
-from ..base.verdicts import TEXT as VERDICT_TEXT, WITHIN
+from .text import freq_text, sweep_step_hz, trim_amount, trim_resonance_interval
 
 MAX_RESONANCES = 4
 MAX_SPANS = 3
@@ -184,9 +187,6 @@ def _between(bp) -> dict | None:
     """How a characterized run was evaluated between its points."""
     if not bp:
         return None
-    from ..analysis.between import METHOD_TEXT as BETWEEN_TEXT
-    from ..physics.between import FEEDPOINT_ERROR_WARN
-
     err = bp.get("estimated_error")
     big = finite(err) and err > FEEDPOINT_ERROR_WARN
     where = bp.get("estimated_error_at_hz")
@@ -292,21 +292,23 @@ def _trust(summary: dict) -> dict:
     return out
 
 
-def _trim(fp: dict, fq: _Freq) -> dict | None:
+def _trim(fp: dict, fq: _Freq, step_hz=None) -> dict | None:
+    """The trimming callout: the change in the verb's direction with its interval (as the terminal), the
+    resonance with the digits its interval supports (else the sweep's step), the target as given."""
     t = fp.get("trim")
     if not t:
         return None
+    res = freq_text(t.get("resonance_hz"), trim_resonance_interval(fp, t), step_hz, with_interval=False) \
+        if finite(t.get("resonance_hz")) else "n/a"
+    to = fmt_freq(t.get("target_hz"), 6)
     if t.get("refused"):
-        return {"refused": t["refused"], "from": fq(t.get("resonance_hz")), "to": fq(t.get("target_hz"))}
+        return {"refused": t["refused"], "from": res, "to": to}
     if not finite(t.get("length_change_percent")):
         return None
     pct = t["length_change_percent"]
-    iv = t.get("length_change_percent_interval")
-    if iv and iv[0] * iv[1] > 0:
-        iv = sorted(abs(x) for x in iv)
-    amount = fmt_number(abs(pct), iv, default_decimals=1, unit="%").replace(" %", "\u00a0%")
-    return {"verb": "Lengthen" if pct > 0 else "Shorten", "amount": amount,
-            "from": fq(t.get("resonance_hz")), "to": fq(t.get("target_hz"))}
+    amount, note = trim_amount(t)
+    return {"verb": "Lengthen" if pct > 0 else "Shorten", "amount": amount.replace(" %", "\u00a0%"), "from": res,
+            "to": to, "note": note[:1].upper() + note[1:] + "." if note else None}
 
 
 def _bands(summary: dict, fq: _Freq) -> dict | None:
@@ -413,7 +415,7 @@ def report_html(corr, summary: dict, table: dict | None = None, written: dict | 
         line=_line(summary, corr, fq),
         ends=_ends(summary, fq),
         trust=_trust(summary),
-        trim=_trim(summary["feedpoint"], fq),
+        trim=_trim(summary["feedpoint"], fq, sweep_step_hz(sw)),
         bands=_bands(summary, fq),
         power=_power(summary, fq),
         figures=_figures(corr, table or {}, summary, written),

@@ -1,28 +1,59 @@
 """Plain-text renderings of results for the terminal."""
 from __future__ import annotations
 
-from ..base.textsafe import write_control
-from ..base.units import SWR_PRINT_MAX, fmt_freq, fmt_span, fmt_swr
-from .along import along_line_text
-from .intervals import fmt_freq_interval, fmt_number, fmt_shift_interval
 import os
 import sys
-from ..analysis.between import between_text
+
+from ..analysis.between import between_text, between_warnings
 from ..analysis.limits import FIELD_OF_JSON, LIMIT_NAMES
+from ..base.textsafe import write_control
+from ..base.units import SWR_PRINT_MAX, fmt_freq, fmt_span, fmt_swr
 from ..base.verdicts import ERROR, TEXT as VERDICT_TEXT, WITHIN
+from .along import along_line_text
+from .intervals import fmt_freq_interval, fmt_number, fmt_shift_interval, step_for
 
 
 def _unc(end: dict) -> dict:
     return end.get("uncertainty") or {}
 
 
-def _edge(value, iv, at_sweep_edge: bool) -> str:
+def sweep_step_hz(sweep: dict) -> float | None:
+    """The mean frequency step of a summary's ``sweep`` block (None for one point): what its frequencies resolve."""
+    n = sweep.get("points") or 0
+    if n < 2 or sweep.get("low_hz") is None or sweep.get("high_hz") is None:
+        return None
+    return (sweep["high_hz"] - sweep["low_hz"]) / (n - 1)
+
+
+def freq_text(value_hz, interval=None, step_hz=None, *, with_interval: bool = True) -> str:
+    """A frequency with the digits its resolution supports (our rule; common practice, no source): its coverage
+    interval's when it has one (``7.041 MHz (7.032 to 7.050)``, or ``7.041 MHz`` alone without
+    ``with_interval``), else the sweep's step ``step_hz`` (6.848 MHz on a 2 kHz grid), else 4 figures."""
+    step = step_for(*interval) if interval else None
+    if step is not None:
+        return fmt_freq_interval(value_hz, interval) if with_interval else fmt_freq(value_hz, resolution_hz=step)
+    if step_hz:
+        return fmt_freq(value_hz, resolution_hz=step_hz)
+    return fmt_freq(value_hz)
+
+
+def in_direction(value, interval):
+    """A signed change and its interval, as an amount in the value's own direction: ``-0.9`` with
+    ``[-1.72, 0.066]`` is 0.9 with ``[-0.066, 1.72]`` (shorten by 0.9, from -0.1 to 1.7)."""
+    if not interval or value is None:
+        return (None if value is None else abs(value)), interval
+    if value < 0:
+        return -value, [-interval[1], -interval[0]]
+    return value, list(interval)
+
+
+def _edge(value, iv, at_sweep_edge: bool, step_hz=None) -> str:
     if at_sweep_edge:
         return f"{fmt_freq(value)} (sweep edge)"
-    return fmt_freq_interval(value, iv, default_digits=4)
+    return freq_text(value, iv, step_hz)
 
 
-def _spans(spans, most: int = 2, cut=None, ivs=None) -> str:
+def _spans(spans, most: int = 2, cut=None, ivs=None, step_hz=None) -> str:
     """The widest ``most`` spans, in frequency order, and how many more there are; edges with their
     intervals, and edges where the sweep cuts a span marked."""
     if not spans:
@@ -34,8 +65,8 @@ def _spans(spans, most: int = 2, cut=None, ivs=None) -> str:
     for i in sorted(order):
         lo, hi = spans[i]
         iv_lo, iv_hi = (ivs[i] if i < len(ivs) and ivs[i] else [None, None])
-        a = _edge(lo, iv_lo, bool(cut[i]) and iv_lo is None and _at_edge(lo, spans))
-        b = _edge(hi, iv_hi, bool(cut[i]) and iv_hi is None and _at_edge(hi, spans))
+        a = _edge(lo, iv_lo, bool(cut[i]) and iv_lo is None and _at_edge(lo, spans), step_hz)
+        b = _edge(hi, iv_hi, bool(cut[i]) and iv_hi is None and _at_edge(hi, spans), step_hz)
         parts.append(fmt_span(lo, hi) if a == b else f"{a} to {b}")  # never "a to a"
     text = ", ".join(parts)
     if any(cut[i] for i in order):
@@ -56,32 +87,32 @@ def _row(label: str, left: str, right: str) -> str:
     return f"{label:24}{left:34}{right}"
 
 
-def _min(end: dict) -> str:
+def _min(end: dict, step_hz=None) -> str:
     m = end.get("min_swr") or {}
     if m.get("swr") is None:
         return "n/a"
     u = _unc(end)
     swr = fmt_swr(m["swr"]) if m["swr"] > SWR_PRINT_MAX else fmt_number(m["swr"], u.get("min_swr"))
-    text = f"{swr} at {fmt_freq_interval(m['freq_hz'], u.get('min_swr_freq_hz'))}"
+    text = f"{swr} at {freq_text(m['freq_hz'], u.get('min_swr_freq_hz'), step_hz)}"
     if m.get("swr_low") is not None or m.get("swr_high") is not None:  # a sweep without phase: the bound
         text += f" (true: {fmt_swr(m.get('swr_low'))} to {fmt_swr(m.get('swr_high'))})"
     return text
 
 
-def _res(end: dict) -> str:
+def _res(end: dict, step_hz=None) -> str:
     if end.get("phase") is False:
         return "n/a (needs phase)"
     items = end.get("resonances") or []
     if not items:
         return "none in sweep"
     if len(items) > 3:  # the line's rotation makes many crossings at the analyzer end
-        return f"{len(items)} crossings, {fmt_span(items[0]['freq_hz'], items[-1]['freq_hz'])}"
+        return f"{len(items)} crossings, {fmt_span(items[0]['freq_hz'], items[-1]['freq_hz'], step_hz)}"
     u = _unc(end)
     ivs = u.get("resonances_hz") or [None] * len(items)
     lost = u.get("not_resolved") or {}
     cells = []
     for j, (r, iv) in enumerate(zip(items, ivs)):
-        cell = f"{fmt_freq_interval(r['freq_hz'], iv)}, {r['kind']}"
+        cell = f"{freq_text(r['freq_hz'], iv, step_hz)}, {r['kind']}"
         if f"resonances_hz[{j}]" in lost:
             cell += f" (not placed in {lost[f'resonances_hz[{j}]']:.0%} of the draws)"
         cells.append(cell)
@@ -99,16 +130,34 @@ def _q(end: dict) -> str:
     return f"{a} (from 2:1 span: {b})"
 
 
-def _trim(trim: dict) -> str:
-    head = f"\ntrim    resonance {fmt_freq(trim['resonance_hz'], 6)}, target {fmt_freq(trim['target_hz'], 6)}: "
+def trim_resonance_interval(fp: dict, trim: dict):
+    """The coverage interval of the resonance the trimming advice is about (None when it has none)."""
+    ivs = _unc(fp).get("resonances_hz") or []
+    for r, iv in zip(fp.get("resonances") or [], ivs):
+        if r.get("freq_hz") == trim.get("resonance_hz"):
+            return iv
+    return None
+
+
+def trim_amount(trim: dict, unit: str = "%") -> tuple[str, str | None]:
+    """The trimming change as an amount in the verb's direction, with its interval in that direction too:
+    "0.9 % (-0.1 to 1.7)" (shorten) for a change of -0.9 % with [-1.72, +0.07] (negative = shorten); and, when
+    there is no interval because the resonance was lost in too many draws, a note saying so (else None)."""
+    amount, iv = in_direction(trim["length_change_percent"], trim.get("length_change_percent_interval"))
+    lost = trim.get("resonance_lost_fraction")
+    note = f"no interval: the resonance is not placed in {lost:.0%} of the draws" if iv is None and lost else None
+    return fmt_number(amount, iv, default_decimals=1, unit=unit), note
+
+
+def _trim(trim: dict, fp: dict | None = None, step_hz=None) -> str:
+    res = freq_text(trim["resonance_hz"], trim_resonance_interval(fp or {}, trim), step_hz, with_interval=False)
+    head = f"\ntrim    resonance {res}, target {fmt_freq(trim['target_hz'], 6)}: "
     if trim.get("refused"):
         return head + f"no advice ({trim['refused']})"
-    pct = trim["length_change_percent"]
-    verb = "lengthen" if pct > 0 else "shorten"
-    iv = trim.get("length_change_percent_interval")
-    amount = fmt_number(abs(pct), sorted(abs(x) for x in iv) if iv and iv[0] * iv[1] > 0 else iv, default_decimals=1,
-                        unit="%")
-    return head + f"{verb} the element by about {amount} (first estimate; cut in small steps)"
+    verb = "lengthen" if trim["length_change_percent"] > 0 else "shorten"
+    amount, note = trim_amount(trim)
+    return head + f"{verb} the element by about {amount} (first estimate; cut in small steps" + \
+        (f"; {note})" if note else ")")
 
 
 def _trust_lines(summary: dict) -> list[str]:
@@ -151,25 +200,26 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
         *([f"        between points: {between_text(ln['between_points'])}"] if ln.get("between_points") else []),
     ]
     lines += _trust_lines(summary)
+    step = sweep_step_hz(sw)
     lines += [
         "",
         f"{'':24}{'at the analyzer':34}{'at the feedpoint' if sw.get('phase', True) else 'at the feedpoint (no phase)'}",
-        _row("lowest SWR", _min(sh), _min(fp)),
-        _row("resonance (X = 0)", _res(sh), _res(fp)),
+        _row("lowest SWR", _min(sh, step), _min(fp, step)),
+        _row("resonance (X = 0)", _res(sh, step), _res(fp, step)),
     ]
     for key in (fp.get("swr_spans_hz") or {}):
         cells = []
         for end in (sh, fp):
             ivs = (_unc(end).get("swr_spans_hz") or {}).get(key)
             cells.append(_spans((end.get("swr_spans_hz") or {}).get(key), cut=(end.get("swr_spans_cut_by_sweep_edge")
-                                                                              or {}).get(key), ivs=ivs))
+                                                                              or {}).get(key), ivs=ivs, step_hz=step))
         lines.append(_row(f"SWR <= {key} span", *cells))
     lines.append(_row("Q near best match", _q(sh), _q(fp)))
     if fp.get("phase") is False:
         lines.append(f"\nresonance and Q: {fp['not_available']['resonances']}")
     trim = fp.get("trim")
     if trim:
-        lines.append(_trim(trim))
+        lines.append(_trim(trim, fp, step))
     bands = summary.get("bands")
     if bands:
         lines.append(f"\nbands   worst SWR in each band (limit {bands['swr_limit']:g}:1)      analyzer  feedpoint")
@@ -258,16 +308,22 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
     """A few readable lines: the numbers at both ends, the verdict naming the limits exceeded, the cause.
 
     ``limit_names`` says how to name each limit (the command line passes its option names); default: the
-    limit's site-file name (``max_shift``).
+    limit's site-file name (``max_shift``). Frequencies get the digits their interval supports, else those of
+    the sweep's step.
     """
 
     fp, sh = result["feedpoint"], result["analyzer"]
+    names = limit_names or LIMIT_NAMES
 
     def num(v, spec=".3f"):
         return "n/a" if v is None else format(v, spec)
 
-    def freq(v):
-        return "n/a" if v is None else fmt_freq(v, 7)
+    def res(side):
+        v = result[f"resonance_{side}_hz"]
+        if v is None:
+            return "n/a"
+        step = (result.get("baseline" if side == "before" else "after") or {}).get("step_hz")
+        return freq_text(v, result.get(f"resonance_{side}_interval_hz"), step)
 
     shift = result["resonance_shift_hz"]
     lines = [
@@ -277,7 +333,7 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
         f"{fmt_span(result['grid']['low_hz'], result['grid']['high_hz'])} ({result['grid']['method']})",
         "",
         f"{'':28}{'at the analyzer':28}{'at the feedpoint'}",
-        f"{'resonance':28}{'(not meaningful)':28}{freq(result['resonance_before_hz'])} -> {freq(result['resonance_after_hz'])}",
+        f"{'resonance':28}{'(not meaningful)':28}{res('before')} -> {res('after')}",
     ]
     if shift is not None:
         iv = result.get("resonance_shift_interval_hz")
@@ -298,13 +354,20 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
             if iv and fp[key] is not None:
                 b = _signed(fmt_number(fp[key], iv, default_decimals=3))
         lines.append(f"{label:28}{a:28}{b}")
+    def noise(end):  # as correct prints the sweep's noise
+        cells = ["n/a" if not end or end.get(k) is None else f"{end[k]:.2g}"
+                 for k in ("trace_noise_before", "trace_noise_after")]
+        return " / ".join(cells)
+
+    lines.append(f"{'noise, rms in Gamma':28}{noise(sh):28}{noise(fp)}  (baseline / after; at the feedpoint: "
+                 "the sweep's, referred through the line)")
     u = result.get("uncertainty")
     if u:
         lines.append(f"{'':28}intervals: {u['coverage']:.0%} coverage, {u['draws']} draws; {u['method'].split('; ', 1)[-1]}")
     ln = result["line"]
     if ln["loss_change_db"] is not None:
         lines.append(f"\nline     {ln['before']}\n  now    {ln['after']}\n         matched loss change "
-                     f"{ln['loss_change_db']['at_centre']:+.2f} dB at the centre")
+                     f"{ln['loss_change_db']['at_centre']:+.2f} dB at band centre")
     texts = {k: between_text(bp) for k, bp in (ln.get("between_points") or {}).items() if bp}
     if len(set(texts.values())) == 1 and len(texts) == 2:
         lines.append(f"line between points: {next(iter(texts.values()))}")
@@ -315,15 +378,19 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
     if v["status"] == WITHIN:
         lines.append(f"verdict  {VERDICT_TEXT[WITHIN]}")
     else:
-        names = ", ".join((limit_names or LIMIT_NAMES).get(FIELD_OF_JSON[k], k) for k in v["limits_exceeded"])
-        lines.append(f"verdict  {VERDICT_TEXT[v['status']]} ({names})")
+        exceeded = ", ".join(names.get(FIELD_OF_JSON[k], k) for k in v["limits_exceeded"])
+        lines.append(f"verdict  {VERDICT_TEXT[v['status']]} ({exceeded})")
         lines += [f"         - {r}" for r in v["reasons"]]
+    cert = v.get("certainty") or {}
     for k, text in (v.get("certainty_text") or {}).items():
-        lines.append(f"         {(limit_names or LIMIT_NAMES).get(FIELD_OF_JSON.get(k, k), k)}: {text}")
+        if cert.get(k) == "undetermined" and k not in v["limits_exceeded"]:
+            continue  # said in the JSON and on the page; the numbers above already show the missing interval
+        lines.append(f"         {names.get(FIELD_OF_JSON.get(k, k), k)}: {text}")
     lines.append(f"cause    {result['cause']['code']}: {result['cause']['text']}")
     along = result.get("along_the_line")
     if along:
         lines.append(f"along    {along['text']}")
+    lines += [f"warning: {w}" for w in result.get("warnings") or []]
     lines += [f"note: {n}" for n in result["notes"]]
     return "\n".join(lines)
 
@@ -412,6 +479,27 @@ def report_text(r: dict) -> str:
     return "\n".join(out)
 
 
+def _between_lines(ant: dict) -> list[str]:
+    """For an antenna on a characterized line: one line saying how the line was evaluated between its points
+    (as ``correct``'s terminal does), then that evaluation's warnings, each said once for the antenna."""
+    blocks = [("baseline", (ant.get("baseline") or {}).get("between_points"))]
+    blocks += [(os.path.basename(str(c.get("file", ""))), c.get("between_points")) for c in ant.get("comparisons") or []]
+    blocks = [(who, bp) for who, bp in blocks if bp]
+    if not blocks:
+        return []
+    texts = {}
+    for who, bp in blocks:
+        texts.setdefault(between_text(bp), []).append(who)
+    if len(texts) == 1:
+        out = [f"  {ant['name']}: line between points: {next(iter(texts))}"]
+    else:
+        out = [f"  {ant['name']}: line between points ({', '.join(who)}): {text}" for text, who in texts.items()]
+    seen = []
+    for _, bp in blocks:
+        seen += [w for w in between_warnings(bp) if w not in seen]
+    return out + [f"  {ant['name']}: warning: {w}" for w in seen]
+
+
 def site_text(summary: dict, out: str) -> str:
     """One line per comparison (or antenna that could not be checked), then where the index is."""
 
@@ -428,6 +516,7 @@ def site_text(summary: dict, out: str) -> str:
             when = " (dated by its file's time)" if cmp.get("date_source") == "file_mtime" else ""
             lines.append(f"  {ant['name']}: {os.path.basename(cmp['file'])}{when}: {st}{extra}; "
                          f"cause {cmp['cause']['code']}")
+        lines += _between_lines(ant)
         for reason in (ant.get("trend") or {}).get("flags", []):
             lines.append(f"  {ant['name']}: trend: {reason}")
     hist = summary.get("history")
