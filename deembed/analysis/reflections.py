@@ -175,10 +175,12 @@ def prominence(y, idx) -> np.ndarray:
         bases = []
         if i > 0:
             higher = np.flatnonzero(y[:i] > top)
-            bases.append(y[(higher[-1] + 1 if higher.size else 0):i].min())
+            side = y[(higher[-1] + 1 if higher.size else 0):i]
+            bases.append(side.min() if side.size else top)  # a higher neighbour: not a peak at all
         if i < n - 1:
             higher = np.flatnonzero(y[i + 1:] > top)
-            bases.append(y[i + 1:(i + 1 + higher[0] if higher.size else n)].min())
+            side = y[i + 1:(i + 1 + higher[0] if higher.size else n)]
+            bases.append(side.min() if side.size else top)
         out[k] = top - max(bases) if bases else np.inf
     return out
 
