@@ -29,7 +29,8 @@ HOSTILE = "x'); DROP TABLE deembed_sweeps; --\"; SELECT 1; ' OR '1'='1 \\ % ? $1
 def _record(i: int, *, site="Ridgeback Hill", antenna="2 m vertical", rng=None, text="") -> SweepRecord:
     rng = rng or np.random.default_rng(i)
     vals = (
-        Value("resonance_hz", float(145.6e6 + rng.normal(0, 2e4)), float(145.5e6), float(145.7e6), "Hz", "fit" + text),
+        Value("resonance_hz", float(145.6e6 + rng.normal(0, 2e4)), float(145.5e6), float(145.7e6), "Hz", "fit" + text,
+              0, float(145.6e6 - 3e4 / 7), float(145.6e6 + 3e4 / 7)),
         Value("min_swr", float(1 + rng.random()), None, None, "", "findings" + text),
         Value("line_loss_db", float(3.6 + 1 / 3 + rng.normal(0, 0.01)), 3.1, 4.2, "dB", "m" + text),
         Value("resonances_hz", 1e-300 * (i + 1), None, None, "Hz", "", 0),   # tiny: exact doubles only
@@ -57,7 +58,7 @@ def _same(a: SweepRecord, b: SweepRecord) -> bool:
     key = lambda v: (v["quantity"], v["idx"])  # noqa: E731
     for x, y in zip(sorted(va, key=key), sorted(vb, key=key)):
         for k in x:
-            if k in ("value", "low", "high"):
+            if k in ("value", "low", "high", "run_low", "run_high"):
                 if _bits(x[k]) != _bits(y[k]):
                     return False
             elif x[k] != y[k]:
@@ -143,23 +144,106 @@ def test_newer_schema_refused_and_untouched(store_target):
 
 
 def test_migration_path_upgrades_in_one_transaction(store_target, monkeypatch):
-    """A pretend version 2 that adds a column: an old store is upgraded and keeps its rows; a failing
+    """A pretend next version that adds a column: an old store is upgraded and keeps its rows; a failing
     step leaves it exactly as it was."""
+    now = history.SCHEMA_VERSION
     with open_store(store_target.target) as st:
         st.record([_record(8)])
-    monkeypatch.setattr(history, "SCHEMA_VERSION", 2)
-    monkeypatch.setitem(history.MIGRATIONS, 1, ("ALTER TABLE deembed_sweeps ADD COLUMN weather TEXT",
-                                                "THIS IS NOT SQL"))
+    monkeypatch.setattr(history, "SCHEMA_VERSION", now + 1)
+    monkeypatch.setitem(history.MIGRATIONS, now, ("ALTER TABLE deembed_sweeps ADD COLUMN weather TEXT",
+                                                  "THIS IS NOT SQL"))
     with open_store(store_target.target) as st:
         with pytest.raises(InputFileError, match="could not be used"):
             st.ensure_schema()
-    assert store_target.raw_execute("SELECT value FROM deembed_meta WHERE key = ?", ("schema_version",)) == [("1",)]
-    monkeypatch.setitem(history.MIGRATIONS, 1, ("ALTER TABLE deembed_sweeps ADD COLUMN weather TEXT",))
+    assert store_target.raw_execute("SELECT value FROM deembed_meta WHERE key = ?",
+                                    ("schema_version",)) == [(str(now),)]
+    monkeypatch.setitem(history.MIGRATIONS, now, ("ALTER TABLE deembed_sweeps ADD COLUMN weather TEXT",))
     with open_store(store_target.target) as st:
         st.record([_record(9)])
-        assert st.schema_version() == 2
+        assert st.schema_version() == now + 1
         assert len(st.sweeps()) == 2
     assert store_target.raw_execute("SELECT count(*) FROM deembed_sweeps WHERE weather IS NULL") == [(2,)]
+
+
+V1_SCHEMA = (
+    # version 1 as it was released (the module notes of deembed.io.history before version 2), kept here verbatim
+    "CREATE TABLE deembed_meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
+    "CREATE TABLE deembed_sweeps ("
+    " site TEXT NOT NULL, antenna TEXT NOT NULL, sweep_sha256 TEXT NOT NULL,"
+    " sweep_file TEXT NOT NULL, sweep_date TEXT NOT NULL, date_source TEXT NOT NULL,"
+    " role TEXT NOT NULL, line TEXT NOT NULL,"
+    " verdict TEXT, cause_code TEXT, cause_text TEXT, baseline_sha256 TEXT,"
+    " recorded_at TEXT NOT NULL, tool_version TEXT NOT NULL,"
+    " PRIMARY KEY (site, antenna, sweep_sha256))",
+    "CREATE TABLE deembed_values ("
+    " site TEXT NOT NULL, antenna TEXT NOT NULL, sweep_sha256 TEXT NOT NULL,"
+    " quantity TEXT NOT NULL, idx INTEGER NOT NULL,"
+    " value DOUBLE PRECISION, low DOUBLE PRECISION, high DOUBLE PRECISION,"
+    " unit TEXT NOT NULL, method TEXT NOT NULL,"
+    " PRIMARY KEY (site, antenna, sweep_sha256, quantity, idx),"
+    " FOREIGN KEY (site, antenna, sweep_sha256) REFERENCES deembed_sweeps (site, antenna, sweep_sha256))",
+    "CREATE INDEX deembed_sweeps_by_date ON deembed_sweeps (site, antenna, sweep_date)",
+)
+
+
+def _v1_store(store_target, r: SweepRecord) -> None:
+    for sql in V1_SCHEMA:
+        store_target.raw_execute(sql)
+    store_target.raw_execute("INSERT INTO deembed_meta (key, value) VALUES (?, ?)", ("schema_version", "1"))
+    store_target.raw_execute("INSERT INTO deembed_meta (key, value) VALUES (?, ?)", ("created_by", "deembed 0.1.0"))
+    cols = [c for c in history._SWEEP_COLS]
+    store_target.raw_execute(f"INSERT INTO deembed_sweeps ({', '.join(cols)}) VALUES ({', '.join('?' * len(cols))})",
+                             tuple(getattr(r, c) for c in cols))
+    for v in r.values:
+        store_target.raw_execute("INSERT INTO deembed_values (site, antenna, sweep_sha256, quantity, idx, value, low, "
+                                 "high, unit, method) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                                 (r.site, r.antenna, r.sweep_sha256, v.quantity, v.idx, v.value, v.low, v.high, v.unit,
+                                  v.method))
+
+
+def test_a_version_1_store_is_read_as_it_is_and_upgraded_by_recording(store_target):
+    """A store written by version 1 (no per-run intervals): reading leaves it at version 1 and gives None for
+    them; the next record upgrades it (MIGRATIONS[1]) in the same transaction, the old rows bit for bit."""
+    old = dataclasses.replace(_record(11), recorded_at="2025-01-01T00:00:00+00:00", tool_version="0.1.0")
+    old = dataclasses.replace(old, values=tuple(dataclasses.replace(v, run_low=None, run_high=None)
+                                                for v in old.values))
+    _v1_store(store_target, old)
+    with open_store(store_target.target) as st:
+        (got,) = st.sweeps()
+        assert _same(old, got)
+        assert st.schema_version() == 1
+        history.check_target(store_target.target)   # can be recorded into: an upgrade path exists
+        new = _record(12)
+        st.record([new])
+        assert st.schema_version() == history.SCHEMA_VERSION == 2
+        back = {r.sweep_sha256: r for r in st.sweeps()}
+    assert _same(old, back[old.sweep_sha256])
+    assert _same(dataclasses.replace(new, recorded_at=back[new.sweep_sha256].recorded_at,
+                                     tool_version=back[new.sweep_sha256].tool_version), back[new.sweep_sha256])
+    assert back[new.sweep_sha256].value("resonance_hz").run_low is not None
+
+
+def test_check_target_creates_nothing(tmp_path, store_target):
+    p = tmp_path / "later.history.sqlite"
+    history.check_target(str(p))
+    assert not p.exists()
+    with pytest.raises(InputFileError, match="folder does not exist"):
+        history.check_target(str(tmp_path / "nowhere" / "h.sqlite"))
+    history.check_target(store_target.target)   # an empty database (a fresh server schema) is fine as it is
+    if store_target.kind == "sqlite":
+        assert not os.path.exists(store_target.target)
+    else:
+        assert store_target.raw_execute("SELECT count(*) FROM information_schema.tables WHERE table_schema = "
+                                        "current_schema()") == [(0,)]
+
+
+def test_rerecording_reports_the_stored_date(store_target):
+    r = _record(13)
+    with open_store(store_target.target) as st:
+        assert st.record([r]).stored_dates == {}
+        res = st.record([dataclasses.replace(r, sweep_date="2020-02-02")])
+    assert (res.added, res.already) == (0, 1)
+    assert res.stored_dates == {(r.site, r.antenna, r.sweep_sha256): r.sweep_date}
 
 
 def _writer(target: str, start: int, n: int, barrier) -> None:

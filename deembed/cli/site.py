@@ -16,8 +16,9 @@ def site_command(
                                                           "a folder per antenna."),
     workers: int = typer.Option(2, "--workers", help="Processes to run antennas on (default 2; never more than the "
                                                      "antennas or the usable cores: then they run in turn)."),
-    time_limit: str = typer.Option("10min", "--time-limit", help="Time limit per antenna, e.g. 90s, 10min, 1h, or "
-                                                                 "none; an antenna still running then is recorded "
+    time_limit: str = typer.Option("10min", "--time-limit", help="Time limit per antenna, with its unit (s, min, "
+                                                                 "h), e.g. 90s or 10min (the default); none for no "
+                                                                 "limit. An antenna still running then is recorded "
                                                                  "as failed and the others finish."),
     as_json: bool = typer.Option(False, "--json", help="Print the site summary as JSON on standard output."),
     record: Optional[str] = typer.Option(None, "--record", help="Record into this history store (a SQLite file or "
@@ -36,7 +37,7 @@ def site_command(
 
     if workers < 1:
         raise OptionError("--workers", f"{workers}: give 1 or more processes")
-    limit_s = parse_duration(time_limit, "--time-limit")
+    limit_s = parse_duration(time_limit)
     summary = run_site(site_file, out, workers=workers, progress=stderr_progress(), time_limit_s=limit_s,
                        record=False if no_record else (record if record is not None else True))
     if as_json:

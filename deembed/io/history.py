@@ -12,12 +12,12 @@ PostgreSQL server, reached through psycopg 3 (the optional ``postgres`` extra). 
 both: portable column types, ``INSERT ... ON CONFLICT DO NOTHING`` (SQLite 3.24 and later, PostgreSQL 9.5
 and later), and every value reaches the database as a bound parameter, never inside the SQL text.
 
-Schema (version 1)
+Schema (version 2)
 ------------------
 ::
 
     deembed_meta    key TEXT PRIMARY KEY, value TEXT NOT NULL
-                    rows: schema_version = "1", created_by = "deembed X.Y.Z"
+                    rows: schema_version = "2", created_by = "deembed X.Y.Z"
     deembed_sweeps  one row per recorded sweep
                     site, antenna, sweep_sha256          TEXT    primary key (the three together)
                     sweep_file                           TEXT    the path as given when recorded
@@ -37,7 +37,13 @@ Schema (version 1)
                     value, low, high                     DOUBLE  the value and its interval (NULL: none)
                     unit                                 TEXT    Hz, dB, "" (a ratio)
                     method                               TEXT    how it was found (free text)
+                    run_low, run_high                    DOUBLE  the per-run interval: only what differs
+                                                                 from run to run (NULL: none); version 2
                     primary key (site, antenna, sweep_sha256, quantity, idx)
+
+Both intervals are 95 % ones. ``low``/``high`` hold every source of uncertainty; ``run_low``/``run_high``
+leave out what is common to every run of the feed (the line description's tolerance, the calibration
+kit's residuals), which is what a trend weighs each run by (:mod:`deembed.analysis.recording`).
 
 Versions and migrations
 -----------------------
@@ -49,6 +55,14 @@ Versions and migrations
   each step taking version v to v + 1), all in one transaction, so it is either fully upgraded or
   untouched;
 - a newer store is refused (:class:`InputFileError`: "upgrade deembed") before anything is written.
+
+Reading (:meth:`HistoryStore.sweeps`) takes an older store as it is, without upgrading it: the columns
+added since read as NULL (a version 1 store has no per-run intervals). Nothing is created for reading or
+checking: :func:`check_target` looks at a store without creating it, and a SQLite file is only made when
+there is something to record.
+
+History: version 1 (the first); version 2 adds ``deembed_values.run_low`` and ``run_high``
+(``MIGRATIONS[1]``: two ``ALTER TABLE ... ADD COLUMN``, portable to SQLite and PostgreSQL).
 
 To change the schema: bump ``SCHEMA_VERSION``, change ``_SCHEMA`` (what a new store gets) and add
 ``MIGRATIONS[old]`` with the statements that bring an old store to the same shape.
@@ -65,15 +79,17 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as _dt
+import hashlib
 import math
 import os
+import sqlite3
 from dataclasses import dataclass
 from urllib.parse import urlsplit, urlunsplit
 
 from .. import __version__
 from ..base.errors import InputFileError, OptionError
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 """The schema version this code reads and writes (see the module notes)."""
 
 SQLITE_BUSY_TIMEOUT_S = 120.0
@@ -98,25 +114,32 @@ _SCHEMA = (
     " quantity TEXT NOT NULL, idx INTEGER NOT NULL,"
     " value DOUBLE PRECISION, low DOUBLE PRECISION, high DOUBLE PRECISION,"
     " unit TEXT NOT NULL, method TEXT NOT NULL,"
+    " run_low DOUBLE PRECISION, run_high DOUBLE PRECISION,"
     " PRIMARY KEY (site, antenna, sweep_sha256, quantity, idx),"
     " FOREIGN KEY (site, antenna, sweep_sha256) REFERENCES deembed_sweeps (site, antenna, sweep_sha256))",
     "CREATE INDEX deembed_sweeps_by_date ON deembed_sweeps (site, antenna, sweep_date)",
 )
 
-MIGRATIONS: dict = {}
-"""``{from_version: (SQL, ...)}``: the statements taking a store from that version to the next.
-Empty while version 1 is the only one there has been."""
+MIGRATIONS: dict = {
+    1: ("ALTER TABLE deembed_values ADD COLUMN run_low DOUBLE PRECISION",
+        "ALTER TABLE deembed_values ADD COLUMN run_high DOUBLE PRECISION"),
+}
+"""``{from_version: (SQL, ...)}``: the statements taking a store from that version to the next."""
 
 _TABLES = ("deembed_meta", "deembed_sweeps", "deembed_values")
 
 _SWEEP_COLS = ("site", "antenna", "sweep_sha256", "sweep_file", "sweep_date", "date_source", "role", "line",
                "verdict", "cause_code", "cause_text", "baseline_sha256", "recorded_at", "tool_version")
-_VALUE_COLS = ("site", "antenna", "sweep_sha256", "quantity", "idx", "value", "low", "high", "unit", "method")
+_VALUE_COLS = ("site", "antenna", "sweep_sha256", "quantity", "idx", "value", "low", "high", "unit", "method",
+               "run_low", "run_high")
+_VALUE_COLS_SINCE = {"run_low": 2, "run_high": 2}
+"""Columns added after version 1, and the version that added each (an older store reads them as NULL)."""
 
 
 @dataclass(frozen=True)
 class Value:
-    """One recorded number: ``quantity`` (index ``idx`` when there are several), its interval or None."""
+    """One recorded number: ``quantity`` (index ``idx`` when there are several), its interval and its per-run
+    interval (``run_low``/``run_high``, see the module notes), each None when there is none."""
 
     quantity: str
     value: float | None
@@ -125,6 +148,8 @@ class Value:
     unit: str = ""
     method: str = ""
     idx: int = 0
+    run_low: float | None = None
+    run_high: float | None = None
 
 
 @dataclass(frozen=True)
@@ -161,10 +186,13 @@ class SweepRecord:
 
 @dataclass(frozen=True)
 class RecordResult:
-    """What one :meth:`HistoryStore.record` call did: sweeps added and sweeps already there."""
+    """What one :meth:`HistoryStore.record` call did: sweeps added and sweeps already there, and for those
+    already there the date they were first recorded with (``stored_dates``: (site, antenna, sweep_sha256) ->
+    YYYY-MM-DD; that date stands, whatever date the new call gave)."""
 
     added: int
     already: int
+    stored_dates: dict = dataclasses.field(default_factory=dict)
 
 
 # ----------------------------------------------------------------------------------------- targets
@@ -204,20 +232,14 @@ class _SQLite:
     kind = "sqlite"
 
     def __init__(self, path: str, create: bool):
-        import sqlite3
-
         self.name = path
         if not create and not os.path.isfile(path):
             raise InputFileError(path, "no such history store; record sweeps first (deembed site, or correct/"
-                                       "compare with --record)")
-        if os.path.isdir(path):
+                                       "compare with `record`)")
+        if create:
+            self.check_place(path)
+        elif os.path.isdir(path):
             raise InputFileError(path, "is a folder; give a file name for the history store")
-        folder = os.path.dirname(os.path.abspath(path))
-        if not os.path.isdir(folder):
-            raise InputFileError(path, "its folder does not exist; create it or give another file name")
-        if create and not os.access(path if os.path.exists(path) else folder, os.W_OK):
-            raise InputFileError(path, "cannot write the history store there (no permission); give another "
-                                       "place with --record STORE, or --no-record for a site run")
         try:
             self.conn = sqlite3.connect(path, timeout=SQLITE_BUSY_TIMEOUT_S, isolation_level=None)
             self.conn.execute("PRAGMA foreign_keys = ON")
@@ -225,6 +247,18 @@ class _SQLite:
             raise InputFileError(path, f"cannot open it as a history store ({exc}); give a SQLite file made by "
                                        "deembed, or a new file name") from None
         self.errors = (sqlite3.Error,)
+
+    @staticmethod
+    def check_place(path: str) -> None:
+        """Refuse a place where the SQLite store cannot be written (a folder, a missing folder, no permission)."""
+        if os.path.isdir(path):
+            raise InputFileError(path, "is a folder; give a file name for the history store")
+        folder = os.path.dirname(os.path.abspath(path))
+        if not os.path.isdir(folder):
+            raise InputFileError(path, "its folder does not exist; create it or give another file name")
+        if not os.access(path if os.path.exists(path) else folder, os.W_OK):
+            raise InputFileError(path, "cannot write the history store there (no permission); give another "
+                                       "place for it (`record`), or record nothing (`no_record`) for a site run")
 
     def begin(self, write: bool):
         self.conn.execute("BEGIN IMMEDIATE" if write else "BEGIN")
@@ -357,6 +391,22 @@ class HistoryStore:
                                             f"deembed reads (version {SCHEMA_VERSION}); it was left as it is: "
                                             "upgrade deembed to use it")
 
+    def check_usable(self) -> None:
+        """Refuse, reading only, a store this deembed cannot record into (newer, or not a history store)."""
+        try:
+            self._db.begin(False)
+            try:
+                version = self._version()
+            finally:
+                self._db.rollback()
+        except self._db.errors as exc:
+            raise self._failed(exc) from None
+        if version is not None:
+            self._refuse_newer(version)
+            if version < SCHEMA_VERSION and not all(v in MIGRATIONS for v in range(version, SCHEMA_VERSION)):
+                raise InputFileError(self.name, f"schema version {version} has no upgrade path to version "
+                                                f"{SCHEMA_VERSION}; it was not changed")
+
     def schema_version(self) -> int | None:
         """The stored schema version (None when the database is still empty)."""
         try:
@@ -411,6 +461,7 @@ class HistoryStore:
 
         def body():
             added = 0
+            stored = {}
             cols = ", ".join(_SWEEP_COLS)
             marks = ", ".join("?" * len(_SWEEP_COLS))
             vcols = ", ".join(_VALUE_COLS)
@@ -421,13 +472,18 @@ class HistoryStore:
                     "ON CONFLICT (site, antenna, sweep_sha256) DO NOTHING",
                     [getattr(r, c) for c in _SWEEP_COLS])
                 if cur.rowcount != 1:
+                    row = self._db.execute("SELECT sweep_date FROM deembed_sweeps WHERE site = ? AND antenna = ? "
+                                           "AND sweep_sha256 = ?", (r.site, r.antenna, r.sweep_sha256)).fetchone()
+                    if row is not None:
+                        stored[(r.site, r.antenna, r.sweep_sha256)] = row[0]
                     continue
                 added += 1
                 for v in r.values:
                     self._db.execute(f"INSERT INTO deembed_values ({vcols}) VALUES ({vmarks})",
                                      (r.site, r.antenna, r.sweep_sha256, v.quantity, int(v.idx), _num(v.value),
-                                      _num(v.low), _num(v.high), v.unit, v.method))
-            return RecordResult(added, len(prepared) - added)
+                                      _num(v.low), _num(v.high), v.unit, v.method, _num(v.run_low),
+                                      _num(v.run_high)))
+            return RecordResult(added, len(prepared) - added, stored)
 
         return self._write(body)
 
@@ -450,12 +506,12 @@ class HistoryStore:
                 if version is None:
                     return []
                 self._refuse_newer(version)
-                if version < SCHEMA_VERSION:
-                    raise InputFileError(self.name, f"schema version {version} is older than this deembed's "
-                                                    f"({SCHEMA_VERSION}); record into it once to upgrade it")
+                # an older store is read as it is: the columns added since read as NULL
+                vsel = ", ".join(c if _VALUE_COLS_SINCE.get(c, 1) <= version else f"NULL AS {c}"
+                                 for c in _VALUE_COLS)
                 rows = self._db.execute(f"SELECT {', '.join(_SWEEP_COLS)} FROM deembed_sweeps{clause} "
                                         "ORDER BY site, antenna, sweep_date, sweep_sha256", params).fetchall()
-                vrows = self._db.execute(f"SELECT {', '.join(_VALUE_COLS)} FROM deembed_values{clause} "
+                vrows = self._db.execute(f"SELECT {vsel} FROM deembed_values{clause} "
                                          "ORDER BY site, antenna, sweep_sha256, quantity, idx", params).fetchall()
             finally:
                 self._db.rollback()
@@ -507,9 +563,9 @@ def check_record(r: SweepRecord, store_name: str) -> None:
         seen.add((v.quantity, v.idx))
 
 
-def parse_date(text: str, option: str = "--date") -> str:
+def parse_date(text: str, option: str = "date") -> str:
     """A calendar date ``YYYY-MM-DD`` (returned as the same text); refuses anything else, and days in
-    the future. ``option`` names the option or site-file key in the message."""
+    the future. ``option`` names the field (``date``) or the site-file key in the message."""
     t = str(text).strip()
     try:
         d = _dt.date.fromisoformat(t)
@@ -520,6 +576,21 @@ def parse_date(text: str, option: str = "--date") -> str:
     if d > _dt.date.today() + _dt.timedelta(days=1):
         raise OptionError(option, f"{t} is in the future; give the day the sweep was taken")
     return d.isoformat()
+
+
+def check_target(target: str) -> None:
+    """Check that a store can be recorded into, without creating or changing anything: a SQLite file that
+    does not exist yet needs an existing, writable folder (it is made at the first record); an existing file
+    or a server must hold an empty database or a history store this deembed reads (a newer or foreign one is
+    refused, :class:`InputFileError`)."""
+    t = str(target)
+    if not t.strip():
+        raise InputFileError(t, "empty store name; give a file name or a postgresql:// URL")
+    if not is_url(t) and not os.path.exists(t):
+        _SQLite.check_place(t)
+        return
+    with open_store(t) as store:
+        store.check_usable()
 
 
 def open_store(target: str, *, create: bool = True) -> HistoryStore:
@@ -541,8 +612,6 @@ def open_store(target: str, *, create: bool = True) -> HistoryStore:
 
 def file_sha256(path: str) -> str:
     """SHA-256 of a file's bytes, hex (the key that makes re-recording a file change nothing)."""
-    import hashlib
-
     h = hashlib.sha256()
     with open(path, "rb") as fh:
         for block in iter(lambda: fh.read(1 << 20), b""):
@@ -551,4 +620,5 @@ def file_sha256(path: str) -> str:
 
 
 __all__ = ["DATE_SOURCES", "HistoryStore", "MIGRATIONS", "RecordResult", "ROLES", "SCHEMA_VERSION", "SweepRecord",
-           "Value", "default_store_path", "display_name", "file_sha256", "is_url", "open_store", "parse_date"]
+           "Value", "check_target", "default_store_path", "display_name", "file_sha256", "is_url", "open_store",
+           "parse_date"]

@@ -22,9 +22,13 @@ without a hard time limit.
 from __future__ import annotations
 
 import os
+import re
 import signal
 import time
 from collections import deque
+
+from ..base.errors import OptionError
+from ..base.units import no_unit
 
 PRELOAD = ("numpy", "pandas", "matplotlib", "matplotlib.figure", "matplotlib.backends.backend_agg", "scipy.optimize")
 
@@ -244,20 +248,33 @@ def _fmt_seconds(s: float) -> str:
     return f"{s / 60:g} min" if s >= 120 and s % 60 == 0 else f"{s:g} s"
 
 
-def parse_duration(text: str, where: str = "--time-limit") -> float:
-    """Seconds from ``"600"``, ``"90s"``, ``"10min"``, ``"1.5h"``; ``"0"`` or ``"none"`` for no limit (None)."""
-    import re
+DURATION_UNITS = {"s": 1.0, "sec": 1.0, "min": 60.0, "m": 60.0, "h": 3600.0}
+"""Units of a time limit: seconds, minutes, hours (``m`` is read as minutes too, as it always was here)."""
+DURATION_EXAMPLE = "90s or 10min"
+NO_LIMIT = "none"
+"""The word for no time limit (``--time-limit none``)."""
+MAX_DURATION_S = 7 * 86400
 
-    from ..base.errors import OptionError
 
+def parse_duration(text: str, where: str = "time_limit") -> float | None:
+    """Seconds from ``"90s"``, ``"10min"``, ``"1.5h"``; ``"none"`` for no limit (None).
+
+    A unit is required: a bare number gets the hint every quantity gives for one
+    (:func:`deembed.base.units.no_unit`), and zero is refused (no limit is ``none``, said in words). ``where``
+    names the field in the message (``time_limit``)."""
     t = str(text).strip().lower()
-    if t in ("none", "off", "0", "0s"):
+    if t in (NO_LIMIT, "off"):
         return None
-    m = re.fullmatch(r"([0-9]+(?:\.[0-9]*)?|\.[0-9]+)\s*(s|sec|min|m|h)?", t)
+    m = re.fullmatch(r"([0-9]+(?:\.[0-9]*)?|\.[0-9]+)\s*([a-z]*)", t)
     if not m:
-        raise OptionError(where, f"{text!r} is not a duration; write it like 600s, 10min or 1h (or none)")
-    v = float(m.group(1)) * {None: 1, "s": 1, "sec": 1, "min": 60, "m": 60, "h": 3600}[m.group(2)]
-    if not (0 < v <= 7 * 86400):
-        raise OptionError(where, f"{text!r}: give a duration from 1s up to a week, or none")
+        raise OptionError(where, f"{text!r} is not a duration; write it like {DURATION_EXAMPLE}, or {NO_LIMIT} for "
+                                 "no limit")
+    if not m.group(2):
+        raise no_unit(text, where, f"{DURATION_EXAMPLE} ({NO_LIMIT} for no limit)")
+    if m.group(2) not in DURATION_UNITS:
+        raise OptionError(where, f"unknown unit {m.group(2)!r} in {text!r}; use s, min or h (e.g. {DURATION_EXAMPLE})")
+    v = float(m.group(1)) * DURATION_UNITS[m.group(2)]
+    if not (1 <= v <= MAX_DURATION_S):
+        raise OptionError(where, f"{text!r}: give a time limit from 1s up to a week, or {NO_LIMIT} for no limit")
     return v
 

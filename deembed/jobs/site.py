@@ -18,10 +18,12 @@ from ..analysis.limits import parse_limits
 from ..base.errors import DeembedError, InputFileError, OptionError, OutputWriteError
 from ..base.verdicts import ERROR, OUTSIDE, WITHIN
 from ..io.atomic import same_path, write_text_atomic
+from ..io.history import check_target, is_url, open_store
+from ..io.inputfile import recording_inputs
 from ..io.jsonfile import to_jsonable
 from ..io.outfolder import OutputFolder
 from ..io.sitefile import AntennaJob, Site, after_line, antenna_line, read_antenna, read_site
-from ..io.history import open_store
+from ..io.tablesweep import parse_columns
 from ..render.site_index import index_html
 from . import correct as workflow
 from .compare import compare_paths, write_compare_outputs
@@ -61,8 +63,6 @@ def run_antenna(job: AntennaJob) -> dict:
     check; :func:`run_site` removes it); ``write_failed`` is true when its own outputs could not be
     written (a full disk), which fails the whole site run rather than the antenna alone.
     """
-    from ..io.inputfile import recording_inputs
-
     with recording_inputs() as read:
         try:
             result = _run_antenna(job)
@@ -87,8 +87,6 @@ def _columns(job: AntennaJob):
     v = job.entry.get("columns")
     if v is None:
         return None
-    from ..io.tablesweep import parse_columns
-
     if not isinstance(v, str):
         raise InputFileError(job.site_file, f"{job.where}: 'columns' should be text, e.g. columns = \"freq:MHz,r,x\"")
     try:
@@ -221,8 +219,7 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
     store = None
     if record:
         store = record if isinstance(record, str) else site.history
-        with open_store(store) as st:  # refuse a newer or foreign store before anything is written
-            st.ensure_schema()
+        check_target(store)  # refuse a newer or foreign store before anything runs; nothing is created yet
         site = replace(site, jobs=tuple(replace(j, record=True) for j in site.jobs))
     inputs = refuse_outputs_over_inputs(site, out_dir)
     with OutputFolder(out_dir, inputs=inputs) as out:
@@ -302,6 +299,10 @@ def _record_and_trend(store: str, site: Site, records: list, results: list, out_
     each antenna result gets ``trend`` (its page, relative to ``out_dir``, its run count and flags). A store
     that fails now is reported in the summary, not raised: the index is still written."""
     info = {"store": store, "added": 0, "already": 0, "error": None, "flagged": []}
+    if not records:  # every antenna failed: no store is made, an existing one is left as it was
+        kept = "the store was left as it was" if is_url(store) or os.path.exists(store) else "no store was made"
+        info["error"] = f"no antenna could be checked, so there was nothing to record ({kept})"
+        return info
     try:
         with open_store(store) as st:
             info["store"] = st.name

@@ -6,25 +6,27 @@ is the one it names (``history = "..."``) or else the file beside it
 """
 from __future__ import annotations
 
+import io
 import json
 import os
+import re
 
-from ..analysis.trend import QUANTITIES, TrendLimits, entry_trend
+from ..analysis.trend import QUANTITIES, TrendLimits, change_text, entry_trend
 from ..base.errors import InputFileError, OptionError
-from ..io.history import is_url, open_store
-from ..base.units import fmt_freq
 from ..io.atomic import write_bytes_atomic, write_text_atomic
+from ..io.history import is_url, open_store
 from ..io.jsonfile import to_jsonable
+from ..io.outfolder import OutputFolder
 from ..io.sitefile import read_site
 from ..render.trend_page import QUANTITY_TEXT, trend_html
 from ..render.trend_plots import trend_figure
 
 SQLITE_MAGIC = b"SQLite format 3\x00"
+STORE_SUFFIXES = (".sqlite", ".sqlite3", ".db")
+"""File names taken as history stores: one that is not an SQLite file is refused as such, not read as TOML."""
 
 
 def slugify(name: str) -> str:
-    import re
-
     s = re.sub(r"[^a-z0-9]+", "-", str(name).lower()).strip("-")
     return s[:60] or "entry"
 
@@ -42,6 +44,11 @@ def resolve_source(source: str) -> tuple[str, str | None]:
         head = fh.read(len(SQLITE_MAGIC))
     if head == SQLITE_MAGIC:
         return s, None
+    if s.lower().endswith(STORE_SUFFIXES):
+        if not head:  # an empty file is an empty SQLite database: no recorded sweeps, said as such later
+            return s, None
+        raise InputFileError(s, "is not a deembed history store: it is not an SQLite file; give the .sqlite file "
+                                "deembed site (or --record) wrote, or a site file (.toml)")
     site = read_site(s, "")
     return site.history, site.name
 
@@ -52,7 +59,7 @@ def _runs(records) -> list:
         vals = {}
         for q in QUANTITIES:
             v = r.value(q)
-            vals[q] = None if v is None else (v.value, v.low, v.high)
+            vals[q] = None if v is None else (v.value, v.low, v.high, v.run_low, v.run_high)
         out.append({"date": r.sweep_date, "date_source": r.date_source, "file": r.sweep_file, "role": r.role,
                     "line": r.line, "verdict": r.verdict, "cause_code": r.cause_code,
                     "sha256": r.sweep_sha256, "values_full": vals,
@@ -85,8 +92,8 @@ def compute_trends(store_target: str, *, site: str | None = None, antenna: str |
     for (site_name, ant), recs in sorted(groups.items()):
         runs = sorted(_runs(recs), key=lambda r: (r["date"], r["sha256"]))
         label = ant if len(sites) == 1 else f"{site_name}: {ant}" if site_name else ant
-        tr = entry_trend(label, [{"date": r["date"], "file": r["file"], "values": r["values_full"]} for r in runs],
-                         limits)
+        tr = entry_trend(label, [{"date": r["date"], "file": r["file"], "line": r["line"], "values": r["values_full"]}
+                                 for r in runs], limits)
         entries.append({"site": site_name, "antenna": ant, "trend": tr, "runs": runs})
     return {"store": name, "entries": entries, "limits": limits}
 
@@ -113,8 +120,6 @@ def write_trend_outputs(result: dict, out_dir: str, *, prefix: str = "") -> dict
         png_path = os.path.join(out_dir, f"{prefix}{slug}.trend.png")
         html_path = os.path.join(out_dir, f"{prefix}{slug}.trend.html")
         fig = trend_figure(tr, {r["date"]: r["date_source"] for r in e["runs"]})
-        import io
-
         buf = io.BytesIO()
         fig.savefig(buf, format="png", dpi=110)
         png = buf.getvalue()
@@ -126,10 +131,14 @@ def write_trend_outputs(result: dict, out_dir: str, *, prefix: str = "") -> dict
         d.update({"site": e["site"], "antenna": e["antenna"],
                   "slopes_detail": {q: (None if f is None else {"per_year": f.per_year, "stderr_per_year":
                                                                 f.stderr_per_year, "weighted": f.weighted,
-                                                                "n": f.n})
+                                                                "n": f.n, "chi2_reduced": f.chi2_reduced})
                                     for q, f in tr.fits.items()},
                   "flags_detail": tr.flags,
-                  "runs_detail": [{k2: v for k2, v in r.items() if k2 != "values_full"} for r in e["runs"]],
+                  "notes": tr.notes,
+                  "runs_detail": [{**{k2: v for k2, v in r.items() if k2 != "values_full"},
+                                   "intervals": {q: dict(zip(("low", "high", "run_low", "run_high"), x[1:]))
+                                                 for q, x in r["values_full"].items() if x is not None}}
+                                  for r in e["runs"]],
                   "outputs": {"trend_html": os.path.basename(html_path), "trend_png": os.path.basename(png_path)}})
         detail["entries"].append(d)
     jpath = os.path.join(out_dir, f"{prefix}trend.json")
@@ -142,11 +151,7 @@ def trend_text(result: dict, out_dir: str | None) -> str:
     """One block per feed: runs, slopes with intervals, flags."""
 
     def rate(q, v):
-        if v is None:
-            return "n/a"
-        if q == "resonance_hz":
-            return ("+" if v >= 0 else "-") + fmt_freq(abs(v), 3) + "/yr"
-        return f"{v:+.3f}/yr" if q == "min_swr" else f"{v:+.3f} dB/yr"
+        return change_text(q, v, decimals=3, per_year=True)
 
     lines = [f"history {result['store']}"]
     for e in result["entries"]:
@@ -161,6 +166,7 @@ def trend_text(result: dict, out_dir: str | None) -> str:
             lines += [f"  FLAG {f['reason']}" for f in tr.flags]
         else:
             lines.append("  nothing flagged")
+        lines += [f"  note: {n}" for n in tr.notes]
         mt = sum(r["date_source"] == "file_mtime" for r in e["runs"])
         if mt:
             lines.append(f"  note: {mt} run(s) dated by the file's modification time (give dates in the site "
@@ -173,8 +179,6 @@ def trend_text(result: dict, out_dir: str | None) -> str:
 def run_trend(source: str, out_dir: str, *, antenna: str | None = None, limits: TrendLimits | None = None) -> dict:
     """Resolve the source, compute every trend and write the outputs. Returns the result with
     ``"written"`` and ``"flagged"`` (any flag raised)."""
-    from ..io.outfolder import OutputFolder
-
     target, site = resolve_source(source)
     result = compute_trends(target, site=site, antenna=antenna, limits=limits)
     with OutputFolder(out_dir, inputs=[source, target if isinstance(target, str) else None]) as out:

@@ -38,6 +38,8 @@ def _history(history) -> str | None:
 
 
 def _rows(summary: dict) -> list:
+    """One row per comparison; what is the antenna's (its name, line, baseline and its report, between-points
+    note, trend link) sits once, in the first row of its comparisons (``first``), spanning them (``span``)."""
     rows = []
     for ant in summary["antennas"]:
         if ant["verdict"] == ERROR:
@@ -45,7 +47,8 @@ def _rows(summary: dict) -> list:
             continue
         base = ant["baseline"]
         base_report = (base.get("outputs") or {}).get("report_html")
-        for cmp in ant["comparisons"]:
+        n_cmp = len(ant["comparisons"])
+        for j, cmp in enumerate(ant["comparisons"]):
             shift = cmp["resonance_shift_hz"]
             bp = cmp.get("between_points")
             between = None
@@ -56,13 +59,15 @@ def _rows(summary: dict) -> list:
                               bp.get("method") != "exact" else ""))
             outs = cmp.get("outputs") or {}
             links = [{"href": href(outs[k]), "text": text} for k, text in LINKS if outs.get(k)]
-            if base_report:
-                links.insert(1, {"href": href(base_report), "text": "baseline report"})
             date = cmp.get("date")
+            if j == 0:
+                between_first = between
             rows.append({
+                "first": j == 0, "span": n_cmp, "between_own": between if j and between != between_first else None,
                 "name": ant["name"], "line": ant.get("line") or "", "between": between, "trend": _trend(ant.get("trend")),
                 "ok": cmp["verdict"] == WITHIN, "verdict_text": VERDICT_TEXT[cmp["verdict"]],
                 "sweep": os.path.basename(cmp["file"]), "baseline": os.path.basename(base["file"]),
+                "baseline_report": href(base_report) if base_report else None,
                 "date": date if isinstance(date, str) else None,
                 "shift": "n/a" if shift is None else fmt_shift_interval(shift, cmp.get("resonance_shift_interval_hz")),
                 "cause_label": label(CAUSE_LABELS, cmp["cause"]["code"]), "cause_text": cmp["cause"]["text"],

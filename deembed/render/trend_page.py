@@ -10,21 +10,31 @@ from __future__ import annotations
 import datetime as _dt
 import os
 
+from ..analysis.trend import change_text
 from ..base.units import fmt_freq
 from .pages import png_data_uri, render_page
 
 QUANTITY_TEXT = {"line_loss_db": "line loss", "resonance_hz": "feedpoint resonance", "min_swr": "lowest SWR"}
 
 
-def _rate(q: str, v) -> str:
+MINUS = "\u2212"
 
-    if v is None:
-        return "n/a"
+
+def _rate(q: str, v) -> str:
+    """A rate per year with a typographic minus; a rate that rounds to zero prints unsigned (0.000 dB/yr)."""
+    return change_text(q, v, decimals=3, per_year=True, minus=MINUS)
+
+
+def _spread(q: str, lo, hi) -> str | None:
+    """The half-width of a per-run interval, as ``±0.8 kHz``; None without one."""
+    if lo is None or hi is None:
+        return None
+    h = (hi - lo) / 2
     if q == "resonance_hz":
-        return ("+" if v >= 0 else "\u2212") + fmt_freq(abs(v), 3) + "/yr"
+        return "\u00b1" + fmt_freq(h, 3)
     if q == "line_loss_db":
-        return f"{v:+.3f} dB/yr".replace("-", "\u2212")
-    return f"{v:+.3f}/yr".replace("-", "\u2212")
+        return f"\u00b1{h:.3f} dB"
+    return f"\u00b1{h:.3f}"
 
 
 def _value(q: str, v) -> str:
@@ -43,10 +53,11 @@ def _cards(trend) -> list:
     for q, cls in (("resonance_hz", "feed"), ("min_swr", "feed"), ("line_loss_db", "line")):
         sl = trend.slopes[q]
         iv = sl["interval"]
-        cards.append({"cls": cls, "label": QUANTITY_TEXT[q], "rate": _rate(q, sl["per_year"]),
+        flagged = any(f["quantity"] == q for f in trend.flags)
+        cards.append({"cls": "bad" if flagged else cls, "label": QUANTITY_TEXT[q], "rate": _rate(q, sl["per_year"]),
                       "sub": ("95 % interval " + _rate(q, iv[0]) + " to " + _rate(q, iv[1])) if iv else
                       "too few runs for an interval",
-                      "flagged": any(f["quantity"] == q for f in trend.flags)})
+                      "flagged": flagged})
     return cards
 
 
@@ -55,11 +66,17 @@ def _runs(runs: list) -> list:
     for r in runs:
         verdict = r.get("verdict")
         v = r["values"]
+        full = r.get("values_full") or {}
+
+        def spread(q):
+            x = full.get(q)
+            return _spread(q, x[3], x[4]) if x is not None and len(x) >= 5 else None
+
         rows.append({"date": r["date"], "file_time": r["date_source"] == "file_mtime", "file": r["file"],
                      "name": os.path.basename(r["file"]), "role": r["role"],
-                     "resonance": _value("resonance_hz", v.get("resonance_hz")),
-                     "min_swr": _value("min_swr", v.get("min_swr")),
-                     "line_loss": _value("line_loss_db", v.get("line_loss_db")),
+                     "resonance": _value("resonance_hz", v.get("resonance_hz")), "resonance_pm": spread("resonance_hz"),
+                     "min_swr": _value("min_swr", v.get("min_swr")), "min_swr_pm": spread("min_swr"),
+                     "line_loss": _value("line_loss_db", v.get("line_loss_db")), "line_loss_pm": spread("line_loss_db"),
                      "within": None if verdict is None else verdict == "within_limits",
                      "cause": r.get("cause_code")})
     return rows
@@ -96,7 +113,7 @@ def trend_html(trend, runs: list, *, site: str, store: str, limits, png: bytes |
         mtime=sum(r["date_source"] == "file_mtime" for r in runs), cards=_cards(trend),
         flags=[{"quantity": QUANTITY_TEXT.get(f["quantity"], f["quantity"]), "reason": f["reason"]}
                for f in trend.flags],
-        figure=png_data_uri(png) if png else None, runs=_runs(runs), limits=_limits(limits),
+        figure=png_data_uri(png) if png else None, runs=_runs(runs), limits=_limits(limits), notes=trend.notes,
         run_time=run_time.strftime("%Y-%m-%d %H:%M %Z").strip())
 
 

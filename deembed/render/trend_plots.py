@@ -1,8 +1,9 @@
 """The trend figure of one feed: resonance, lowest SWR and line loss over time, with the fitted lines.
 
 Built without pyplot (no global state, no GUI backend); returns the Figure. Points whose date came
-from the file's modification time are drawn hollow; error bars show recorded intervals; a dashed
-line is the weighted straight-line fit; a flagged quantity's panel is titled in red.
+from the file's modification time are drawn hollow; thin error bars show the recorded intervals (every
+source, mostly the line's tolerance that all runs share), thick ones the per-run intervals the fit weighs
+each run by; a dashed line is the weighted straight-line fit; a flagged quantity's panel is titled in red.
 """
 from __future__ import annotations
 
@@ -24,6 +25,23 @@ PANELS = (  # quantity, axis label, scale, colour
 
 def _dates(texts):
     return [_dt.datetime.fromisoformat(t) for t in texts]
+
+
+ZOOM_RATIO = 4.0
+"""When the recorded intervals reach more than this many times the spread of the values (and their per-run
+bars) beyond it, the panel shows the values and lets those bars run off its edges: otherwise a line
+tolerance shared by every run would flatten the trend into a line."""
+
+
+def _zoom(ax, core, full_reach) -> None:
+    lo, hi = core
+    width = hi - lo
+    if not (np.isfinite(width) and width > 0):
+        return
+    if (lo - full_reach[0]) + (full_reach[1] - hi) > ZOOM_RATIO * width:
+        ax.set_ylim(lo - 0.35 * width, hi + 0.35 * width)
+        ax.text(0.99, 0.02, "thin bars run off the panel", transform=ax.transAxes, ha="right", va="bottom",
+                fontsize=7, color="#777")
 
 
 def trend_figure(trend, date_sources: dict | None = None):
@@ -48,12 +66,26 @@ def trend_figure(trend, date_sources: dict | None = None):
             continue
         x = _dates(s.dates)
         y = np.array(s.values) * scale
-        lo = np.array([np.nan if v is None else v for v in s.lows], float) * scale
-        hi = np.array([np.nan if v is None else v for v in s.highs], float) * scale
-        has_iv = np.isfinite(lo) & np.isfinite(hi)
-        if has_iv.any():
-            err = np.vstack([np.where(has_iv, y - lo, 0.0), np.where(has_iv, hi - y, 0.0)])
-            ax.errorbar(x, y, yerr=err, fmt="none", ecolor=colour, elinewidth=1.0, capsize=3, alpha=0.8)
+        core = [np.nanmin(y), np.nanmax(y)]      # what the panel must show: the values and their per-run bars
+        full_reach = list(core)
+        for lows, highs, width, cap, alpha, what in ((s.lows, s.highs, 0.8, 3, 0.45, "recorded interval"),
+                                                      (s.run_lows, s.run_highs, 3.0, 0, 0.9, "per-run interval")):
+            if len(lows) != len(y):
+                continue
+            lo = np.array([np.nan if v is None else v for v in lows], float) * scale
+            hi = np.array([np.nan if v is None else v for v in highs], float) * scale
+            has_iv = np.isfinite(lo) & np.isfinite(hi)
+            if has_iv.any():
+                # an interval placed by another estimator may not hold the value: no negative bar
+                err = np.maximum(np.vstack([np.where(has_iv, y - lo, 0.0), np.where(has_iv, hi - y, 0.0)]), 0.0)
+                ax.errorbar(x, y, yerr=err, fmt="none", ecolor=colour, elinewidth=width, capsize=cap, alpha=alpha,
+                            label=what)
+                reach = [float(np.min(lo[has_iv])), float(np.max(hi[has_iv]))]
+                if what == "per-run interval":
+                    core = [min(core[0], reach[0]), max(core[1], reach[1])]
+                else:
+                    full_reach = reach
+        _zoom(ax, core, full_reach)
         mtime = np.array([date_sources.get(d) == "file_mtime" for d in s.dates])
         xs = np.array(x, dtype=object)
         ax.plot(list(xs[~mtime]), y[~mtime], "o", color=colour, ms=6, label="sweep")
