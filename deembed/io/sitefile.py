@@ -26,9 +26,11 @@ The site file is TOML of our own design; paths in it are relative to the file::
     port = 1                           # optional: the port of a 2-port sweep file
 
 A sweep entry (``baseline``, or an item of ``latest``) may also be a table with the day it was taken,
-``{ file = "after.s1p", date = "2026-03-14" }``. ``history = "FILE"`` (relative to the site file) or
-``history = "postgresql://..."`` names the history store every run records into; without it the store
-is ``<site>.history.sqlite`` beside the site file (:func:`deembed.io.history.default_store_path`).
+``{ file = "after.s1p", date = "2026-03-14" }``; every such date is checked when the file is read, before
+any antenna runs (a bad one is the site file's fault, not one antenna's). ``history = "FILE"`` (relative
+to the site file) or ``history = "postgresql://..."`` names the history store every run records into;
+without it the store is ``<site>.history.sqlite`` beside the site file
+(:func:`deembed.io.history.default_store_path`).
 
 This module reads the file and each antenna's entry into plain objects (:class:`Site`, :class:`AntennaJob`,
 :class:`AntennaFiles`) and builds an antenna's line; the limits' values are checked by
@@ -163,7 +165,30 @@ def read_site(path, out_dir: str) -> Site:
                                 "history = \"site.history.sqlite\"")
     else:
         history = hist if is_url(hist) else os.path.join(base, hist)
+    for job in jobs:  # a bad date is the site file's fault: refused before any antenna runs
+        check_sweep_dates(job)
     return Site(site_name, p, tuple(replace(j, site_name=site_name) for j in jobs), history)
+
+
+def _date_of(job: AntennaJob, where: str, d) -> str:
+    """A sweep table's ``date``: a TOML date literal or YYYY-MM-DD text, checked (:func:`parse_date`)."""
+    if hasattr(d, "isoformat") and not isinstance(d, str):  # a TOML date literal
+        d = d.isoformat()
+    try:
+        return parse_date(str(d), f"{where} date")
+    except OptionError as exc:
+        raise InputFileError(job.site_file, str(exc)) from None
+
+
+def check_sweep_dates(job: AntennaJob) -> None:
+    """Check every ``date`` of an antenna's sweep tables (``baseline``, each item of ``latest``); a bad one
+    raises :class:`InputFileError` naming the site file, the antenna and the key."""
+    latest = job.entry.get("latest")
+    items = [("baseline", job.entry.get("baseline"))]
+    items += [("latest", x) for x in (latest if isinstance(latest, list) else [latest])]
+    for key, v in items:
+        if isinstance(v, dict) and "date" in v:
+            _date_of(job, f"{job.where}: '{key}'", v["date"])
 
 
 def _sweep(job: AntennaJob, key: str, v) -> tuple[str, str | None]:
@@ -177,13 +202,7 @@ def _sweep(job: AntennaJob, key: str, v) -> tuple[str, str | None]:
             raise InputFileError(job.site_file, f"{where}: unknown key(s) {', '.join(unknown)} in a sweep table; "
                                                 "use file and date, e.g. { file = \"after.s1p\", date = \"2026-03-14\" }")
         if "date" in v:
-            d = v["date"]
-            if hasattr(d, "isoformat") and not isinstance(d, str):  # a TOML date literal
-                d = d.isoformat()
-            try:
-                date = parse_date(str(d), f"{where} date")
-            except OptionError as exc:
-                raise InputFileError(job.site_file, str(exc)) from None
+            date = _date_of(job, where, v["date"])
         v = v.get("file")
     if not isinstance(v, str) or not v.strip():
         raise InputFileError(job.site_file, f"{where} should be a file name, or a table like "
@@ -262,4 +281,4 @@ def after_line(job: AntennaJob, files: AntennaFiles, line: Line, notes: list) ->
 
 
 __all__ = ["ANTENNA_KEYS", "SECTION_KEYS", "SITE_KEYS", "AntennaFiles", "AntennaJob", "Site", "after_line", "antenna_line",
-           "read_antenna", "read_site", "slugify"]
+           "check_sweep_dates", "read_antenna", "read_site", "slugify"]
