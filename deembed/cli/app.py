@@ -90,7 +90,7 @@ METAVARS = {
     "--max-bw-loss": "PERCENT", "--max-loss-change": "LOSS", "--max-loss-rise": "LOSS", "--loss": "LOSS",
     "--antenna-swr": "SWR", "--measured-swr": "SWR", "--swr-limits": "SWR", "--open-c": "CAPACITANCE",
     "--short-l": "INDUCTANCE", "--load-r": "OHMS", "--z0": "OHMS", "--delay": "TIME", "--vf": "VF",
-    "--cable": "ID", "--port": "1|2", "--columns": "MAP",
+    "--cable": "ID", "--port": "1|2", "--columns": "MAP", "--time-limit": "DURATION",
 }
 """Help placeholders that say what goes there (set on every option that does not name its own)."""
 
