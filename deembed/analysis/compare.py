@@ -761,22 +761,29 @@ def _verdict(fp: dict, line: dict, limits: Limits, res_b, res_a, *, resolution_h
 FEEDPOINT_LIMITS = ("max_shift_hz", "max_swr_rise", "max_gamma_change", "max_bw_loss_percent")
 
 
+FAR_END_MARGIN_RESOLUTIONS = 2.0
+"""How many range resolutions before the far end the sweep shows a change must start to count as on the line
+(the margin :func:`deembed.analysis.along.compare_along` uses for "at the far end"; a reflection is about one
+resolution wide, so two keep the antenna's own peak out)."""
+
+
 def change_part_way(along: dict | None):
     """Where the look along the line puts the start of the change, when that is on the line itself rather than at
-    its far end: ``(where, distance text, far-end text or None)`` or None.
+    its far end: ``(place, distance text, far-end text)`` with ``place`` ``"analyzer end"`` or ``"part-way"``, or
+    None.
 
-    The start counts as on the line when :func:`deembed.analysis.along.compare_along` places it part-way along or at
-    the analyzer end, which it does only more than two range resolutions from the far end the sweep itself
-    shows; without a far end found in the sweep nothing is said (the start cannot be told from the antenna)."""
+    From the distances :func:`deembed.analysis.along.compare_along` gives: the start of the change
+    (``first_change_m``) more than :data:`FAR_END_MARGIN_RESOLUTIONS` range resolutions before the far end the
+    after sweep shows (``far_end_m_after``); within that many resolutions of the analyzer it is the analyzer end.
+    Without distances or a far end found in the sweep nothing is said (the start cannot be told from the
+    antenna)."""
     if not along or not along.get("shown"):
         return None
-    where = along.get("where")
-    if where not in ("part-way along the line", "at the analyzer end (jumper or connectors there)"):
-        return None
     d, fe, res = along.get("first_change_m"), along.get("far_end_m_after"), along.get("resolution_m")
-    if d is None or fe is None or res is None or not d < fe - res:
+    if d is None or fe is None or not res or not d < fe - FAR_END_MARGIN_RESOLUTIONS * res:
         return None
-    return where, f"{d:.1f} m", f"{fe:.1f} m (resolution {res:.2f} m)"
+    place = "analyzer end" if d <= FAR_END_MARGIN_RESOLUTIONS * res else "part-way"
+    return place, f"{d:.1f} m", f"{fe:.1f} m (resolution {res:.2f} m)"
 
 
 def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dict, along: dict | None = None) -> dict:
@@ -826,8 +833,7 @@ def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dic
     if on_line is not None:
         where, at, far = on_line
         place = ("at the analyzer end: the jumper or connectors there, or the analyzer's calibration"
-                 if where.startswith("at the analyzer end") else
-                 "part-way along the line: a joint, a splice, water or damage there")
+                 if where == "analyzer end" else "part-way along the line: a joint, a splice, water or damage there")
         return {"code": "line", "text": f"looks like the line at {at}: the look along the line puts the start of the "
                                         f"change there, well before the far end at {far}, {place}. What lies beyond "
                                         "that point, the antenna included, is seen through it, so whether the antenna "
@@ -836,5 +842,5 @@ def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dic
                                        "not what any change of the line's loss or length would do"}
 
 
-__all__ = ["Aligned", "Cause", "Verdict", "align", "change_part_way", "check_feedpoint", "compare_corrections",
+__all__ = ["FAR_END_MARGIN_RESOLUTIONS", "Aligned", "Cause", "Verdict", "align", "change_part_way", "check_feedpoint", "compare_corrections",
            "diagnose", "feedpoint_noise", "fit_line_change", "fitted_resonance"]

@@ -90,7 +90,7 @@ def _width_change(end: dict, iv) -> str:
     iv_pct = [100 * x / bw_b for x in iv] if iv and finite(bw_b) and bw_b > 0 else None
     text = fmt_number(pct, iv_pct, default_decimals=1)
     head, _, rest = text.partition(" (")
-    sign = lambda t: t if t.startswith("-") else "+" + t  # noqa: E731
+    sign = lambda t: t if t.startswith("-") or float(t) == 0 else "+" + t  # noqa: E731  (0.0, never +0.0)
     if rest:
         lo, _, hi = rest.rstrip(")").partition(" to ")
         return f"{sign(head)} % ({sign(lo)} to {sign(hi)})"

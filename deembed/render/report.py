@@ -336,18 +336,21 @@ def _bands(summary: dict, fq: _Freq) -> dict | None:
 
 def _power(summary: dict, fq: _Freq) -> dict | None:
     p = summary.get("power")
-    if not p or not finite(p.get("transmitter_w")):
+    if not p:
         return None
-    tx = p["transmitter_w"]
+    ant, tx_end = p.get("at_antenna") or {}, p.get("at_transmitter") or {}
+    tx = tx_end.get("forward_w")  # the budget's words (deembed budget --json): the transmitter's forward power
+    if not finite(tx) or tx <= 0:
+        return None
     parts = []
-    for label, w, colour in (("into the antenna", p.get("delivered_w"), FEEDPOINT_COLOUR),
-                             ("lost in the line", p.get("line_dissipated_w"), LINE_LOSS_COLOUR),
-                             ("back at the transmitter", p.get("reflected_at_tx_w"), ANALYZER_COLOUR)):
+    for label, w, colour in (("into the antenna", ant.get("delivered_w"), FEEDPOINT_COLOUR),
+                             ("lost in the line", (p.get("line") or {}).get("dissipated_w"), LINE_LOSS_COLOUR),
+                             ("back at the transmitter", tx_end.get("reflected_w"), ANALYZER_COLOUR)):
         if finite(w):
             share = max(w / tx * 100, 0.0)
             parts.append({"label": label, "w": f"{w:.1f}", "colour": colour, "width": f"{share:.2f}",
                           "share": _share(share)})
-    retuned = p.get("retuned_delivered_w")
+    retuned = (p.get("matched_at_transmitter") or {}).get("delivered_w")
     return {"tx": f"{tx:g}", "at": fq(p.get("at_freq_hz")), "parts": parts,
             "retuned": f"{retuned:.1f}" if finite(retuned) else None}
 

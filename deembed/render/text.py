@@ -228,10 +228,11 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
             lines.append(f"        {b_fp['name']:36}{fmt_swr(b_sh.get('worst_swr')):>10}"
                          f"{fmt_swr(b_fp.get('worst_swr')):>11}  {mark}")
     power = summary.get("power")
-    if power:
-        lines.append(f"\npower   {power['transmitter_w']:g} W at {fmt_freq(power['at_freq_hz'], 6)}: "
-                     f"{power['delivered_w']:.1f} W into the antenna, {power['line_dissipated_w']:.1f} W lost in the line, "
-                     f"{power['reflected_at_tx_w']:.2f} W back at the transmitter")
+    if power:  # the budget's words and shape (deembed budget --json), at the feedpoint's best match
+        ant, tx, ln_ = power["at_antenna"], power["at_transmitter"], power["line"]
+        lines.append(f"\npower   {tx['forward_w']:g} W at {fmt_freq(power['at_freq_hz'], resolution_hz=step)}: "
+                     f"{_num1(ant['delivered_w'])} W into the antenna, {_num1(ln_['dissipated_w'])} W lost in the line, "
+                     f"{_num1(tx['reflected_w'], 2)} W back at the transmitter")
     along = summary.get("along_the_line")
     if along:
         lines.append("")
@@ -252,6 +253,10 @@ def _signed(text: str) -> str:
         return sign(head)
     lo, _, hi = rest.rstrip(")").partition(" to ")
     return f"{sign(head)} ({sign(lo)} to {sign(hi)})"
+
+
+def _num1(v, decimals: int = 1) -> str:
+    return "n/a" if v is None else f"{v:.{decimals}f}"
 
 
 def _num(v) -> str:
