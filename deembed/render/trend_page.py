@@ -42,7 +42,7 @@ def _value(q: str, v) -> str:
     if v is None:
         return "\u2013"
     if q in ("resonance_hz",):
-        return fmt_freq(v, 6)
+        return fmt_freq(v, resolution_hz=100.0)   # the same decimals on every row (14.2000 MHz, not 14.2 MHz)
     if q == "line_loss_db":
         return f"{v:.2f} dB"
     return f"{v:.2f}"

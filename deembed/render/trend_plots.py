@@ -61,6 +61,7 @@ def trend_figure(trend, date_sources: dict | None = None):
         s = trend.series.get(q)
         ax.grid(True, color=GRID_COLOUR, lw=0.6)
         ax.set_ylabel(label)
+        ax.ticklabel_format(axis="y", useOffset=False)  # 14.199 MHz on the axis, not 0.001 + 1.42e1
         if s is None or not s.values:
             ax.text(0.5, 0.5, "not recorded", transform=ax.transAxes, ha="center", va="center", color="#777")
             continue
