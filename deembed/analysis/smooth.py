@@ -40,8 +40,11 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
+
+from ..physics.line_draws import Scratch
 
 Z_REF_OHM = 50.0
 
@@ -215,7 +218,19 @@ class LocalModel:
         return _rmat(_to_domain(gamma_sub, self.domain), self.proj.T)
 
     def fine_u(self, n: int = FINE_POINTS):
-        return np.linspace(self.u_lo, self.u_hi, n)
+        """The fine grid of u on which the fitted model is searched (the default grid is cached)."""
+        return self.fine if n == FINE_POINTS else np.linspace(self.u_lo, self.u_hi, n)
+
+    @cached_property
+    def fine(self) -> np.ndarray:
+        """The default fine grid (:data:`FINE_POINTS` values of u from ``u_lo`` to ``u_hi``), made once."""
+        return np.linspace(self.u_lo, self.u_hi, FINE_POINTS)
+
+    @cached_property
+    def fine_vt(self) -> np.ndarray:
+        """Transposed Vandermonde matrix (DEGREE + 1, FINE_POINTS) of :attr:`fine`: coefficients @ fine_vt
+        gives the model on the fine grid. Made once per model."""
+        return np.ascontiguousarray(_vander(self.fine).T)
 
     def freq(self, u):
         return self.fc_hz + np.asarray(u) * self.h_hz
@@ -234,18 +249,6 @@ def _rmat(a, m):
         out.imag = np.ascontiguousarray(a.imag) @ m
         return out
     return a @ m
-
-
-def _poly(coef, u):
-    """Evaluate polynomials (..., p) at points u (k,): (..., k)."""
-    return _rmat(coef, _vander(u, coef.shape[-1] - 1).T)
-
-
-def _poly_d(coef, u):
-    """Derivative d/du of polynomials (..., p) at u (k,): (..., k)."""
-    p = coef.shape[-1]
-    dcoef = coef[..., 1:] * np.arange(1, p)
-    return _rmat(dcoef, _vander(u, p - 2).T)
 
 
 def _fit(freq, gamma, sigma, idx, fc, h, domain):
@@ -333,22 +336,35 @@ def local_model(freq_hz, gamma, sigma, f_event_hz, *, domains=("z", "y")) -> Loc
 
 # --------------------------------------------------------------------------------------- fine-grid search
 
-def _crossing_nearest(u, vals, u0, direction: int):
-    """Where each row of vals (D, k) crosses 0 with the given direction (+1 rising, -1 falling), nearest u0.
+def _rising_nearest(u, vals, u0):
+    """Where each row of vals (E, D, K) rises through 0, nearest u0 (E,), on the grids u (E, K).
 
-    Returns an array (D,) of u (NaN where no such crossing)."""
-    a, b = vals[:, :-1], vals[:, 1:]
-    if direction > 0:
-        hit = (a < 0) & (b >= 0)
-    else:
-        hit = (a > 0) & (b <= 0)
+    A falling crossing is found by passing -vals. Returns (E, D) of u, NaN where a row has no such crossing."""
+    a, b = vals[..., :-1], vals[..., 1:]
+    hit = (a < 0) & (b >= 0)
     with np.errstate(divide="ignore", invalid="ignore"):
         t = a / (a - b)
-    pos = u[:-1] + t * (u[1:] - u[:-1])
-    d = np.where(hit, np.abs(pos - u0), np.inf)
-    k = np.argmin(d, axis=1)
-    rows = np.arange(vals.shape[0])
-    return np.where(np.isfinite(d[rows, k]), pos[rows, k], np.nan)
+    lo = u[:, None, :-1]
+    t *= u[:, None, 1:] - lo
+    t += lo                                              # the crossing's u, between the two grid points
+    dist = np.where(hit, np.abs(t - u0[:, None, None]), np.inf)
+    k = np.argmin(dist, axis=-1)[..., None]
+    best = np.take_along_axis(dist, k, axis=-1)[..., 0]
+    return np.where(np.isfinite(best), np.take_along_axis(t, k, axis=-1)[..., 0], np.nan)
+
+
+def _p2(w_re, w_im):
+    """|Gamma|^2 from a normalised immittance w: |w - 1|^2 / |w + 1|^2, the same for z and for y."""
+    sq = w_im * w_im
+    a = w_re - 1
+    a *= a
+    a += sq
+    b = w_re + 1
+    b *= b
+    b += sq
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a /= b
+    return a
 
 
 def _minimum(u, p2, open_lo: bool, open_hi: bool):
@@ -377,6 +393,279 @@ def _swr_from_p2(p2):
     m = np.sqrt(p2)
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(m < 1, (1 + m) / (1 - m), np.inf)
+
+
+SENSITIVITY_STEP = 1e-6
+"""Step in Gamma of the central differences of :meth:`EventSet.sensitivity` (the test of the first-order
+propagation uses the same step; common practice, no source)."""
+
+
+def _z_parts(g, out, scratch: Scratch | None = None, sign: float = 1.0):
+    """Real and imaginary parts of z = (1 + s g)/(1 - s g), s = ``sign`` (+1 or -1), into ``out`` (2, ...),
+    non-finite values set to 0 (s = -1 gives y = (1 - g)/(1 + g)).
+
+    (1 + g)/(1 - g) = ((1 - a)(1 + a) - b^2 + 2jb) / ((1 - a)^2 + b^2) for g = a + jb."""
+    sc = scratch if scratch is not None else Scratch()
+    a, b = g.real, g.imag
+    zr, zi = out[0], out[1]
+    one_m = sc.get("zp_one_m", a.shape)
+    if sign > 0:
+        np.subtract(1.0, a, out=one_m)            # 1 - s a
+        np.add(a, 1.0, out=zr)                    # 1 + s a
+    else:
+        np.add(a, 1.0, out=one_m)
+        np.subtract(1.0, a, out=zr)
+    den = np.multiply(one_m, one_m, out=sc.get("zp_den", a.shape))
+    bb = np.multiply(b, b, out=sc.get("zp_bb", a.shape))
+    den += bb
+    zr *= one_m
+    zr -= bb
+    np.multiply(b, 2.0 * sign, out=zi)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        np.divide(1.0, den, out=den)
+        zr *= den
+        zi *= den
+    if not (den.size == 0 or den.max() < 1e300):   # NaN, infinite or overflowing somewhere: set those to 0
+        bad = ~(np.isfinite(zr) & np.isfinite(zi))
+        zr[bad] = 0.0
+        zi[bad] = 0.0
+    return out
+
+
+BLOCK_ELEMENTS = 32_768
+"""Traces are turned into coefficients a block of about this many (trace, sample) values at a time (a block
+of windows' samples times a few traces), so the temporaries stay small enough for the processor's cache."""
+
+BLOCK_COLUMNS = 2048
+"""Most samples in one block of windows (windows that share samples are always in one block)."""
+
+
+def as_columns(pos):
+    """A slice for consecutive positions, else the array itself."""
+    pos = np.asarray(pos, dtype=np.intp)
+    if pos.size and pos[-1] - pos[0] == pos.size - 1:
+        return slice(int(pos[0]), int(pos[-1]) + 1)
+    return pos
+
+
+class _Search:
+    """Everything :meth:`EventSet.evaluate` needs after the coefficients, stacked over an end's events: u
+    grids, transposed Vandermonde matrices, event positions, signs and levels (made once per EventSet)."""
+
+    def __init__(self, es: "EventSet"):
+        events = es.all_events()
+        self.es = es
+        self.n_events = len(events)
+        p = DEGREE + 1
+        self.u = np.array([e.model.fine for e in events]).reshape(len(events), FINE_POINTS)
+        self.vt = np.array([e.model.fine_vt for e in events]).reshape(len(events), p, FINE_POINTS)
+        self.u0 = np.array([e.u0 for e in events], dtype=float)
+        self.fc = np.array([e.model.fc_hz for e in events], dtype=float)
+        self.h = np.array([e.model.h_hz for e in events], dtype=float)
+        self.res_events = list(es.resonances)
+        self.res_rows = np.arange(len(es.resonances))
+        self.res_is_z = np.array([e.model.domain == "z" for e in es.resonances], dtype=bool)
+        # X = Im z rises through a series resonance; B = Im y rises through a parallel one, so -Im y falls
+        self.res_sign = np.array([(1.0 if e.model.domain == "z" else -1.0) * (1.0 if e.sense == "series" else -1.0)
+                                  for e in es.resonances])
+        self.min_row = len(es.resonances) if es.minimum is not None else None
+        first_edge = len(es.resonances) + (es.minimum is not None)
+        self.edge_events = list(es.edges)
+        self.edge_rows = np.arange(first_edge, first_edge + len(es.edges))
+        self.edge_level2 = np.array([e.level ** 2 for e in es.edges], dtype=float)
+        self.edge_sign = np.array([-1.0 if e.side == "low" else 1.0 for e in es.edges])
+
+    def findings(self, coef, d: int) -> dict:
+        """The findings of :meth:`EventSet.evaluate` from every event's coefficients (E, 2d, P): rows 0..d-1
+        the real parts, d..2d-1 the imaginary parts."""
+        es = self.es
+        out = {}
+        if self.n_events:
+            fine = np.matmul(coef, self.vt)                   # (E, 2d, K): the models on their fine grids
+        if self.res_events:
+            e = self.res_rows
+            ur = _rising_nearest(self.u[e], fine[e, d:] * self.res_sign[:, None, None], self.u0[e])   # (R, d)
+            fr = self.fc[e][:, None] + ur * self.h[e][:, None]
+            u = np.nan_to_num(ur)
+            w_re = np.einsum("edp,edp->ed", coef[e, :d], u[..., None] ** np.arange(coef.shape[-1]))
+            with np.errstate(divide="ignore", invalid="ignore"):
+                r_ohm = Z_REF_OHM * np.where(self.res_is_z[:, None], w_re, 1 / w_re)
+            r_ohm = np.where(np.isfinite(ur), r_ohm, np.nan)
+            for i in range(len(self.res_events)):
+                out[f"res_hz_{i}"] = fr[i]
+                out[f"res_r_ohm_{i}"] = r_ohm[i]
+                if i == es.primary:
+                    out["q"] = _q_at(coef[i, :d] + 1j * coef[i, d:], ur[i], self.res_events[i].model)
+        if es.primary is None or "q" not in out:
+            out["q"] = np.full(d, np.nan)
+        if self.min_row is not None:
+            k = self.min_row
+            m = es.minimum.model
+            um, p2 = _minimum(self.u[k], _p2(fine[k, :d], fine[k, d:]), m.at_sweep_lo, m.at_sweep_hi)
+            out["min_hz"] = m.freq(um)
+            out["min_swr"] = _swr_from_p2(p2)
+        else:
+            out["min_hz"] = np.full(d, np.nan)
+            out["min_swr"] = np.full(d, np.nan)
+        if self.edge_events:
+            e = self.edge_rows
+            # low edge: |Gamma| falls through the level going up in frequency; high edge: it rises
+            vals = _p2(fine[e, :d], fine[e, d:])
+            vals -= self.edge_level2[:, None, None]
+            vals *= self.edge_sign[:, None, None]
+            ue = _rising_nearest(self.u[e], vals, self.u0[e])
+            fe = self.fc[e][:, None] + ue * self.h[e][:, None]
+            for j, ev in enumerate(self.edge_events):
+                out[f"edge_{ev.key}_{ev.span}_{ev.side}"] = fe[j]
+        return out
+
+
+class _Block:
+    """A set of union columns and the windows (of any of the event sets) whose samples all lie in it."""
+
+    def __init__(self, cols, windows, n_sets: int, cover: int | None):
+        self.cols = cols                    # positions in the union: a slice when consecutive, else an array
+        self.size = (cols.stop - cols.start) if isinstance(cols, slice) else int(cols.size)
+        self.windows = [[] for _ in range(n_sets)]   # per set: [(event row, in y, positions in the block, proj)]
+        for w in windows:
+            self.windows[w[0]].append(w[1:])
+        used = [s for s in range(n_sets) if self.windows[s]]
+        if cover is not None:
+            used.append(cover)
+        self.stages = (max(used) + 1) if used else 0    # the traces of sets 0 .. stages - 1 are made here
+
+    def project(self, s: int, g, coef, rows: slice, n_rows: int, sc: Scratch):
+        """Coefficients of set s's windows in this block for traces g (r, size) into coef[event, rows] (real
+        parts) and coef[event, n_rows + rows] (imaginary parts)."""
+        windows = self.windows[s]
+        if not windows:
+            return
+        r = g.shape[0]
+        shape = (2, r, self.size)
+        wz = _z_parts(g, sc.get("wz", shape), sc).reshape(2 * r, -1) if any(not y for _, y, _, _ in windows) else None
+        wy = _z_parts(g, sc.get("wy", shape), sc, -1.0).reshape(2 * r, -1) if any(y for _, y, _, _ in windows) else None
+        im = slice(n_rows + rows.start, n_rows + rows.stop)
+        c = sc.get("coef", (2 * r, DEGREE + 1))
+        for k, is_y, sel, proj_t in windows:
+            np.matmul((wy if is_y else wz)[:, sel], proj_t, out=c)     # (2r, P)
+            coef[k, rows] = c[:r]
+            coef[k, im] = c[r:]
+
+
+class _Blocks:
+    """The union's columns in blocks for evaluating one or more event sets on the same traces.
+
+    Windows that share samples (of any set) are in one block; groups are packed in order into blocks of at
+    most about :data:`BLOCK_COLUMNS` samples. With ``cover`` (a set index) the union's columns no window
+    uses form blocks of their own where that set's traces are made too (the band's frequencies). For
+    each block the traces are turned into z (and, when some model is in y, into y(Gamma) = z(-Gamma)) once,
+    as contiguous real and imaginary parts with non-finite values set to 0, and each window is one small
+    matrix product of its columns (a view when its samples are consecutive) with its projector: a single
+    large product makes a multi-threaded BLAS start its threads, which costs more than it saves on a busy
+    machine.
+    """
+
+    def __init__(self, sets, union, cover: int | None = None):
+        union = np.asarray(union)
+        self.scratch = Scratch()
+        wins = []                                            # (set, event row, positions in the union)
+        for si, es in enumerate(sets):
+            for k, e in enumerate(es.all_events()):
+                wins.append((si, k, e, np.searchsorted(union, e.model.idx)))
+        wins.sort(key=lambda w: (int(w[3][0]), int(w[3][-1])))
+        groups = []
+        for w in wins:
+            lo, hi = int(w[3][0]), int(w[3][-1])
+            if groups and lo <= groups[-1][2]:
+                groups[-1][0].append(w)
+                groups[-1][2] = max(groups[-1][2], hi)
+            else:
+                groups.append([[w], lo, hi])
+        packs = []
+        for members, lo, hi in groups:
+            cols = np.unique(np.concatenate([w[3] for w in members]))
+            if packs and packs[-1][1].size + cols.size <= BLOCK_COLUMNS:
+                packs[-1][0].extend(members)
+                packs[-1][1] = np.concatenate([packs[-1][1], cols])
+            else:
+                packs.append([list(members), cols])
+        self.blocks = []
+        covered = np.zeros(union.size, dtype=bool)
+        for members, cols in packs:
+            covered[cols] = True
+            windows = [(si, k, e.model.domain == "y", as_columns(np.searchsorted(cols, at)),
+                        np.ascontiguousarray(e.model.proj.T)) for si, k, e, at in members]
+            self.blocks.append(_Block(as_columns(cols), windows, len(sets), cover))
+        if cover is not None:
+            rest = np.flatnonzero(~covered)
+            for i in range(0, rest.size, BLOCK_COLUMNS):
+                self.blocks.append(_Block(as_columns(rest[i:i + BLOCK_COLUMNS]), [], len(sets), cover))
+
+    def columns(self, s: int) -> np.ndarray:
+        """Sorted union positions where set s's traces are made."""
+        parts = [np.arange(b.cols.start, b.cols.stop) if isinstance(b.cols, slice) else b.cols
+                 for b in self.blocks if b.stages > s]
+        return np.unique(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.intp)
+
+
+_BLOCK_CACHE: dict = {}
+
+
+def blocks_for(sets, union, cover: int | None = None) -> _Blocks:
+    """The (cached) :class:`_Blocks` of these event sets on ``union``."""
+    union = np.asarray(union)
+    key = (tuple(id(es) for es in sets), tuple(tuple(id(e) for e in es.all_events()) for es in sets), union.size,
+           hash(union.tobytes()), cover)
+    hit = _BLOCK_CACHE.get(key)
+    if hit is None or any(a is not b for a, b in zip(hit[0], sets)):
+        if len(_BLOCK_CACHE) > 16:
+            _BLOCK_CACHE.clear()
+        hit = (list(sets), _Blocks(sets, union, cover))
+        _BLOCK_CACHE[key] = hit
+    return hit[1]
+
+
+def evaluate_sets(sets, union, n_rows: int, stages, *, cover: int | None = None, visit=None) -> list:
+    """The findings of several event sets for ``n_rows`` traces each, made block by block on the same samples.
+
+    Parameters
+    ----------
+    sets : list of EventSet
+    union : ndarray of int
+        Sorted sweep indices holding every model's indices of every set.
+    n_rows : int
+    stages : list of callables, one per set
+        ``stages[0](rows, cols, None)`` gives set 0's traces (complex (len(rows), len(cols))) for the traces
+        ``rows`` (a slice of 0 .. n_rows - 1) on the union positions ``cols`` (a slice or an array);
+        ``stages[s](rows, cols, previous)`` gives set s's from set s - 1's (it may work in place: set s - 1's
+        windows are done with them). Traces are made only where a block needs them.
+    cover : int, optional
+        Make set ``cover``'s traces on every union position, windows or not (:meth:`_Blocks.columns`).
+    visit : callable, optional
+        ``visit(s, rows, cols, traces)`` is called with every block of every set's traces made.
+
+    Returns
+    -------
+    list of dict
+        :meth:`EventSet.evaluate` of each set.
+    """
+    d = int(n_rows)
+    plan = blocks_for(sets, union, cover)
+    searches = [es._search() for es in sets]
+    coefs = [np.empty((sr.n_events, 2 * d, DEGREE + 1)) for sr in searches]
+    for blk in plan.blocks:
+        if not blk.stages:
+            continue
+        step = max(1, BLOCK_ELEMENTS // max(blk.size, 1))
+        for a in range(0, d, step):
+            rows = slice(a, min(a + step, d))
+            g = None
+            for s in range(blk.stages):
+                g = stages[s](rows, blk.cols, g)
+                blk.project(s, g, coefs[s], rows, d, plan.scratch)
+                if visit is not None:
+                    visit(s, rows, blk.cols, g)
+    return [sr.findings(c, d) for sr, c in zip(searches, coefs)]
 
 
 # ---------------------------------------------------------------------------------------------- events
@@ -432,6 +721,7 @@ class EventSet:
     noise_rms: float = 0.0
     notes: list = field(default_factory=list)
     nominal: dict | None = None
+    _plans: dict = field(default_factory=dict, repr=False, compare=False)
 
     def indices(self) -> np.ndarray:
         """Sorted union of every model's sweep indices."""
@@ -453,7 +743,8 @@ class EventSet:
         Parameters
         ----------
         gamma_sub : ndarray (D, m) complex
-            Traces on the sweep indices ``union_idx`` (default :meth:`indices`).
+            Traces on the sweep indices ``union_idx`` (default :meth:`indices`); ``union_idx`` is sorted and
+            holds every model's indices (it may hold more).
 
         Returns
         -------
@@ -461,67 +752,71 @@ class EventSet:
             ``res_hz_<i>``, ``res_r_ohm_<i>`` for each resonance; ``min_hz``, ``min_swr``; ``edge_<key>_<span>_<side>``
             for each interior span edge; ``q`` at the primary resonance. NaN where a draw loses the event
             inside its window.
+
+        Notes
+        -----
+        All events are worked out together (:func:`evaluate_sets`): each block of window samples is turned
+        into the models' domains in real arithmetic and projected, a few traces at a time; the fine-grid
+        search of every event is then one set of array operations over all of them.
         """
         g = np.atleast_2d(np.asarray(gamma_sub, dtype=complex))
         union = self.indices() if union_idx is None else np.asarray(union_idx)
-        d = g.shape[0]
-        out = {}
-        models = [e.model for e in self.all_events()]
-        with np.errstate(divide="ignore", invalid="ignore"):
-            zu = (1 + g) / (1 - g) if any(m.domain == "z" for m in models) else None
-            yu = (1 / zu if zu is not None else (1 - g) / (1 + g)) if any(m.domain == "y" for m in models) else None
+        return evaluate_sets([self], union, g.shape[0], [lambda rows, cols, _: g[rows, cols]])[0]
 
-        def coefficients(model):
-            # one small product per window (a single stacked product over the whole union is large enough for
-            # a multi-threaded BLAS to start threads, which costs far more than it saves on a busy machine)
-            pos = np.searchsorted(union, model.idx)
-            w = (zu if model.domain == "z" else yu)[:, pos]
-            w = np.where(np.isfinite(w), w, 0)
-            return _rmat(w, model.proj.T)
+    def _search(self) -> _Search:
+        key = (tuple(id(e) for e in self.all_events()), self.primary)
+        hit = self._plans.get("search")
+        if hit is None or hit[0] != key:
+            hit = (key, _Search(self))
+            self._plans["search"] = hit
+        return hit[1]
 
-        def p2_of(w, domain):
-            """|Gamma|^2 from a normalised immittance without complex division."""
-            a = (w.real - 1) ** 2 + w.imag ** 2
-            b = (w.real + 1) ** 2 + w.imag ** 2
-            with np.errstate(divide="ignore", invalid="ignore"):
-                return a / b          # |z - 1|^2/|z + 1|^2 and |1 - y|^2/|1 + y|^2 alike
+    def sensitivity(self, key: str, gamma):
+        """First-order sensitivity of one finding to each sample of its window, by central differences.
 
-        for i, ev in enumerate(self.resonances):
-            m = ev.model
-            coef = coefficients(m)
-            u = m.fine_u()
-            w = _poly(coef, u)
-            x_like = w.imag if m.domain == "z" else -w.imag
-            ur = _crossing_nearest(u, x_like, ev.u0, +1 if ev.sense == "series" else -1)
-            out[f"res_hz_{i}"] = m.freq(ur)
-            w_r = np.einsum("dp,dp->d", coef, _vander(np.nan_to_num(ur)).reshape(d, -1)) if d else np.zeros(0)
-            w_r = np.where(np.isfinite(ur), w_r, np.nan)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                r_ohm = Z_REF_OHM * (w_r.real if m.domain == "z" else 1 / w_r.real)
-            out[f"res_r_ohm_{i}"] = r_ohm
-            if i == self.primary:
-                out["q"] = _q_at(coef, ur, m)
-        if self.primary is None:
-            out["q"] = np.full(d, np.nan)
-        if self.minimum is not None:
-            m = self.minimum.model
-            coef = coefficients(m)
-            u = m.fine_u()
-            um, p2 = _minimum(u, p2_of(_poly(coef, u), m.domain), m.at_sweep_lo, m.at_sweep_hi)
-            out["min_hz"] = m.freq(um)
-            out["min_swr"] = _swr_from_p2(p2)
+        Parameters
+        ----------
+        key : str
+            ``res_hz_<i>`` or ``min_swr`` (or ``min_hz``).
+        gamma : ndarray (n,) complex
+            The whole trace the sensitivity is taken at (normally the measured one).
+
+        Returns
+        -------
+        (idx, c_re, c_im) or None
+            The window's sweep indices and dy/dRe(Gamma_i), dy/dIm(Gamma_i) there: a perturbation dGamma
+            moves the finding by sum(c_re Re dGamma + c_im Im dGamma) to first order. None for a finding with
+            no event or that the trace does not place.
+        """
+        if key.startswith("res_hz_"):
+            i = int(key.rsplit("_", 1)[1])
+            if not 0 <= i < len(self.resonances):
+                return None
+            one = EventSet(self.freq_hz, [self.resonances[i]], None, [], {}, {}, None, self.thresholds)
+            name = "res_hz_0"
+        elif key in ("min_swr", "min_hz") and self.minimum is not None:
+            one = EventSet(self.freq_hz, [], self.minimum, [], {}, {}, None, self.thresholds)
+            name = key
         else:
-            out["min_hz"] = np.full(d, np.nan)
-            out["min_swr"] = np.full(d, np.nan)
-        for ev in self.edges:
-            m = ev.model
-            coef = coefficients(m)
-            u = m.fine_u()
-            p2 = p2_of(_poly(coef, u), m.domain)
-            # low edge: |Gamma| falls through the level going up in frequency; high edge: rises
-            ue = _crossing_nearest(u, p2 - ev.level ** 2, ev.u0, -1 if ev.side == "low" else +1)
-            out[f"edge_{ev.key}_{ev.span}_{ev.side}"] = m.freq(ue)
-        return out
+            return None
+        idx = one.indices()
+        g0 = np.asarray(gamma, dtype=complex)[idx]
+        m = idx.size
+        h = SENSITIVITY_STEP
+        batch = np.repeat(g0[None, :], 4 * m + 1, axis=0)
+        rows = np.arange(m)
+        batch[1 + rows, rows] += h
+        batch[1 + m + rows, rows] -= h
+        batch[1 + 2 * m + rows, rows] += 1j * h
+        batch[1 + 3 * m + rows, rows] -= 1j * h
+        y = one.evaluate(batch, idx)[name]
+        if not np.isfinite(y[0]):
+            return None
+        c_re = (y[1:1 + m] - y[1 + m:1 + 2 * m]) / (2 * h)
+        c_im = (y[1 + 2 * m:1 + 3 * m] - y[1 + 3 * m:]) / (2 * h)
+        if not (np.all(np.isfinite(c_re)) and np.all(np.isfinite(c_im))):
+            return None
+        return idx, c_re, c_im
 
     def _near_match(self, spans, f_res, f_min) -> bool:
         """Whether a resonance is the antenna's own near its best match, where Q means something.

@@ -16,7 +16,7 @@ import numpy as np
 
 from .smooth import EventSet, find_events, noise_rms
 from .uncertainty import (CAL_PRESETS, DEFAULT_COVERAGE, DEFAULT_DRAWS, DEFAULT_SEED, Calibration, LineDraws, McResult,
-                          end_block, feedpoint_gain, run)
+                          end_block, feedpoint_gain, is_section, run, section_tolerance)
 
 
 @dataclass(frozen=True)
@@ -136,16 +136,16 @@ def resonance_draws(a: Assessment, j: int):
 
 def sources_record(a: Assessment, line) -> dict:
     """What went into the uncertainty: the noise, the calibration, each section's tolerances and their sources."""
-    from .uncertainty import _is_section, section_tolerance
-
     mc = a.mc
     secs = []
     for k, part in enumerate(line.parts, 1):
-        if not _is_section(part):
-            if hasattr(part, "between_points"):
+        if not is_section(part):
+            if part.kind == "characterized":
                 secs.append({"section": k, "characterized": "as measured on its own points; between them the "
                              "estimated error of the interpolation or model used there, one offset per draw "
-                             "uniform on a disc of that radius; its own measurement scatter is not drawn"})
+                             "uniform on a disc of that radius; its own measurement scatter (RMS, carried to the "
+                             "feedpoint) as Gaussian offsets independent from one characterized point to the "
+                             "next, where its measured points are used (the fitted model averages it out)"})
             else:
                 secs.append({"section": k, "fixed": "a measured 2-port: taken as exact"})
             continue

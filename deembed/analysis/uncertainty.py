@@ -21,12 +21,31 @@ Input quantities and their distributions
 * **Line**: per section, its length, velocity factor (or delay), matched loss (as a fraction) and nominal
   Z0, each rectangular between its tolerance bounds (JCGM 101 6.4.2) or normal for figures from a fit
   (6.4.7); see :mod:`deembed.physics.tolerance`.
+* **A characterized line between its points**: one offset per draw, uniform on a disc whose radius is the
+  estimated error of the interpolation or model used there (:class:`BetweenDraws`).
+* **A characterized line's own measurement scatter**: the RMS point-to-point scatter of the
+  characterization, carried to the feedpoint reflection like the between-points error; complex Gaussian
+  (JCGM 101 6.4.7: a standard uncertainty), independent from one characterized frequency to the next and
+  shared by the sweep frequencies nearest the same characterized one (:class:`ScatterDraws`).
+
+Where the draws are evaluated
+-----------------------------
+The findings need the draws only on the samples of their local windows; the per-frequency SWR band is
+worked out on at most :data:`BAND_POINTS` evenly spread sweep frequencies plus the feedpoint windows'
+samples, and interpolated linearly in |Gamma| between them (:func:`band_indices`). The line, the
+calibration and a characterized line's between-points error vary slowly with frequency; the analyzer noise
+is independent from point to point, so the band at each frequency is a local quantity whose draws at a
+neighbouring frequency have the same distribution to within the trace's own change over one step. The
+cost of the step is therefore bounded in the number of sweep points (windows hold at most
+:data:`deembed.analysis.smooth.MAX_WINDOW_POINTS` samples each).
 
 Which source limits a finding is estimated from the same draws: each finding's draws are regressed
 linearly on the drawn scalar inputs (line parameters, calibration terms); each input's share of the
 variance is b_i^2 var(x_i) / var(y) (first-order, as in JCGM 100:2008 5.1.3 with sensitivity coefficients
-b_i estimated from the sample), and what the regression leaves is the analyzer noise (the only input not
-drawn as a scalar).
+b_i estimated from the sample). What the regression leaves belongs to the inputs drawn per point: the
+analyzer noise and, for a characterized line, its measurement scatter. When both are drawn, the remainder
+is shared between them in proportion to their first-order variances (JCGM 100:2008 eq. (10) with the
+finding's sensitivity to each sample of its window, :meth:`deembed.analysis.smooth.EventSet.sensitivity`).
 """
 from __future__ import annotations
 
@@ -35,10 +54,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..physics.between import unit_disc
-from ..physics.line_draws import cascade_parts, s_terms, section_parts, section_s_terms
+from ..base.errors import OptionError
+from ..physics.between import feedpoint_error, unit_disc
+from ..physics.line_draws import Scratch, cascade_parts, s_terms, section_parts, section_s_terms
 from ..physics.tolerance import Tolerance, default_tolerance
-from .smooth import EventSet
+from .between import between_error, between_points, has_characterized_part
+from .smooth import EventSet, as_columns, blocks_for, evaluate_sets
 
 C0_M_PER_S = 299_792_458.0
 DB_PER_NP = 20 / math.log(10)
@@ -51,15 +72,22 @@ MAX_LOST_FRACTION = 0.025
 """A finding whose event is lost (not found inside its local window) in more than this fraction of the
 draws gets no interval: a note says so instead."""
 
+BAND_POINTS = 2001
+"""Most evenly spread sweep frequencies at which the per-frequency SWR band is worked out from the draws
+(besides the feedpoint windows' samples); between them it is interpolated linearly in |Gamma| (see the
+module notes). Our choice: a plot or a table read by eye resolves no more, and a test checks that the
+interpolated band agrees with the band worked out at every frequency of a dense sweep."""
+
 BAND_MAX_ELEMENTS = 4_000_000
-"""Most (draws x frequencies) evaluated for the per-frequency SWR band; longer sweeps use fewer draws for
-the band (at least :data:`BAND_MIN_DRAWS`) or get none."""
+"""Most (draws x frequencies) kept for the per-frequency SWR band; with more draws the band uses the first
+BAND_MAX_ELEMENTS / frequencies of them (at least :data:`BAND_MIN_DRAWS`, or there is no band)."""
 
 BAND_MIN_DRAWS = 200
 
-CHUNK_ELEMENTS = 100_000
-"""Draws are processed in chunks of about this many (draw, frequency) elements, so that the temporaries stay
-in the processor's cache (about 3x faster than whole arrays on a 1001 x 1000 step)."""
+SEARCH_DRAWS = 250
+"""Draws whose findings are searched for together (:func:`deembed.analysis.smooth.evaluate_sets`);
+the draws themselves are made a block of samples and a few draws at a time
+(:data:`deembed.analysis.smooth.BLOCK_ELEMENTS`), so the temporaries stay in the processor's cache."""
 
 
 @dataclass(frozen=True)
@@ -100,20 +128,21 @@ CAL_PRESETS = {
 """Calibration presets; ``hobby`` is the default."""
 
 
-def parse_calibration(text, option: str = "--cal") -> Calibration:
-    """A preset name (``hobby``, ``bench``, ``none``) or one bound in |Gamma| used for all three terms."""
-    from ..base.errors import OptionError
+def parse_calibration(text, field_name: str = "calibration") -> Calibration:
+    """A preset name (``hobby``, ``bench``, ``none``) or one bound in |Gamma| used for all three terms.
 
+    Bad text raises :class:`~deembed.base.errors.OptionError` naming ``field_name`` (the settings field
+    :attr:`deembed.analysis.trust.UncertaintySettings.calibration`; the command line maps it to its option)."""
     t = str(text).strip().lower()
     if t in CAL_PRESETS:
         return CAL_PRESETS[t]
     try:
         v = float(t)
     except ValueError:
-        raise OptionError(option, f"{text!r} is neither {', '.join(CAL_PRESETS)} nor a bound in |Gamma| "
-                                  "such as 0.02") from None
+        raise OptionError(field_name, f"{text!r} is neither {', '.join(CAL_PRESETS)} nor a bound in |Gamma| "
+                                      "such as 0.02") from None
     if not (math.isfinite(v) and 0 <= v < 1):
-        raise OptionError(option, f"{text!r}: a calibration bound in |Gamma| is between 0 and 1, e.g. 0.02")
+        raise OptionError(field_name, f"{text!r}: a calibration bound in |Gamma| is between 0 and 1, e.g. 0.02")
     return Calibration(f"{v:g}", v, v, v, "set by the user")
 
 
@@ -128,13 +157,15 @@ class LineDraws:
     inputs: list          # [(name, ndarray (D,))] scalar inputs for the contribution analysis
     n: int
 
-    def terms(self, freq_hz, rows: slice = slice(None)):
-        """(S11, S21 S12, S22), each (draws in ``rows``, len(freq_hz))."""
+    def terms(self, freq_hz, rows: slice = slice(None), scratch: Scratch | None = None):
+        """(S11, S21 S12, S22), each (draws in ``rows``, len(freq_hz)); with a ``scratch`` they live in its
+        buffers (:func:`deembed.physics.line_draws.section_s_terms`)."""
         f = np.asarray(freq_hz, dtype=float)
         shape = (len(range(self.n)[rows]), f.size)
         if len(self.params) == 1 and self.params[0] is not None:   # one section: S directly
             p = self.params[0]
-            s11, s21s12, s22 = section_s_terms(p["z0"][rows], p["delay"][rows], p["c"][rows], p["d"][rows], f)
+            s11, s21s12, s22 = section_s_terms(p["z0"][rows], p["delay"][rows], p["c"][rows], p["d"][rows], f,
+                                               single_trig=True, scratch=scratch)
             return tuple(np.broadcast_to(x, shape) for x in (s11, s21s12, s22))
         parts = []
         for part, p in zip(self.line.parts, self.params):
@@ -152,7 +183,9 @@ def _fixed_abcd(part, f):
     return part.abcd_parts(f)  # every line part has it (deembed.physics.line.LinePart)
 
 
-def _is_section(part) -> bool:
+def is_section(part) -> bool:
+    """Whether a line part is a modelled RLGC section (``kind == "section"``, :class:`deembed.physics.line.LinePart`),
+    whose parameters are drawn; measured and characterized parts are not."""
     return part.kind == "section"
 
 
@@ -176,9 +209,9 @@ def _unit(rng, n, distribution):
 def draw_line(line, n_draws: int, rng) -> LineDraws:
     """Draw ``n_draws`` parameter sets for every section of ``line`` (parts that are not sections stay fixed)."""
     params, inputs = [], []
-    several = sum(_is_section(p) for p in line.parts) > 1
+    several = sum(is_section(p) for p in line.parts) > 1
     for k, part in enumerate(line.parts, 1):
-        if not _is_section(part):
+        if not is_section(part):
             params.append(None)
             continue
         tol = section_tolerance(part)
@@ -229,19 +262,48 @@ class AnalyzerDraws:
     inputs: list
     n: int
 
-    def gamma(self, gamma_sub, rows: slice = slice(None)):
-        """Draws (draws in ``rows``, m) of the analyzer-end reflection at the given samples (m,)."""
-        g = np.asarray(gamma_sub, dtype=complex)[None, :]
-        out = g + self.e_d[rows] + self.e_t[rows] * g + self.e_s[rows] * (g * g)
+    def gamma(self, gamma_sub, rows: slice = slice(None), scratch: Scratch | None = None):
+        """Draws (draws in ``rows``, m) of the analyzer-end reflection at the given samples (m,); with a
+        ``scratch`` they live in its buffers."""
+        g = np.asarray(gamma_sub, dtype=complex)
+        sc = scratch if scratch is not None else Scratch()
+        e_t = self.e_t[rows]
+        shape = (e_t.shape[0], g.shape[-1])
+        out = np.multiply(e_t, g, out=sc.get("gamma", shape, complex))
+        out += g
+        tmp = np.multiply(g, g, out=sc.get("gamma_g2", g.shape, complex))
+        tmp = np.multiply(self.e_s[rows], tmp, out=sc.get("gamma_tmp", shape, complex))
+        out += tmp
+        out += self.e_d[rows]
         if self.noise_rms > 0:
-            s = self.noise_rms / math.sqrt(2)
-            # single precision is ample for noise draws (a relative 1e-7 of a noise of 1e-3 or so) and halves the
-            # generator's work
-            noise = self.rng.standard_normal((2, out.shape[0], g.shape[1]), dtype=np.float32)
-            noise *= s
-            out.real += noise[0]
-            out.imag += noise[1]
+            add_complex_noise(out, self.noise_rms, self.rng, sc)
         return out
+
+
+def add_complex_noise(out, rms: float, rng, scratch: Scratch | None = None):
+    """Add circular complex Gaussian noise with E|n|^2 = rms^2 to ``out`` (complex, any shape), in place.
+
+    The Box-Muller transform (G. E. P. Box and M. E. Muller, Ann. Math. Statist. 29 (1958) 610; JCGM 101:2008
+    C.4.2): with U, V uniform, n = rms sqrt(-ln(1 - U)) exp(j 2 pi V) has independent normal real and imaginary
+    parts of variance rms^2 / 2. Single precision is ample for noise draws (a relative 1e-7 of a noise of 1e-3
+    or so; the 24-bit uniforms reach 5.8 standard deviations, beyond which lies a fraction 6e-8 of the draws)
+    and it is about twice as fast as drawing two normals per point.
+    """
+    sc = scratch if scratch is not None else Scratch()
+    u = rng.random(dtype=np.float32, out=sc.get("noise_u", (2,) + out.shape, np.float32))
+    r = np.log1p(np.negative(u[0], out=u[0]), out=u[0])
+    np.negative(r, out=r)
+    np.sqrt(r, out=r)
+    r *= np.float32(rms)
+    ph = u[1]
+    ph *= np.float32(2 * np.pi)
+    c = np.cos(ph, out=sc.get("noise_c", out.shape, np.float32))
+    c *= r
+    out.real += c
+    np.sin(ph, out=ph)
+    ph *= r
+    out.imag += ph
+    return out
 
 
 def _disc(rng, n, radius):
@@ -275,11 +337,13 @@ def interval(values, coverage: float = DEFAULT_COVERAGE):
     return [float(lo), float(hi)]
 
 
-def contributions(values, inputs) -> dict:
+def contributions(values, inputs, point_variances: dict | None = None) -> dict:
     """Share of the variance of a finding's draws owed to each named source (fractions summing to 1).
 
-    The draws are regressed on the standardised scalar inputs (grouped by name); the rest is
-    "analyzer noise". Returns {} when the finding does not vary.
+    The draws are regressed on the standardised scalar inputs (grouped by name); the rest belongs to the
+    sources drawn per point: all of it to "analyzer noise", or, with ``point_variances`` ({name: first-order
+    variance} of each per-point source, :func:`point_variances`), shared between them in proportion.
+    Returns {} when the finding does not vary.
     """
     y = np.asarray(values, dtype=float)
     fin = np.isfinite(y)
@@ -299,9 +363,20 @@ def contributions(values, inputs) -> dict:
         explained = sum(parts.values())
     else:
         parts, explained = {}, 0.0
-    parts["analyzer noise"] = max(var - explained, 0.0)
+    rest = max(var - explained, 0.0)
+    pv = {k: float(v) for k, v in (point_variances or {}).items() if v is not None and math.isfinite(v) and v >= 0}
+    total_pv = sum(pv.values())
+    if len(pv) > 1 and total_pv > 0:
+        for name, v in pv.items():
+            parts[name] = parts.get(name, 0.0) + rest * v / total_pv
+    else:
+        parts[NOISE_SOURCE] = rest
     total = sum(parts.values()) or 1.0
     return {k: v / total for k, v in sorted(parts.items(), key=lambda kv: -kv[1])}
+
+
+NOISE_SOURCE = "analyzer noise"
+SCATTER_SOURCE = "characterization's measurement scatter"
 
 
 # ------------------------------------------------------------------------------------------- the step
@@ -313,6 +388,7 @@ class EndDraws:
     events: EventSet
     values: dict
     inputs: list
+    point_variances: dict = field(default_factory=dict)   # {finding key: {per-point source: first-order variance}}
 
 
 @dataclass
@@ -366,18 +442,31 @@ BETWEEN_SPAWN_KEY = 15
 """The between-points offsets draw from their own stream (SeedSequence child 15 of the seed), so the other
 streams stay as they were; baseline and after sweeps share it, as they share the line."""
 
+SCATTER_SPAWN_KEY = 16
+"""The key of a characterized line's measurement-scatter draws (:class:`ScatterDraws`)."""
 
-def draw_between(line, freq_hz, gamma_an, n_draws: int, seed: int) -> BetweenDraws | None:
+
+def _characterized(line):
+    """The line's characterized part and whether it is the whole line (None, False without one)."""
+    parts = [p for p in line.parts if p.kind == "characterized"]
+    return (parts[0], len(line.parts) == 1) if parts else (None, False)
+
+
+def _nominal_feedpoint(line, freq_hz, gamma_an):
+    """(S (n, 2, 2) of the line, the de-embedded feedpoint reflection (n,)) at the sweep's frequencies."""
+    s = line.s_params(freq_hz)
+    g_fp = deembed_draws(np.asarray(gamma_an, dtype=complex)[None, :], s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1],
+                         s[:, 1, 1])[0]
+    return s, g_fp
+
+
+def draw_between(line, freq_hz, gamma_an, n_draws: int, seed: int, nominal=None) -> BetweenDraws | None:
     """Between-points offset draws for a characterized line (None when the line has none or the sweep is on
-    its characterized points)."""
-    from .between import between_error, has_characterized_part
-
+    its characterized points). ``nominal``: :func:`_nominal_feedpoint` when already worked out."""
     if not has_characterized_part(line):
         return None
     f = np.asarray(freq_hz, dtype=float)
-    s = line.s_params(f)
-    g_fp = deembed_draws(np.asarray(gamma_an, dtype=complex)[None, :], s[:, 0, 0], s[:, 1, 0] * s[:, 0, 1],
-                         s[:, 1, 1])[0]
+    _, g_fp = nominal if nominal is not None else _nominal_feedpoint(line, f, gamma_an)
     err = np.asarray(between_error(line, f, g_fp), dtype=float)
     err = np.where(np.isfinite(err), err, 0.0)
     if not np.any(err > 0):
@@ -388,18 +477,143 @@ def draw_between(line, freq_hz, gamma_an, n_draws: int, seed: int) -> BetweenDra
     return BetweenDraws(unit, err, [(name, unit.real), (name, unit.imag)])
 
 
-def deembed_draws(gamma_an_draws, s11, s21s12, s22):
+# the SplitMix64 constants (Steele, Lea and Flood, "Fast splittable pseudorandom number generators",
+# OOPSLA 2014): the Weyl increment and the two multipliers of the output mix
+_SM_GAMMA = np.uint64(0x9E3779B97F4A7C15)
+_SM_M1 = np.uint64(0xBF58476D1CE4E5B9)
+_SM_M2 = np.uint64(0x94D049BB133111EB)
+
+
+def _splitmix64(counter, key):
+    """SplitMix64's output for each 64-bit ``counter`` (array) under the stream ``key``: a counter-based
+    generator, so a value depends only on (key, counter), never on which others were asked for."""
+    z = counter * _SM_GAMMA
+    z += key
+    z ^= z >> np.uint64(30)
+    z *= _SM_M1
+    z ^= z >> np.uint64(27)
+    z *= _SM_M2
+    z ^= z >> np.uint64(31)
+    return z
+
+
+def keyed_complex_normals(key, draws, points, n_points: int):
+    """Circular complex Gaussian values (len(draws), len(points)) with E|z|^2 = 1, one per (draw, point).
+
+    Each value depends only on ``key``, its draw number and its point number (SplitMix64 on the counter
+    2 (draw n_points + point), two 53-bit uniforms, the Box-Muller transform), so two sweeps asking for the
+    same (draw, point) get the same value whatever else they ask for."""
+    c = np.asarray(draws, dtype=np.uint64)[:, None] * np.uint64(n_points) + np.asarray(points, dtype=np.uint64)[None, :]
+    c *= np.uint64(2)
+    u = (_splitmix64(c, key) >> np.uint64(11)).astype(float)
+    u += 1.0
+    u *= 2.0 ** -53                                   # (0, 1]
+    r = np.sqrt(-np.log(u))
+    c += np.uint64(1)
+    v = (_splitmix64(c, key) >> np.uint64(11)).astype(float)
+    v *= 2.0 ** -53 * 2 * np.pi
+    return r * np.exp(1j * v)
+
+
+@dataclass
+class ScatterDraws:
+    """Draws of a characterized line's own measurement scatter, carried to the feedpoint.
+
+    ``error`` (n,) is the RMS |dGamma| per sweep frequency: the characterization's point-to-point scatter
+    (:attr:`deembed.physics.between.Between.scatter`) through the same first-order path as the
+    between-points error (:func:`deembed.physics.between.feedpoint_error`), as the summary's
+    ``characterization_noise_error`` (its largest value); 0 where the fitted model, not the measured points,
+    is used (the fit averages the scatter out). ``grid`` (n,) is the characterized point nearest each
+    sweep frequency. The offset of draw k at frequency i is error[i] z(k, grid[i]), z circular complex
+    Gaussian with E|z|^2 = 1 (a standard uncertainty: JCGM 101:2008 6.4.7), independent from one
+    characterized point to the next; sweep frequencies nearest the same characterized point share it (a
+    sweep denser than its characterization cannot average the scatter below the characterization's own
+    resolution), and two sweeps through the same characterization share it at the same points, as they
+    share the line (compare).
+    """
+
+    error: np.ndarray
+    grid: np.ndarray
+    n_grid: int
+    key: np.uint64
+
+    def offsets(self, rows: slice, cols):
+        g = self.grid[cols]
+        pts, inv = np.unique(g, return_inverse=True)
+        z = keyed_complex_normals(self.key, np.arange(rows.start, rows.stop), pts, self.n_grid)
+        out = z[:, inv.reshape(-1)]
+        out *= self.error[cols][None, :]
+        return out
+
+
+def draw_scatter(line, freq_hz, seed: int, nominal) -> ScatterDraws | None:
+    """The measurement-scatter draws of a line's characterized part (None without one, without scatter, or
+    where only its fitted model is used). ``nominal``: :func:`_nominal_feedpoint`."""
+    part, whole = _characterized(line)
+    if part is None or getattr(part.between, "scatter", None) is None:
+        return None
+    f = np.asarray(freq_hz, dtype=float)
+    _, g_fp = nominal
+    if between_points(line, f, g_fp)["method"] == "model":
+        return None
+    ds = np.broadcast_to(np.asarray(part.between.scatter, dtype=float), (f.size, 2, 2))
+    err = np.asarray(feedpoint_error(part.s_params(f), ds, g_fp if whole else None), dtype=float)
+    inside = (f >= part.low_hz * (1 - 1e-9)) & (f <= part.high_hz * (1 + 1e-9))
+    err = np.where(np.isfinite(err) & inside, err, 0.0)
+    if not np.any(err > 0):
+        return None
+    grid = np.asarray(part.freq_hz, dtype=float)
+    j = np.clip(np.searchsorted(grid, f), 1, grid.size - 1)
+    nearest = np.where(np.abs(f - grid[j - 1]) <= np.abs(grid[j] - f), j - 1, j)
+    key = np.random.SeedSequence(int(seed), spawn_key=(SCATTER_SPAWN_KEY,)).generate_state(1, np.uint64)[0]
+    return ScatterDraws(err, nearest.astype(np.intp), int(grid.size), np.uint64(key))
+
+
+def point_variances(events: EventSet, key: str, gamma_fp, sigma_noise, scatter: ScatterDraws | None) -> dict:
+    """First-order variances (JCGM 100:2008 eq. (10)) of finding ``key`` from the sources drawn per point.
+
+    ``sigma_noise`` (n,) is the analyzer noise referred to the feedpoint (complex RMS per sample). With the
+    finding's sensitivities c to each sample of its window (:meth:`EventSet.sensitivity`), independent
+    circular noise of RMS s_i gives sum (c_re^2 + c_im^2) s_i^2 / 2; the scatter, shared by the samples
+    nearest one characterized point, gives sum over those points of ((sum c_re e)^2 + (sum c_im e)^2) / 2.
+    {} when the finding has no sensitivity."""
+    sens = events.sensitivity(key, gamma_fp)
+    if sens is None:
+        return {}
+    idx, c_re, c_im = sens
+    out = {NOISE_SOURCE: float(np.sum((c_re ** 2 + c_im ** 2) * np.asarray(sigma_noise)[idx] ** 2) / 2)}
+    if scatter is not None:
+        e = scatter.error[idx]
+        g = scatter.grid[idx]
+        _, inv = np.unique(g, return_inverse=True)
+        a = np.bincount(inv, weights=c_re * e)
+        b = np.bincount(inv, weights=c_im * e)
+        out[SCATTER_SOURCE] = float(np.sum(a ** 2 + b ** 2) / 2)
+    return out
+
+
+def deembed_draws(gamma_an_draws, s11, s21s12, s22, out=None):
     """Gamma_L = (Gamma_in - S11) / (S22 (Gamma_in - S11) + S21 S12) for every draw (closed form, as the
-    plain de-embedding)."""
-    d = gamma_an_draws - s11
+    plain de-embedding). ``out`` may be ``gamma_an_draws`` itself."""
+    d = np.subtract(gamma_an_draws, s11, out=out)
+    den = s22 * d
+    den += s21s12
     with np.errstate(divide="ignore", invalid="ignore"):
-        return d / (s22 * d + s21s12)
+        return np.divide(d, den, out=d)
+
+
+def band_indices(n: int, points: int = BAND_POINTS) -> np.ndarray:
+    """At most ``points`` sweep indices evenly spread over 0 .. n - 1 (every index for shorter sweeps), the
+    first and the last included: where the per-frequency SWR band is worked out from the draws."""
+    if n <= points:
+        return np.arange(n)
+    return np.unique(np.round(np.linspace(0, n - 1, points)).astype(np.intp))
 
 
 def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, noise_rms: float,
         calibration: Calibration = CAL_PRESETS["hobby"], n_draws: int = DEFAULT_DRAWS, seed: int = DEFAULT_SEED,
         coverage: float = DEFAULT_COVERAGE, line_draws: LineDraws | None = None, band: bool = True,
-        noise_key: int = 0) -> McResult:
+        noise_key: int = 0, band_points: int = BAND_POINTS) -> McResult:
     """The Monte Carlo step for one sweep: draws of the analyzer end and of the line, findings of every draw.
 
     Parameters
@@ -421,58 +635,111 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
     noise_key : int
         0 for a sweep's own noise stream; another value gives a second, independent noise stream with the
         same line and calibration draws (compare: the after sweep, measured with the same analyzer and kit).
+    band_points : int
+        Most evenly spread frequencies the band is worked out at (:func:`band_indices`; the feedpoint
+        windows' samples are added), interpolated between them.
+
+    Notes
+    -----
+    The draws are made only where they are used (see the module notes): the analyzer end on the samples of
+    both ends' windows and the band's frequencies, the line and the feedpoint where the feedpoint's windows
+    or the band need them (:func:`deembed.analysis.smooth.evaluate_sets`, block by block). Each sample's
+    noise serves both ends.
     """
     f = np.asarray(freq_hz, dtype=float)
     g = np.asarray(gamma_an, dtype=complex)
-    r_line, r_cal, r_noise, r_band = seeds(seed)
+    r_line, r_cal, r_noise, _ = seeds(seed)
     if noise_key:
-        r_noise, r_band = (np.random.default_rng(c) for c in
-                           np.random.SeedSequence(int(seed), spawn_key=(7919, int(noise_key))).spawn(2))
+        r_noise, _ = (np.random.default_rng(c) for c in
+                         np.random.SeedSequence(int(seed), spawn_key=(7919, int(noise_key))).spawn(2))
     if line_draws is None:
         line_draws = draw_line(line, n_draws, r_line)
     an = draw_analyzer(calibration, noise_rms, n_draws, r_cal)
     an.rng = r_noise
-    between = draw_between(line, f, g, n_draws, seed)
+    nominal = _nominal_feedpoint(line, f, g) if has_characterized_part(line) else None
+    between = draw_between(line, f, g, n_draws, seed, nominal) if nominal is not None else None
+    scatter = draw_scatter(line, f, seed, nominal) if nominal is not None else None
 
     idx_fp = events_fp.indices()
     idx_an = events_an.indices()
     q = [(1 - coverage) / 2, (1 + coverage) / 2]
     notes = []
-    full = band and n_draws * f.size <= BAND_MAX_ELEMENTS
-    idx = np.arange(f.size) if full else np.union1d(idx_fp, idx_an).astype(int)
-    pos_fp = np.searchsorted(idx, idx_fp)
-    pos_an = np.searchsorted(idx, idx_an)
-    g_sub, f_sub = g[idx], f[idx]
-    mags = np.empty((n_draws, idx.size)) if full else None
+    b_idx = band_indices(f.size, band_points) if band else np.zeros(0, dtype=np.intp)
+    pts = np.union1d(np.union1d(idx_fp, idx_an), b_idx).astype(np.intp)
+    sets = [events_an, events_fp]
+    cover = 1 if band and pts.size else None
+    plan = blocks_for(sets, pts, cover)
+    band_at = plan.columns(1) if cover is not None else np.zeros(0, dtype=np.intp)   # positions in pts
+    use = 0
+    if band_at.size:
+        use = min(n_draws, BAND_MAX_ELEMENTS // band_at.size)
+        if use < min(n_draws, BAND_MIN_DRAWS):
+            notes.append(f"{n_draws} draws at {band_at.size} frequencies are too many for a per-frequency "
+                         "uncertainty band; the findings' intervals are still worked out")
+            use = 0
+    mags = np.empty((use, band_at.size)) if use else None
+    band_pos = {}                                  # block columns -> their positions in band_at
+    g_sub, f_sub = g[pts], f[pts]
+    sc = Scratch()
     v_fp, v_an = [], []
-    step = max(1, CHUNK_ELEMENTS // max(idx.size, 1))
-    for a in range(0, n_draws, step):        # chunks of draws: the working set stays in cache
-        rows = slice(a, min(a + step, n_draws))
-        g_an = an.gamma(g_sub, rows)
-        s11, s21s12, s22 = line_draws.terms(f_sub, rows)
-        g_fp = deembed_draws(g_an, s11, s21s12, s22)
-        if between is not None:
-            g_fp += between.offsets(rows, idx)
-        if idx_fp.size:
-            v_fp.append(events_fp.evaluate(g_fp[:, pos_fp], idx_fp))
-        if idx_an.size:
-            v_an.append(events_an.evaluate(g_an[:, pos_an], idx_an))
-        if full:
-            mags[rows] = np.abs(g_fp)
-    v_fp = {k: np.concatenate([c[k] for c in v_fp]) for k in v_fp[0]} if v_fp else {}
-    v_an = {k: np.concatenate([c[k] for c in v_an]) for k in v_an[0]} if v_an else {}
+    for a in range(0, n_draws, SEARCH_DRAWS):     # the findings of a few hundred draws at a time
+        n_rows = min(SEARCH_DRAWS, n_draws - a)
+
+        def draw_an(rows, cols, _, a=a):
+            return an.gamma(g_sub[cols], slice(a + rows.start, a + rows.stop), sc)
+
+        def draw_fp(rows, cols, x, a=a):           # from the analyzer-end draws, in place
+            r = slice(a + rows.start, a + rows.stop)
+            x = deembed_draws(x, *line_draws.terms(f_sub[cols], r, sc), out=x)
+            if between is not None or scatter is not None:
+                at = pts[cols]
+                if between is not None:
+                    x += between.offsets(r, at)
+                if scatter is not None:
+                    x += scatter.offsets(r, at)
+            return x
+
+        def keep(s, rows, cols, x, a=a):
+            k = min(a + rows.stop, use) - a - rows.start
+            if s != 1 or k <= 0:
+                return
+            key = (cols.start, cols.stop) if isinstance(cols, slice) else id(cols)
+            at = band_pos.get(key)
+            if at is None:
+                at = band_pos[key] = as_columns(np.searchsorted(band_at, np.arange(cols.start, cols.stop)
+                                                              if isinstance(cols, slice) else cols))
+            r = slice(a + rows.start, a + rows.start + k)
+            if isinstance(at, slice):
+                np.abs(x[:k], out=mags[r, at])
+            else:
+                mags[r, at] = np.abs(x[:k])
+
+        an_v, fp_v = evaluate_sets(sets, pts, n_rows, [draw_an, draw_fp], cover=cover,
+                                   visit=keep if mags is not None else None)
+        v_an.append(an_v)
+        v_fp.append(fp_v)
+    v_fp = {k: np.concatenate([c[k] for c in v_fp]) for k in v_fp[0]} if v_fp and idx_fp.size else {}
+    v_an = {k: np.concatenate([c[k] for c in v_an]) for k in v_an[0]} if v_an and idx_an.size else {}
     inputs_fp = line_draws.inputs + an.inputs + (between.inputs if between is not None else [])
-    res = McResult(EndDraws(events_fp, v_fp, inputs_fp), EndDraws(events_an, v_an, an.inputs), n_draws, int(seed),
-                   float(coverage), calibration, float(noise_rms), line_draws, notes=notes)
-    if full:
-        res.swr_band = _band_from_mag(mags, q)
-    elif band:
-        res.swr_band = swr_band(f, g, line_draws, an, coverage, r_band, notes, between)
+    pv = {}
+    if scatter is not None:          # two sources drawn per point: their first-order shares of what is left
+        s_, g_nom = nominal
+        gain = feedpoint_gain(s_[:, 1, 0] * s_[:, 0, 1], s_[:, 1, 1], g_nom)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sigma = np.where(gain > 0, noise_rms / gain, np.inf)
+        keys = [f"res_hz_{events_fp.primary}"] if events_fp.primary is not None else []
+        for k in keys + ["min_swr"]:
+            pv[k] = point_variances(events_fp, k, g_nom, sigma, scatter)
+    res = McResult(EndDraws(events_fp, v_fp, inputs_fp, pv), EndDraws(events_an, v_an, an.inputs), n_draws,
+                   int(seed), float(coverage), calibration, float(noise_rms), line_draws, notes=notes)
+    if mags is not None:
+        res.swr_band = _band(f, pts[band_at], _band_from_mag(mags, q))
     return res
 
 
 def _band_from_mag(mag, q):
-    """SWR (low, high) per column from |Gamma| draws (D, n); non-finite draws count as |Gamma| = inf.
+    """Order statistics (low (m,), high (m,)) of |Gamma| per column of draws (D, m); non-finite draws
+    count as |Gamma| = inf.
 
     The quantiles are order statistics picked by a partial sort (``numpy.partition``): the r-th smallest of
     M draws with r = round(p M) (JCGM 101 7.7.2 takes y_(r) and y_(r + q) of the sorted draws)."""
@@ -480,36 +747,29 @@ def _band_from_mag(mag, q):
     n = m.shape[0]
     idx = [min(max(int(round(p * n)) - 1, 0), n - 1) for p in q]     # 1-based r = round(p M), 0-based r - 1
     part = np.partition(m, sorted(set(idx)), axis=0)
-    ql = np.stack([part[i] for i in idx])
-    with np.errstate(divide="ignore", invalid="ignore"):
-        s = np.where(ql < 1, (1 + ql) / (1 - ql), np.inf)
-    return s[0], s[1]
+    return part[idx[0]], part[idx[1]]
 
 
-def swr_band(freq_hz, gamma_an, line_draws: LineDraws, an: AnalyzerDraws, coverage, rng, notes, between=None):
-    """Per-frequency coverage interval of the feedpoint SWR, (low (n,), high (n,)), from the draws."""
+def _band(freq_hz, at, mag_lo_hi):
+    """The SWR band (low (n,), high (n,)) at every sweep frequency from |Gamma| order statistics at the sweep
+    indices ``at``: exact there, linear in |Gamma| between them (an end of a gap with |Gamma| >= 1 or
+    infinite makes the gap's SWR infinite)."""
     f = np.asarray(freq_hz, dtype=float)
-    n_d = line_draws.n
-    use = n_d if n_d * f.size <= BAND_MAX_ELEMENTS else BAND_MAX_ELEMENTS // max(f.size, 1)
-    if use < BAND_MIN_DRAWS and use < n_d:
-        notes.append(f"the sweep has {f.size} points: too many for a per-frequency uncertainty band; "
-                     "the findings' intervals are still worked out")
-        return None
-    lo = np.empty(f.size)
-    hi = np.empty(f.size)
-    chunk = max(1, CHUNK_ELEMENTS // n_d)
-    an_band = AnalyzerDraws(an.e_d, an.e_t, an.e_s, an.noise_rms, rng, an.inputs, n_d)
-    q = [(1 - coverage) / 2, (1 + coverage) / 2]
-    for a in range(0, f.size, chunk):
-        sl = slice(a, min(a + chunk, f.size))
-        s11, s21s12, s22 = line_draws.terms(f[sl])
-        g_fp = deembed_draws(an_band.gamma(gamma_an[sl]), s11, s21s12, s22)
-        if between is not None:
-            g_fp += between.offsets(slice(None), sl)
-        if use < n_d:
-            g_fp = g_fp[:use]
-        lo[sl], hi[sl] = _band_from_mag(np.abs(g_fp), q)
-    return lo, hi
+    out = []
+    for m in mag_lo_hi:
+        if at.size == f.size:
+            full = m
+        else:
+            xp = f[at]
+            j = np.clip(np.searchsorted(xp, f, side="right") - 1, 0, xp.size - 2)
+            w = (f - xp[j]) / (xp[j + 1] - xp[j])
+            lo, hi = m[j], m[j + 1]
+            with np.errstate(invalid="ignore"):
+                full = np.where(np.isfinite(lo) & np.isfinite(hi), lo + w * (hi - lo), np.inf)
+            full[at] = m
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out.append(np.where(full < 1, (1 + full) / (1 - full), np.inf))
+    return out[0], out[1]
 
 
 # ------------------------------------------------------------------------------------------ reporting
@@ -571,7 +831,7 @@ def end_block(end: EndDraws, nominal: dict, *, coverage: float, n_draws: int, se
     kept = ev.kept_resonances()
     headline = prim if prim and ev.primary in kept else ("min_swr" if out["min_swr"] else None)
     if headline:
-        share = contributions(v[headline], end.inputs)
+        share = contributions(v[headline], end.inputs, end.point_variances.get(headline))
         name = "resonance_hz" if headline == prim else "min_swr"
         out["contributions"] = {name: share}
         if out.get(name) is None and end.inputs:
@@ -605,7 +865,7 @@ def limiting_text(share: dict, values: dict, headline: str, matched_loss_db=None
     if not share:
         return None
     name, frac = next(iter(share.items()))
-    if name == "analyzer noise":
+    if name == NOISE_SOURCE:
         if matched_loss_db is not None:
             fr = float(np.nanmedian(values.get(headline if headline.startswith("res_hz") else "min_hz", [np.nan])))
             if math.isfinite(fr):
@@ -615,6 +875,8 @@ def limiting_text(share: dict, values: dict, headline: str, matched_loss_db=None
         return f"analyzer noise ({frac:.0%} of the variance)"
     if name == "analyzer calibration":
         return f"analyzer calibration ({frac:.0%} of the variance)"
+    if name == SCATTER_SOURCE:
+        return f"the characterization's own measurement scatter ({frac:.0%} of the variance)"
     return f"{_as_source(name)} ({frac:.0%} of the variance)"
 
 
@@ -637,6 +899,8 @@ def change_interval(after_values, before_values, coverage: float = DEFAULT_COVER
         return interval(a - b, coverage)
 
 
-__all__ = ["CAL_PRESETS", "Calibration", "LineDraws", "McResult", "change_interval", "contributions",
-           "deembed_draws", "draw_analyzer", "draw_line", "end_block", "feedpoint_gain", "interval",
-           "limiting_text", "parse_calibration", "run", "section_tolerance", "seeds", "swr_band"]
+__all__ = ["BAND_POINTS", "BETWEEN_SOURCE", "CAL_PRESETS", "Calibration", "LineDraws", "McResult", "NOISE_SOURCE",
+           "SCATTER_SOURCE", "ScatterDraws", "add_complex_noise", "band_indices", "change_interval", "contributions",
+           "deembed_draws", "draw_analyzer", "draw_between", "draw_line", "draw_scatter", "end_block",
+           "feedpoint_gain", "interval", "is_section", "keyed_complex_normals", "limiting_text", "parse_calibration",
+           "point_variances", "run", "section_tolerance", "seeds"]

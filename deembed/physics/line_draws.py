@@ -7,6 +7,8 @@ parameter may be an array shaped ``(draws, 1)`` broadcasting against frequency `
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 
@@ -54,44 +56,157 @@ def section_parts(z0_ohm, delay_s, c_np, d_np, freq_hz):
     return ch, zc * sh, sh / zc, ch
 
 
-def section_s_terms(z0_ohm, delay_s, c_np, d_np, freq_hz, z_ref_ohm: float = 50.0):
+DRAWS_ERROR_BOUND = 1e-6
+"""Largest error of :func:`section_s_terms` with ``single_trig=True`` in any of S11, S21 S12, S22 (a test checks
+it against the double-precision terms over lines up to thousands of radians long)."""
+
+
+SINGLE_TRIG_MIN_D2 = 0.5625
+"""``single_trig`` is used only where |1 - rho^2 t^2| >= 0.75 everywhere (it divides the terms and amplifies
+the single-precision error by up to 1/|1 - rho^2 t^2|^2; a 50-ohm-like line has |rho| < 0.3, so it is near 1);
+otherwise the double-precision exponential."""
+
+
+class Scratch:
+    """Work arrays kept between calls of a loop that evaluates blocks of the same sizes again and again.
+
+    ``get(name, shape, dtype)`` returns an array of that shape backed by a buffer kept under ``name``
+    (grown when too small). Fresh large temporaries cost page faults on every call once the allocator
+    returns freed memory to the system, which on a Monte Carlo block of a few tens of thousands of values
+    costs about as much as the arithmetic itself; arrays from a Scratch are valid until the next ``get``
+    of the same name."""
+
+    def __init__(self):
+        self._bufs = {}
+
+    def get(self, name: str, shape, dtype=float) -> np.ndarray:
+        shape = tuple(int(x) for x in shape)
+        n = math.prod(shape)
+        dt = np.dtype(dtype)
+        buf = self._bufs.get((name, dt.str))
+        if buf is None or buf.size < n:
+            buf = np.empty(max(n, 1), dtype=dt)
+            self._bufs[(name, dt.str)] = buf
+        return buf[:n].reshape(shape)
+
+
+def section_s_terms(z0_ohm, delay_s, c_np, d_np, freq_hz, z_ref_ohm: float = 50.0, *, single_trig: bool = False,
+                    scratch: Scratch | None = None):
     """(S11, S21 S12, S22) of one uniform RLGC section, broadcast like :func:`section_parts` (fewer temporaries).
+
+    ``single_trig`` takes exp(-2 gamma l) = exp(-2 alpha) (cos 2 beta - j sin 2 beta) with the exponential,
+    cosine and sine in single precision, after reducing 2 beta to [-pi, pi] in double precision: the error
+    of each term stays below :data:`DRAWS_ERROR_BOUND` (single-precision functions are vectorised, several
+    times faster than the complex exponential; where the line is so badly mismatched that the error would
+    be amplified, :data:`SINGLE_TRIG_MIN_D2`, the double-precision exponential is used). For Monte Carlo draws, whose spread is thousands of times
+    larger. With a ``scratch`` (:class:`Scratch`) every array, the returned ones included, lives in its
+    buffers: use the terms before the next call with the same scratch.
 
     Notes
     -----
     For a uniform line of characteristic impedance Zc and t = exp(-gamma l), with rho = (Zc - Zref)/(Zc + Zref):
     S11 = S22 = rho (1 - t^2) / (1 - rho^2 t^2), S21 = S12 = t (1 - rho^2) / (1 - rho^2 t^2) (Pozar 4th ed.
     sec. 2.7 and 4.3; the same as :func:`s_terms` of :func:`section_parts`, which a test checks).
+
+    Worked out for speed (the Monte Carlo step evaluates it for every draw at every frequency it needs):
+    gamma l = sqrt((a + jx)(b + jx)) with a = 2 A_c, b = 2 A_d, x = w tau is taken in real arithmetic
+    (the principal root from |P| and the larger of its two parts, the smaller as Im P / (2 x larger), so
+    neither loses digits), and rho without forming Zc: Zc = Z0 (a + jx) / (gamma l), so
+    rho = (Z0 (a + jx) - Zref gamma l) / (Z0 (a + jx) + Zref gamma l), one complex division. At 0 Hz, where
+    both are 0/0, Zc is its limit, the nominal Z0 (R ~ sqrt f, G ~ f).
     """
+    sc = scratch if scratch is not None else Scratch()
     f = np.asarray(freq_hz, dtype=float)
-    jwt = (2 * np.pi * f) * delay_s * 1j
-    zs_n = jwt + 2 * (c_np * np.sqrt(f))
-    gl = jwt
-    gl += 2 * (d_np * f)
-    gl *= zs_n
-    gl = np.sqrt(gl, out=gl)
-    zc = zs_n
+    shape = np.broadcast_shapes(np.shape(f), np.shape(delay_s), np.shape(c_np), np.shape(d_np), np.shape(z0_ohm))
+    x = np.multiply(2 * np.pi * f, delay_s, out=sc.get("x", shape))
+    a = np.multiply(c_np, 2 * np.sqrt(f), out=sc.get("a", shape))
+    b = np.multiply(d_np, 2 * f, out=sc.get("b", shape))
+    # P = (a + jx)(b + jx) = (ab - x^2) + j x (a + b)
+    p = np.multiply(a, b, out=sc.get("p", shape))
+    xx = np.multiply(x, x, out=sc.get("xx", shape))
+    p -= xx
+    q = np.add(a, b, out=sc.get("q", shape))
+    q *= x
+    m = np.multiply(p, p, out=sc.get("m", shape))
+    np.multiply(q, q, out=xx)
+    m += xx
+    np.sqrt(m, out=m)                        # |P|
+    gl = sc.get("gl", shape, complex)
+    if p.size and p.max() < 0 <= q.min():    # the usual case (w tau above the loss terms): Im sqrt(P) is the larger part
+        m -= p
+        m *= 0.5
+        big = np.sqrt(m, out=m)
+        gl.imag = big
+        gl.real = q
+        with np.errstate(divide="ignore", invalid="ignore"):
+            gl.real /= big + big
+    else:
+        np.abs(p, out=xx)
+        m += xx
+        m *= 0.5
+        big = np.sqrt(m, out=m)              # the larger part of sqrt(P): sqrt((|P| + |Re P|) / 2)
+        small = np.add(big, big, out=xx)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            np.divide(q, small, out=small)   # the other: Im P / (2 big)
+        neg = p < 0
+        gl.imag = small
+        np.copyto(gl.imag, np.copysign(big, q), where=neg)
+        gl.real = big
+        np.copyto(gl.real, np.abs(small, out=small), where=neg)
+    zero = (big == 0) if (np.min(f, initial=1.0) <= 0 or np.min(delay_s) <= 0) else None
+    num = sc.get("num", shape, complex)      # Z0 (a + jx) - Zref gamma l, then rho
+    num.real = a
+    num.imag = x
+    num *= z0_ohm
+    den = np.multiply(gl, z_ref_ohm, out=sc.get("den", shape, complex))
+    den += num
+    num *= 2
+    num -= den                               # 2 Z0 zs - (Z0 zs + Zref gl) = Z0 zs - Zref gl
     with np.errstate(divide="ignore", invalid="ignore"):
-        zc /= gl
-    if not np.all(np.isfinite(zc)):  # at 0 Hz Zc is 0/0; its limit is the nominal Z0 (R ~ sqrt f, G ~ f)
-        zc = np.where(np.isfinite(zc), zc, 1.0)
-    zc *= z0_ohm / z_ref_ohm
-    rho = (zc - 1) / (zc + 1)
-    np.negative(gl, out=gl)
-    t = np.exp(gl, out=gl)
-    t *= t                       # t^2
-    r2 = rho * rho
-    den = r2 * t
-    np.subtract(1, den, out=den)
-    np.reciprocal(den, out=den)  # 1 / (1 - rho^2 t^2)
-    s11 = 1 - t
+        rho = np.divide(num, den, out=num)
+    if zero is not None and zero.any():
+        rho[zero] = np.broadcast_to((z0_ohm - z_ref_ohm) / (z0_ohm + z_ref_ohm), shape)[zero]
+        gl[zero] = 0.0
+    if single_trig:
+        th = np.multiply(gl.imag, 2, out=a)  # 2 beta, reduced exactly to [-pi, pi]
+        k = np.multiply(th, 1 / (2 * np.pi), out=b)
+        np.rint(k, out=k)
+        k *= 2 * np.pi
+        th -= k
+        th32 = sc.get("th32", shape, np.float32)
+        th32[...] = th
+        e32 = sc.get("e32", shape, np.float32)
+        e32[...] = gl.real
+        e32 *= -2
+        np.exp(e32, out=e32)
+        c32 = np.cos(th32, out=sc.get("c32", shape, np.float32))
+        c32 *= e32
+        np.sin(th32, out=th32)
+        th32 *= e32
+        np.negative(th32, out=th32)
+        t = gl                               # t^2 = exp(-2 gamma l)
+        t.real = c32
+        t.imag = th32
+    else:
+        gl *= -2
+        t = np.exp(gl, out=gl)               # t^2 = exp(-2 gamma l)
+    r2 = np.multiply(rho, rho, out=sc.get("r2", shape, complex))
+    inv = np.multiply(r2, t, out=sc.get("inv", shape, complex))
+    np.subtract(1, inv, out=inv)
+    if single_trig and inv.size:
+        d2 = np.multiply(inv.real, inv.real, out=a)
+        d2 += np.multiply(inv.imag, inv.imag, out=b)
+        if not d2.min() >= SINGLE_TRIG_MIN_D2:   # ill-conditioned (a badly mismatched line): no single precision
+            return section_s_terms(z0_ohm, delay_s, c_np, d_np, freq_hz, z_ref_ohm, scratch=scratch)
+    np.reciprocal(inv, out=inv)              # 1 / (1 - rho^2 t^2)
+    s11 = np.subtract(1, t, out=den)
     s11 *= rho
-    s11 *= den
-    s21s12 = 1 - r2
+    s11 *= inv
+    s21s12 = np.subtract(1, r2, out=r2)
     s21s12 *= s21s12
     s21s12 *= t
-    s21s12 *= den
-    s21s12 *= den
+    inv *= inv
+    s21s12 *= inv
     return s11, s21s12, s11
 
 
@@ -125,4 +240,4 @@ def s_terms(a, b, c, d, z_ref_ohm: float = 50.0):
     return s11, s21s12, s22
 
 
-__all__ = ["cascade_parts", "s_terms", "section_parts", "section_s_terms"]
+__all__ = ["DRAWS_ERROR_BOUND", "SINGLE_TRIG_MIN_D2", "Scratch", "cascade_parts", "s_terms", "section_parts", "section_s_terms"]
