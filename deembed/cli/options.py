@@ -64,6 +64,7 @@ OPTION_FOR_FIELD = {
     "load_r": "--load-r", "standards": "--open/--short/--load", "swr_threshold": "--swr-limits",
     "max_shift": "--max-shift", "max_swr_rise": "--max-swr-rise", "max_gamma_change": "--max-gamma-change",
     "max_bw_loss": "--max-bw-loss", "max_loss_change": "--max-loss-change", "tolerance": "--tol",
+    "calibration": "--cal-uncertainty",
     "columns": "--columns", "max_input_size": "--max-input-size",
     "lowpass": "--lowpass", "resolve": "--resolve", "keep": "--keep", "remove": "--remove", "unit": "--unit",  # locate
     "max_loss_rise": "--max-loss-rise", "max_drift": "--max-drift", "time_limit": "--time-limit",  # trend, site
