@@ -36,8 +36,9 @@ for its paired draws); both shift every run alike and cannot move a trend, so th
 remains is the analyzer's noise. For the findings it comes from a second Monte Carlo run
 (:func:`run_intervals`, JCGM 101:2008) with the line held at its description and no calibration error,
 the same draws, seed and local models otherwise. A characterized line's estimated error between its
-measured points is still drawn there (it is common to every run too, so this per-run interval is wider than
-it need be for such a line). The trend fits weigh each run by it (:mod:`deembed.analysis.trend`).
+measured points and its own measurement scatter are still drawn there (the Monte Carlo step draws them from
+the line itself; they are common to every run through that characterization too, so this per-run interval is
+wider than it need be for such a line). The trend fits weigh each run by it (:mod:`deembed.analysis.trend`).
 
 The line's loss (:func:`line_loss_values`): the recorded interval draws the description's own tolerance
 (the Monte Carlo step's line draws, the same seed) and, for a fitted change, adds the fit's standard
