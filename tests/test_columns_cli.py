@@ -155,3 +155,51 @@ def test_site_columns_key(tmp_path, capsys):
     s = json.loads(out)
     assert s["antennas"][0]["verdict"] == "error"
     assert "antenna 1 (a): 'columns'" in s["antennas"][0]["error"] and "'q' is not a column name" in s["antennas"][0]["error"]
+
+
+def test_a_skipped_column_may_hold_text(tmp_path, capsys):
+    """Only the columns in use are read: a skipped column (-) of notes, units or nothing at all is fine; a bad
+    value in a used column is named by file, line and column."""
+    rows = "".join(f"{28.0 + 0.1 * k:.1f},{note},{1.5 - 0.05 * k:.2f}\n" for k, note in
+                   enumerate(["ok", "bad ant", "", "n/a", "3 dB pad"]))
+    table = tmp_path / "skiptext.csv"
+    table.write_text("freq,note,swr\n" + rows)
+    rc, out, err = run(capsys, "correct", table, "--columns", "freq:MHz,-,swr", "--cable", "rg8x", "--length", "25m",
+                       "--out", tmp_path / "o", "--json")
+    assert rc == 0, err
+    summary = json.loads(out)
+    assert summary["sweep"]["points"] == 5
+    # the lowest SWR at the analyzer is the last row's 1.30 (the table's own figure; no interpolation past it)
+    assert summary["analyzer"]["min_swr"]["swr"] == pytest.approx(1.30, abs=1e-9)
+    bad = tmp_path / "bad.csv"
+    bad.write_text("freq,note,swr\n28.0,ok,1.5\n28.1,bad ant,x1.4\n")
+    rc, _, err = run(capsys, "correct", bad, "--columns", "freq:MHz,-,swr", "--cable", "rg8x", "--length", "25m",
+                     "--out", tmp_path / "o2")
+    assert rc == 2
+    assert err.strip() == f"error: {bad}, line 3: column 3 (SWR): cannot read 'x1.4' as a number; fix or remove the line"
+    assert not (tmp_path / "o2").exists()
+
+
+def test_library_messages_name_the_field_and_the_command_line_its_option(tmp_path, capsys):
+    """io/ names the quantity or file field (``columns``, ``port``, ``max_input_size``); the command line shows
+    its option for it."""
+    from deembed.base.errors import OptionError
+    from deembed.io.anysweep import read_any_sweep
+    from deembed.io.inputfile import parse_size
+    from deembed.io.tablesweep import parse_columns
+
+    table = tmp_path / "t.csv"
+    table.write_text("7.0,0.1\n7.1,0.2\n")
+    for call in (lambda: parse_columns("freq,swr"), lambda: read_any_sweep(table, "freq:MHz,swr", port=1),
+                 lambda: parse_size("lots")):
+        with pytest.raises(OptionError) as exc:
+            call()
+        assert "--" not in str(exc.value), str(exc.value)
+    with pytest.raises(Exception) as exc:
+        read_any_sweep(table, "freq:MHz,r,x")
+    assert "--columns" not in str(exc.value) and "columns freq:MHz,r,x names 3" in str(exc.value)
+    rc, _, err = run(capsys, "correct", table, "--columns", "freq:MHz,r,x", *LINE, "--out", tmp_path / "o")
+    assert rc == 2 and "but --columns freq:MHz,r,x names 3" in err
+    rc, _, err = run(capsys, "correct", table, "--columns", "freq:MHz,swr", "--port", "1", *LINE,
+                     "--out", tmp_path / "o")
+    assert rc == 2 and err.startswith("error: --port:") and "--port is for multi-port" in err

@@ -11,10 +11,11 @@ import numpy as np
 from ..base.errors import InputFileError
 from ..base.units import fmt_freq, fmt_span
 from ..physics import rf
-from ..physics.budget import MAX_MATCHED_LOSS_DB, matched_loss_refusal
+from ..physics.budget import MAX_MATCHED_LOSS_DB, matched_loss_refusal, power_budget
 from .between import between_error, between_points, between_warnings, has_characterized_part
 from .findings import end_findings
 from .magnitude import magnitude_findings
+from .smooth import noise_rms
 from .trust import assess, sources_record, uncertainty_blocks
 
 TWO_WAY_LOSS_WARN_DB = 10.0
@@ -201,10 +202,64 @@ def unplotted_warnings(freq_hz, ends) -> list[str]:
     return out
 
 
+OUTLIER_MIN = 0.1
+"""Least distance in |Gamma| (or in Gamma) of a sample from the straight line through its two neighbours for it to
+be called far off them (:func:`outlier_points`). Our choice, common practice, no source: ten times the
+calibration error of an inexpensive analyzer."""
+
+
+def outlier_points(freq_hz, values, noise: float = 0.0) -> np.ndarray:
+    """Indices of samples that lie far off their neighbours (a glitch of the analyzer, a mistyped line).
+
+    A sample k is one when its distance d_k from the straight line through its two neighbours (the
+    Gasser-Sroka-Jennen-Steinmetz pseudo-residual before scaling, :func:`deembed.analysis.smooth.pseudo_residuals`)
+    is at least :data:`OUTLIER_MIN` and 10 times the noise, at least three times the distance between the two
+    neighbours themselves (they agree with each other far better than with it: a trace that really turns
+    fast moves its neighbours apart too), and at least 1.5 times the neighbours' own distances (an isolated
+    point: in a trace sampled too coarsely every point is off its neighbours, and none stands out). The first
+    and last samples have one neighbour and are not judged. ``values`` may be complex (Gamma) or real (|Gamma|).
+    """
+    f = np.asarray(freq_hz, dtype=float)
+    v = np.asarray(values)
+    if f.size < 3:
+        return np.zeros(0, dtype=int)
+    span = f[2:] - f[:-2]
+    a = (f[2:] - f[1:-1]) / span
+    b = (f[1:-1] - f[:-2]) / span
+    with np.errstate(invalid="ignore", over="ignore"):
+        d = np.abs(a * v[:-2] + b * v[2:] - v[1:-1])
+        spread = np.abs(v[2:] - v[:-2])
+        d_pad = np.concatenate(([0.0], d, [0.0]))
+        neighbours = np.maximum(d_pad[:-2], d_pad[2:])
+        off = (d >= max(OUTLIER_MIN, 10 * noise)) & (d >= 3 * spread) & (d >= 1.5 * neighbours)
+    return np.flatnonzero(off) + 1
+
+
+def outlier_warnings(freq_hz, values, what: str = "|Gamma|", noise: float = 0.0) -> list[str]:
+    """The warning for samples far off their neighbours (:func:`outlier_points`), with where and how far."""
+    idx = outlier_points(freq_hz, values, noise)
+    if idx.size == 0:
+        return []
+    f = np.asarray(freq_hz, dtype=float)
+    v = np.abs(np.asarray(values))
+    if idx.size == 1:
+        k = int(idx[0])
+        return [f"1 of {f.size} points of the sweep lies far off its neighbours ({fmt_freq(f[k], resolution_hz=sweep_step(f))}: "
+                f"{what} {v[k]:.3g} against {v[k - 1]:.3g} and {v[k + 1]:.3g} beside it), like a glitch of the "
+                "analyzer: findings near it (the lowest SWR, a resonance, a span edge) may be pulled by it; sweep "
+                "again, or remove the point"]
+    mask = np.zeros(f.size, dtype=bool)
+    mask[idx] = True
+    return [f"{idx.size} of {f.size} points of the sweep lie far off their neighbours ({ranges_text(f, mask)}), "
+            "like glitches of the analyzer: findings near them (the lowest SWR, a resonance, a span edge) may be "
+            "pulled by them; sweep again, or remove those points"]
+
+
 def warnings_for(corr) -> list[str]:
     """Plain-language warnings about a correction, each saying at which frequencies."""
     out = []
     f = corr.freq_hz
+    out += outlier_warnings(f, corr.gamma_analyzer, "|Gamma|", noise_rms(f, corr.gamma_analyzer))
     g_in = np.abs(corr.gamma_analyzer)
     bad_in = g_in > 1
     if bad_in.any():
@@ -278,6 +333,17 @@ def summarise(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | 
     return summary
 
 
+def power_summary(power_w: float, freq_hz, matched_loss_db, gamma_feedpoint) -> dict:
+    """The power budget at the feedpoint's best-matched frequency (least |Gamma|), for the summary's ``power``:
+    ``at_freq_hz`` and the blocks of ``deembed budget --json`` in the same words (``at_antenna``,
+    ``at_transmitter``, ``line``, ``matched_at_transmitter``; the transmitter's power is
+    ``at_transmitter.forward_w``). ``gamma_feedpoint`` may be the reflection or its size alone."""
+    g = np.abs(np.asarray(gamma_feedpoint))
+    i = int(np.nanargmin(g))
+    b = power_budget(float(power_w), float(np.asarray(matched_loss_db, dtype=float)[i]), float(g[i]))
+    return {"at_freq_hz": float(np.asarray(freq_hz, dtype=float)[i]), **b.to_dict()}
+
+
 # ------------------------------------------------------------------------------- sweeps without phase
 
 def magnitude_table(corr, budget: dict | None = None) -> dict:
@@ -311,6 +377,7 @@ def magnitude_warnings(corr) -> list[str]:
            "|Gamma_analyzer| / |S21|^2, exact only for a line matched to 50 ohm; the interval given with it holds the "
            "true value whatever the phase (it comes from the line's own mismatch, e.g. its complex Z0). Resonance, "
            "impedance and Q need phase"]
+    out += outlier_warnings(f, corr.gamma_analyzer_mag, "|Gamma|")
     bad_in = corr.gamma_analyzer_mag > 1
     if bad_in.any():
         out.append(f"the sweep itself shows |Gamma| above 1 (return loss below 0 dB) at {int(bad_in.sum())} of "

@@ -48,7 +48,11 @@ def characterize_command(
                                                 "repeat the option)."),
     as_json: bool = typer.Option(False, "--json", help="Print the report as JSON on standard output."),
 ):
-    """Characterize a feed line from open/short/load sweeps taken through it, for `correct --line`."""
+    """Characterize a feed line from open/short/load sweeps taken through it, for `correct --line`.
+
+    Input files above 256 MiB are refused; --max-input-size SIZE (e.g. 1GiB, before or after the command name)
+    or DEEMBED_MAX_INPUT_SIZE raises the limit.
+    """
     import numpy as np
 
     from ..render.text import report_text

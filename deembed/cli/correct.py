@@ -13,7 +13,8 @@ from .options import (CableOpt, CablesOpt, ColumnsOpt, CalOpt, DateOpt, DelayOpt
 
 
 def correct_command(
-    sweep: str = typer.Argument(..., help="Touchstone sweep taken at the analyzer end (.s1p, or .s2p with --port)."),
+    sweep: str = typer.Argument(..., help="Sweep taken at the analyzer end: Touchstone (.s1p, or .s2p with --port), "
+                                          "or a text table with --columns."),
     cable: Optional[str] = CableOpt,
     length: Optional[str] = LengthOpt,
     vf: Optional[str] = VfOpt,
@@ -43,7 +44,11 @@ def correct_command(
     seed: int = SeedOpt,
     cal_uncertainty: str = CalOpt,
 ):
-    """Correct a sweep through a known line: feedpoint Touchstone, table, summary, plots and report."""
+    """Correct a sweep through a known line: feedpoint Touchstone, table, summary, plots and report.
+
+    Input files above 256 MiB are refused; --max-input-size SIZE (e.g. 1GiB, before or after the command name)
+    or DEEMBED_MAX_INPUT_SIZE raises the limit.
+    """
     from ..io.jsonfile import to_jsonable
     from ..io.outfolder import claimed
     from ..jobs import correct as workflow

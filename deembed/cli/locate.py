@@ -20,7 +20,8 @@ def _db(text: str, option: str) -> float:
 
 
 def locate_command(
-    sweep: str = typer.Argument(..., help="Touchstone sweep taken at the analyzer end, on equal frequency steps."),
+    sweep: str = typer.Argument(..., help="Sweep taken at the analyzer end, on equal frequency steps: Touchstone, "
+                                          "or a text table with --columns."),
     cable: Optional[str] = CableOpt,
     length: Optional[str] = typer.Option(None, "--length", help="The run's physical length (30m, 98ft), if known: "
                                                                 "compared with the far end the sweep finds."),

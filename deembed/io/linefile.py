@@ -11,10 +11,10 @@ A line file is TOML of our own design (documented in the README)::
 
     [[section]]
     label = "main run"
-    z0 = 50
+    z0 = "50ohm"
     vf = 0.85
     length = "98ft"
-    loss = ["0.9dB@14MHz", "2.3dB@100MHz"]   # this section's one-way matched loss
+    loss = ["0.8dB@21MHz", "2.3dB@100MHz"]   # this section's one-way matched loss
 
     [[section]]
     measured = "lightning-arrestor.s2p"      # a measured 2-port, path relative to this file
@@ -22,7 +22,7 @@ A line file is TOML of our own design (documented in the README)::
     [cables.my-rg213]           # optional: cables of your own, same fields as the catalog
     name = "..."  z0 = 50  vf = 0.66  k1 = 0.18  k2 = 0.0025  source = "..."
 
-Each section takes ``cable`` and/or ``z0`` (ohm), its electrical length as ``length`` (with a unit) and
+Each section takes ``cable`` and/or ``z0`` (ohm), its physical length as ``length`` (with a unit) and
 a velocity factor (``vf`` or the cable's) or as ``delay`` (one-way), and its matched loss from the
 cable or from ``loss`` points. The same rules serve the single-section command-line options.
 """
@@ -303,9 +303,13 @@ def read_line_file(path, cables_file=None, allow_extrapolation: bool = False, to
         wrong = [k for k, v in texts.items() if v is not None and not isinstance(v, str)]
         if wrong:
             raise InputFileError(p, f"{where}: '{wrong[0]}' must be a quoted string, e.g. cable = \"rg213\", "
-                                    f"loss = [\"1.25dB@14MHz\"], measured = \"arrestor.s2p\"")
+                                    f"loss = [\"0.8dB@21MHz\"], measured = \"arrestor.s2p\"")
         if "measured" in entry:
-            parts.append(_two_port_line(os.path.join(base, str(entry["measured"])), allow_extrapolation).parts[0])
+            try:
+                part = _two_port_line(os.path.join(base, str(entry["measured"])), allow_extrapolation).parts[0]
+            except InputFileError as exc:  # the 2-port's own fault, named with where the line file names it
+                raise InputFileError(p, f"{where} 'measured': {exc}") from None
+            parts.append(part)
             continue
         sec, sec_notes = section_from_table(entry, cat, p, where, tolerances=cli_tol)
         parts.append(sec)

@@ -341,14 +341,18 @@ def read_table_sweep(path, columns, *, option: str = "columns"):
     import pandas as pd
 
     body = text[pos:]
-    # only the columns in use are read, so a skipped one may hold anything (text, units, empty); one more
+    del text  # the body is all that is needed from here (a large table is not held twice)
+    # only the columns in use are read as numbers, so a skipped one may hold anything (text, units, empty; it
+    # is kept as text, not usecols'd away, so that a line with too many fields is still refused); one more
     # name than columns: a trailing delimiter on any line lands there and must stay empty
     ncols = nfields + (0 if sep == " " else 1)
     used = [k for k, kind in enumerate(cmap.kinds) if kind is not None]
     read = used + ([nfields] if ncols > nfields else [])
+    dtypes = {k: (float if k in read else object) for k in range(ncols)}
     try:
-        frame = pd.read_csv(io.StringIO(body), sep=r"\s+" if sep == " " else sep, header=None,
-                            names=list(range(ncols)), usecols=read, dtype=float, skip_blank_lines=True,
+        # bytes, not a StringIO: a StringIO holds four bytes per character, and the C parser reads bytes itself
+        frame = pd.read_csv(io.BytesIO(body.encode("utf-8")), encoding="utf-8", sep=r"\s+" if sep == " " else sep,
+                            header=None, names=list(range(ncols)), dtype=dtypes, skip_blank_lines=True,
                             decimal="," if dec_comma else ".", skipinitialspace=True, engine="c")
         vals = frame[read].to_numpy(dtype=float)
     except (ValueError, pd.errors.ParserError):

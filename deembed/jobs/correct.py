@@ -22,7 +22,6 @@ from ..analysis.bandcheck import band_check
 from ..io.bands import load_bands
 from ..analysis.summary import ranges_text
 from ..base.errors import InputFileError
-from ..physics import rf
 from ..io.atomic import write_text_atomic
 from ..io.touchstone import write_touchstone
 from ..render.report import write_report
@@ -31,7 +30,7 @@ from ..render import plots
 from ..io.anysweep import read_any_sweep
 from ..io.tablesweep import MagnitudeSweep
 from ..physics.magnitude import correct_magnitude
-from ..analysis.summary import magnitude_summary, magnitude_table
+from ..analysis.summary import magnitude_summary, magnitude_table, power_summary
 from ..io.jsonfile import to_jsonable
 from ..io.outfolder import OutputFolder
 from ..io.numtext import is_float_table, table_blocks, write_csv_chunks
@@ -189,12 +188,7 @@ def check_finite(corr) -> None:
 def budget_summary(corr, budget: dict, power_w: float) -> dict:
     """The budget at the feedpoint's best-matched frequency, for the summary."""
 
-    i = int(np.nanargmin(rf.swr(corr.gamma_feedpoint)))
-    return {
-        "transmitter_w": power_w,
-        "at_freq_hz": float(corr.freq_hz[i]),
-        **{k.removeprefix("budget_"): float(v[i]) for k, v in budget.items()},
-    }
+    return power_summary(power_w, corr.freq_hz, corr.matched_loss_db, corr.gamma_feedpoint)
 
 
 def write_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options, along_data=False) -> dict:
@@ -329,9 +323,7 @@ def budget_columns_mag(corr, power_w: float) -> dict:
 
 
 def budget_summary_mag(corr, budget: dict, power_w: float) -> dict:
-    i = int(np.nanargmin(corr.gamma_feedpoint_mag))
-    return {"transmitter_w": power_w, "at_freq_hz": float(corr.freq_hz[i]),
-            **{k.removeprefix("budget_"): float(v[i]) for k, v in budget.items()}}
+    return power_summary(power_w, corr.freq_hz, corr.matched_loss_db, np.minimum(corr.gamma_feedpoint_mag, 1.0))
 
 
 def write_magnitude_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options) -> dict:
