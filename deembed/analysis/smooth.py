@@ -339,18 +339,30 @@ def local_model(freq_hz, gamma, sigma, f_event_hz, *, domains=("z", "y")) -> Loc
 def _rising_nearest(u, vals, u0):
     """Where each row of vals (E, D, K) rises through 0, nearest u0 (E,), on the grids u (E, K).
 
-    A falling crossing is found by passing -vals. Returns (E, D) of u, NaN where a row has no such crossing."""
-    a, b = vals[..., :-1], vals[..., 1:]
-    hit = (a < 0) & (b >= 0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        t = a / (a - b)
-    lo = u[:, None, :-1]
-    t *= u[:, None, 1:] - lo
-    t += lo                                              # the crossing's u, between the two grid points
-    dist = np.where(hit, np.abs(t - u0[:, None, None]), np.inf)
-    k = np.argmin(dist, axis=-1)[..., None]
-    best = np.take_along_axis(dist, k, axis=-1)[..., 0]
-    return np.where(np.isfinite(best), np.take_along_axis(t, k, axis=-1)[..., 0], np.nan)
+    A rise is a < 0 <= b between neighbours, placed by linear interpolation; of several, the nearest to u0
+    (the first on a tie). A falling crossing is found by passing -vals. Returns (E, D) of u, NaN where a row
+    has no such crossing. Only the crossings themselves are interpolated (they are few)."""
+    hit = vals[..., :-1] < 0
+    hit &= vals[..., 1:] >= 0
+    e, d, k = np.nonzero(hit)
+    n_e, n_d = vals.shape[0], vals.shape[1]
+    out = np.full((n_e, n_d), np.nan)
+    if e.size == 0:
+        return out
+    a = vals[e, d, k]
+    b = vals[e, d, k + 1]
+    t = a / (a - b)
+    lo = u[e, k]
+    t *= u[e, k + 1] - lo
+    t += lo
+    dist = np.abs(t - u0[e])
+    grp = e * n_d + d                                   # in increasing order (C order of nonzero)
+    starts = np.flatnonzero(np.r_[True, grp[1:] != grp[:-1]])
+    nearest = np.repeat(np.minimum.reduceat(dist, starts), np.diff(np.r_[starts, grp.size]))
+    first = np.flatnonzero(dist == nearest)
+    first = first[np.r_[True, grp[first][1:] != grp[first][:-1]]]
+    out.reshape(-1)[grp[first]] = t[first]
+    return out
 
 
 def _p2(w_re, w_im):
@@ -432,6 +444,25 @@ def _z_parts(g, out, scratch: Scratch | None = None, sign: float = 1.0):
     return out
 
 
+def _y_from_z(z, out, scratch: Scratch):
+    """y = 1/z from the parts (2, ...) of :func:`_z_parts`, with the same rule: non-finite values set to 0
+    (z = 0 is Gamma = -1, where y is infinite; z set to 0 for Gamma = 1 gives y = 0, its value there)."""
+    zr, zi = z[0], z[1]
+    yr, yi = out[0], out[1]
+    den = np.multiply(zr, zr, out=scratch.get("zp_den", zr.shape))
+    den += np.multiply(zi, zi, out=yi)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        np.divide(1.0, den, out=den)
+        np.multiply(zr, den, out=yr)
+        np.multiply(zi, den, out=yi)
+    np.negative(yi, out=yi)
+    if not (den.size == 0 or den.max() < 1e300):
+        bad = ~(np.isfinite(yr) & np.isfinite(yi))
+        yr[bad] = 0.0
+        yi[bad] = 0.0
+    return out
+
+
 BLOCK_ELEMENTS = 32_768
 """Traces are turned into coefficients a block of about this many (trace, sample) values at a time (a block
 of windows' samples times a few traces), so the temporaries stay small enough for the processor's cache."""
@@ -480,11 +511,10 @@ class _Search:
         the real parts, d..2d-1 the imaginary parts."""
         es = self.es
         out = {}
-        if self.n_events:
-            fine = np.matmul(coef, self.vt)                   # (E, 2d, K): the models on their fine grids
         if self.res_events:
             e = self.res_rows
-            ur = _rising_nearest(self.u[e], fine[e, d:] * self.res_sign[:, None, None], self.u0[e])   # (R, d)
+            x_like = np.matmul(coef[e, d:] * self.res_sign[:, None, None], self.vt[e])   # (R, d, K): +-Im w
+            ur = _rising_nearest(self.u[e], x_like, self.u0[e])                           # (R, d)
             fr = self.fc[e][:, None] + ur * self.h[e][:, None]
             u = np.nan_to_num(ur)
             w_re = np.einsum("edp,edp->ed", coef[e, :d], u[..., None] ** np.arange(coef.shape[-1]))
@@ -501,7 +531,8 @@ class _Search:
         if self.min_row is not None:
             k = self.min_row
             m = es.minimum.model
-            um, p2 = _minimum(self.u[k], _p2(fine[k, :d], fine[k, d:]), m.at_sweep_lo, m.at_sweep_hi)
+            fine = np.matmul(coef[k], self.vt[k])         # (2d, K): the model on its fine grid
+            um, p2 = _minimum(self.u[k], _p2(fine[:d], fine[d:]), m.at_sweep_lo, m.at_sweep_hi)
             out["min_hz"] = m.freq(um)
             out["min_swr"] = _swr_from_p2(p2)
         else:
@@ -510,7 +541,8 @@ class _Search:
         if self.edge_events:
             e = self.edge_rows
             # low edge: |Gamma| falls through the level going up in frequency; high edge: it rises
-            vals = _p2(fine[e, :d], fine[e, d:])
+            fine = np.matmul(coef[e], self.vt[e])         # (E, 2d, K)
+            vals = _p2(fine[:, :d], fine[:, d:])
             vals -= self.edge_level2[:, None, None]
             vals *= self.edge_sign[:, None, None]
             ue = _rising_nearest(self.u[e], vals, self.u0[e])
@@ -542,8 +574,16 @@ class _Block:
             return
         r = g.shape[0]
         shape = (2, r, self.size)
-        wz = _z_parts(g, sc.get("wz", shape), sc).reshape(2 * r, -1) if any(not y for _, y, _, _ in windows) else None
-        wy = _z_parts(g, sc.get("wy", shape), sc, -1.0).reshape(2 * r, -1) if any(y for _, y, _, _ in windows) else None
+        need_z = any(not y for _, y, _, _ in windows)
+        need_y = any(y for _, y, _, _ in windows)
+        wz = wy = None
+        if need_z:
+            z = _z_parts(g, sc.get("wz", shape), sc)
+            wz = z.reshape(2 * r, -1)
+            if need_y:
+                wy = _y_from_z(z, sc.get("wy", shape), sc).reshape(2 * r, -1)
+        elif need_y:
+            wy = _z_parts(g, sc.get("wy", shape), sc, -1.0).reshape(2 * r, -1)
         im = slice(n_rows + rows.start, n_rows + rows.stop)
         c = sc.get("coef", (2 * r, DEGREE + 1))
         for k, is_y, sel, proj_t in windows:

@@ -677,7 +677,7 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
             notes.append(f"{n_draws} draws at {band_at.size} frequencies are too many for a per-frequency "
                          "uncertainty band; the findings' intervals are still worked out")
             use = 0
-    mags = np.empty((use, band_at.size)) if use else None
+    mags = np.empty((band_at.size, use)) if use else None     # (frequency, draw): each row partitioned
     band_pos = {}                                  # block columns -> their positions in band_at
     g_sub, f_sub = g[pts], f[pts]
     sc = Scratch()
@@ -710,9 +710,9 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
                                                               if isinstance(cols, slice) else cols))
             r = slice(a + rows.start, a + rows.start + k)
             if isinstance(at, slice):
-                np.abs(x[:k], out=mags[r, at])
+                np.abs(x[:k], out=mags[at, r].T)
             else:
-                mags[r, at] = np.abs(x[:k])
+                mags[at, r] = np.abs(x[:k]).T
 
         an_v, fp_v = evaluate_sets(sets, pts, n_rows, [draw_an, draw_fp], cover=cover,
                                    visit=keep if mags is not None else None)
@@ -733,21 +733,22 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
     res = McResult(EndDraws(events_fp, v_fp, inputs_fp, pv), EndDraws(events_an, v_an, an.inputs), n_draws,
                    int(seed), float(coverage), calibration, float(noise_rms), line_draws, notes=notes)
     if mags is not None:
-        res.swr_band = _band(f, pts[band_at], _band_from_mag(mags, q))
+        res.swr_band = _band(f, pts[band_at], _band_from_mag(mags, q, axis=1))
     return res
 
 
-def _band_from_mag(mag, q):
-    """Order statistics (low (m,), high (m,)) of |Gamma| per column of draws (D, m); non-finite draws
-    count as |Gamma| = inf.
+def _band_from_mag(mag, q, axis: int = 0):
+    """Order statistics (low (m,), high (m,)) of |Gamma| draws along ``axis`` of ``mag`` ((D, m) by default);
+    non-finite draws count as |Gamma| = inf (``mag`` is overwritten).
 
     The quantiles are order statistics picked by a partial sort (``numpy.partition``): the r-th smallest of
     M draws with r = round(p M) (JCGM 101 7.7.2 takes y_(r) and y_(r + q) of the sorted draws)."""
-    m = np.where(np.isfinite(mag), mag, np.inf)
-    n = m.shape[0]
+    m = mag
+    m[~np.isfinite(m)] = np.inf
+    n = m.shape[axis]
     idx = [min(max(int(round(p * n)) - 1, 0), n - 1) for p in q]     # 1-based r = round(p M), 0-based r - 1
-    part = np.partition(m, sorted(set(idx)), axis=0)
-    return part[idx[0]], part[idx[1]]
+    m.partition(sorted(set(idx)), axis=axis)
+    return np.take(m, idx[0], axis=axis), np.take(m, idx[1], axis=axis)
 
 
 def _band(freq_hz, at, mag_lo_hi):

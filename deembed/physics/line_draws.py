@@ -62,9 +62,9 @@ it against the double-precision terms over lines up to thousands of radians long
 
 
 SINGLE_TRIG_MIN_D2 = 0.5625
-"""``single_trig`` is used only where |1 - rho^2 t^2| >= 0.75 everywhere (it divides the terms and amplifies
-the single-precision error by up to 1/|1 - rho^2 t^2|^2; a 50-ohm-like line has |rho| < 0.3, so it is near 1);
-otherwise the double-precision exponential."""
+"""``single_trig`` is used only where |1 - rho^2 t^2|^2 >= this everywhere, checked as |rho|^2 <= 0.25 (the
+terms divide by 1 - rho^2 t^2 and so amplify the single-precision error by up to 1/|1 - rho^2 t^2|^2; a
+50-ohm-like line has |rho| < 0.3, so it is near 1); otherwise the double-precision exponential is used."""
 
 
 class Scratch:
@@ -78,8 +78,13 @@ class Scratch:
 
     def __init__(self):
         self._bufs = {}
+        self._views = {}
 
     def get(self, name: str, shape, dtype=float) -> np.ndarray:
+        key = (name, shape, dtype)
+        view = self._views.get(key)
+        if view is not None:
+            return view
         shape = tuple(int(x) for x in shape)
         n = math.prod(shape)
         dt = np.dtype(dtype)
@@ -87,7 +92,11 @@ class Scratch:
         if buf is None or buf.size < n:
             buf = np.empty(max(n, 1), dtype=dt)
             self._bufs[(name, dt.str)] = buf
-        return buf[:n].reshape(shape)
+            self._views = {k: v for k, v in self._views.items() if k[0] != name}
+        view = buf[:n].reshape(shape)
+        if len(self._views) < 512:
+            self._views[key] = view
+        return view
 
 
 def section_s_terms(z0_ohm, delay_s, c_np, d_np, freq_hz, z_ref_ohm: float = 50.0, *, single_trig: bool = False,
@@ -193,11 +202,9 @@ def section_s_terms(z0_ohm, delay_s, c_np, d_np, freq_hz, z_ref_ohm: float = 50.
     r2 = np.multiply(rho, rho, out=sc.get("r2", shape, complex))
     inv = np.multiply(r2, t, out=sc.get("inv", shape, complex))
     np.subtract(1, inv, out=inv)
-    if single_trig and inv.size:
-        d2 = np.multiply(inv.real, inv.real, out=a)
-        d2 += np.multiply(inv.imag, inv.imag, out=b)
-        if not d2.min() >= SINGLE_TRIG_MIN_D2:   # ill-conditioned (a badly mismatched line): no single precision
-            return section_s_terms(z0_ohm, delay_s, c_np, d_np, freq_hz, z_ref_ohm, scratch=scratch)
+    if single_trig and r2.size and not np.abs(r2, out=a).max() <= 1 - math.sqrt(SINGLE_TRIG_MIN_D2):
+        # |1 - rho^2 t^2| >= 1 - |rho|^2 (|t| <= 1): a badly mismatched line, no single precision
+        return section_s_terms(z0_ohm, delay_s, c_np, d_np, freq_hz, z_ref_ohm, scratch=scratch)
     np.reciprocal(inv, out=inv)              # 1 / (1 - rho^2 t^2)
     s11 = np.subtract(1, t, out=den)
     s11 *= rho
