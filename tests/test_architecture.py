@@ -93,7 +93,6 @@ LATE_IMPORTS_PENDING = {
     "deembed/analysis/trust.py:sources_record",        # [mc]
     "deembed/analysis/uncertainty.py:parse_calibration",  # [mc]
     "deembed/analysis/uncertainty.py:draw_between",    # [mc]
-    "deembed/io/outfolder.py:OutputFolder.commit",     # [robust]
     "deembed/jobs/locate.py:_vf",                      # [locate]
     "deembed/jobs/locate.py:_write_locate",            # [locate]
     "deembed/jobs/pool.py:parse_duration",             # [trend]

@@ -141,7 +141,7 @@ def read_site(path, out_dir: str) -> Site:
     cables = data.get("catalog")
     if cables is not None:
         if not isinstance(cables, str) or not cables.strip():
-            raise InputFileError(p, "cables should name a cable catalog file, e.g. cables = \"my-cables.toml\"")
+            raise InputFileError(p, "catalog should name a cable catalog file, e.g. catalog = \"my-cables.toml\"")
         cables = os.path.join(base, cables)
         try:
             catalog(cables)  # a bad site-wide catalog is the site file's fault, not every feed's
