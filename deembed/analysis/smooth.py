@@ -553,27 +553,43 @@ class _Search:
 
 
 class _Block:
-    """A set of union columns and the windows (of any of the event sets) whose samples all lie in it."""
+    """A set of union columns, the windows (of any of the event sets) whose samples lie in it, and where each
+    set's traces are made inside it."""
 
-    def __init__(self, cols, windows, n_sets: int, cover: int | None):
-        self.cols = cols                    # positions in the union: a slice when consecutive, else an array
-        self.size = (cols.stop - cols.start) if isinstance(cols, slice) else int(cols.size)
-        self.windows = [[] for _ in range(n_sets)]   # per set: [(event row, in y, positions in the block, proj)]
-        for w in windows:
-            self.windows[w[0]].append(w[1:])
-        used = [s for s in range(n_sets) if self.windows[s]]
-        if cover is not None:
-            used.append(cover)
-        self.stages = (max(used) + 1) if used else 0    # the traces of sets 0 .. stages - 1 are made here
+    def __init__(self, cols, windows, n_sets: int, extra=None, extra_set: int | None = None):
+        """``cols``: sorted union positions; ``windows``: [(set, event row, in y, union positions, projector)];
+        ``extra``: union positions (in ``cols``) where set ``extra_set``'s traces are made too."""
+        need = [[] for _ in range(n_sets)]
+        for si, _, _, at, _ in windows:
+            need[si].append(at)
+        if extra is not None and len(extra):
+            need[extra_set].append(np.asarray(extra, dtype=np.intp))
+        used = [s for s in range(n_sets) if need[s]]
+        self.stages = (max(used) + 1) if used else 0     # the traces of sets 0 .. stages - 1 are made here
+        # set s's traces are made where set s or a later one needs them
+        own = [np.unique(np.concatenate(need[s])) if need[s] else np.zeros(0, dtype=np.intp) for s in range(n_sets)]
+        at_stage = []
+        for s in range(self.stages):
+            later = [own[t] for t in range(s, n_sets) if own[t].size]
+            at_stage.append(np.unique(np.concatenate(later)) if later else np.zeros(0, dtype=np.intp))
+        if self.stages:
+            at_stage[0] = np.asarray(cols, dtype=np.intp)
+        self.cols = [as_columns(c) for c in at_stage]                       # union positions per stage
+        self.size = [int(c.size) for c in at_stage]
+        # where stage s's columns sit among stage s - 1's
+        self.take = [None] + [as_columns(np.searchsorted(at_stage[s - 1], at_stage[s])) for s in range(1, self.stages)]
+        self.windows = [[] for _ in range(n_sets)]   # per set: [(event row, in y, positions among its stage's, proj)]
+        for si, k, is_y, at, proj_t in windows:
+            self.windows[si].append((k, is_y, as_columns(np.searchsorted(at_stage[si], at)), proj_t))
 
     def project(self, s: int, g, coef, rows: slice, n_rows: int, sc: Scratch):
-        """Coefficients of set s's windows in this block for traces g (r, size) into coef[event, rows] (real
-        parts) and coef[event, n_rows + rows] (imaginary parts)."""
+        """Coefficients of set s's windows in this block for its traces g (r, size[s]) into coef[event, rows]
+        (real parts) and coef[event, n_rows + rows] (imaginary parts)."""
         windows = self.windows[s]
         if not windows:
             return
         r = g.shape[0]
-        shape = (2, r, self.size)
+        shape = (2, r, g.shape[1])
         need_z = any(not y for _, y, _, _ in windows)
         need_y = any(y for _, y, _, _ in windows)
         wz = wy = None
@@ -596,19 +612,20 @@ class _Blocks:
     """The union's columns in blocks for evaluating one or more event sets on the same traces.
 
     Windows that share samples (of any set) are in one block; groups are packed in order into blocks of at
-    most about :data:`BLOCK_COLUMNS` samples. With ``cover`` (a set index) the union's columns no window
-    uses form blocks of their own where that set's traces are made too (the band's frequencies). For
-    each block the traces are turned into z (and, when some model is in y, into y(Gamma) = z(-Gamma)) once,
-    as contiguous real and imaginary parts with non-finite values set to 0, and each window is one small
-    matrix product of its columns (a view when its samples are consecutive) with its projector: a single
-    large product makes a multi-threaded BLAS start its threads, which costs more than it saves on a busy
-    machine.
+    most about :data:`BLOCK_COLUMNS` samples. In a block, set 0's traces are made on all its columns and
+    set s's (s > 0, made from set s - 1's) where set s or a later set has windows. With ``cover`` (a set
+    index) and ``cover_cols`` (union positions), set ``cover``'s traces are made there too: inside the block
+    that holds such a column, or in blocks of their own (the band's frequencies). For each block and set
+    the traces are turned into z (and, when some model is in y, into y = 1/z) once, as contiguous real and
+    imaginary parts with non-finite values set to 0, and each window is one small matrix product of its
+    columns (a view when its samples are consecutive) with its projector: a single large product makes a
+    multi-threaded BLAS start its threads, which costs more than it saves on a busy machine.
     """
 
-    def __init__(self, sets, union, cover: int | None = None):
+    def __init__(self, sets, union, cover: int | None = None, cover_cols=None):
         union = np.asarray(union)
         self.scratch = Scratch()
-        wins = []                                            # (set, event row, positions in the union)
+        wins = []                                            # (set, event row, event, positions in the union)
         for si, es in enumerate(sets):
             for k, e in enumerate(es.all_events()):
                 wins.append((si, k, e, np.searchsorted(union, e.model.idx)))
@@ -629,21 +646,26 @@ class _Blocks:
                 packs[-1][1] = np.concatenate([packs[-1][1], cols])
             else:
                 packs.append([list(members), cols])
-        self.blocks = []
-        covered = np.zeros(union.size, dtype=bool)
-        for members, cols in packs:
-            covered[cols] = True
-            windows = [(si, k, e.model.domain == "y", as_columns(np.searchsorted(cols, at)),
-                        np.ascontiguousarray(e.model.proj.T)) for si, k, e, at in members]
-            self.blocks.append(_Block(as_columns(cols), windows, len(sets), cover))
+        want = np.zeros(union.size, dtype=bool)
         if cover is not None:
-            rest = np.flatnonzero(~covered)
+            want[np.arange(union.size) if cover_cols is None else np.asarray(cover_cols, dtype=np.intp)] = True
+        self.blocks = []
+        for members, cols in packs:
+            extra = cols[want[cols]] if cover is not None else None
+            if cover is not None:
+                want[cols] = False
+            windows = [(si, k, e.model.domain == "y", at, np.ascontiguousarray(e.model.proj.T))
+                       for si, k, e, at in members]
+            self.blocks.append(_Block(cols, windows, len(sets), extra, cover))
+        if cover is not None:
+            rest = np.flatnonzero(want)
             for i in range(0, rest.size, BLOCK_COLUMNS):
-                self.blocks.append(_Block(as_columns(rest[i:i + BLOCK_COLUMNS]), [], len(sets), cover))
+                part = rest[i:i + BLOCK_COLUMNS]
+                self.blocks.append(_Block(part, [], len(sets), part, cover))
 
     def columns(self, s: int) -> np.ndarray:
         """Sorted union positions where set s's traces are made."""
-        parts = [np.arange(b.cols.start, b.cols.stop) if isinstance(b.cols, slice) else b.cols
+        parts = [np.arange(b.cols[s].start, b.cols[s].stop) if isinstance(b.cols[s], slice) else b.cols[s]
                  for b in self.blocks if b.stages > s]
         return np.unique(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.intp)
 
@@ -651,21 +673,22 @@ class _Blocks:
 _BLOCK_CACHE: dict = {}
 
 
-def blocks_for(sets, union, cover: int | None = None) -> _Blocks:
+def blocks_for(sets, union, cover: int | None = None, cover_cols=None) -> _Blocks:
     """The (cached) :class:`_Blocks` of these event sets on ``union``."""
     union = np.asarray(union)
+    cc = None if cover_cols is None else np.asarray(cover_cols, dtype=np.intp)
     key = (tuple(id(es) for es in sets), tuple(tuple(id(e) for e in es.all_events()) for es in sets), union.size,
-           hash(union.tobytes()), cover)
+           hash(union.tobytes()), cover, None if cc is None else hash(cc.tobytes()))
     hit = _BLOCK_CACHE.get(key)
     if hit is None or any(a is not b for a, b in zip(hit[0], sets)):
         if len(_BLOCK_CACHE) > 16:
             _BLOCK_CACHE.clear()
-        hit = (list(sets), _Blocks(sets, union, cover))
+        hit = (list(sets), _Blocks(sets, union, cover, cc))
         _BLOCK_CACHE[key] = hit
     return hit[1]
 
 
-def evaluate_sets(sets, union, n_rows: int, stages, *, cover: int | None = None, visit=None) -> list:
+def evaluate_sets(sets, union, n_rows: int, stages, *, cover: int | None = None, cover_cols=None, visit=None) -> list:
     """The findings of several event sets for ``n_rows`` traces each, made block by block on the same samples.
 
     Parameters
@@ -680,7 +703,8 @@ def evaluate_sets(sets, union, n_rows: int, stages, *, cover: int | None = None,
         ``stages[s](rows, cols, previous)`` gives set s's from set s - 1's (it may work in place: set s - 1's
         windows are done with them). Traces are made only where a block needs them.
     cover : int, optional
-        Make set ``cover``'s traces on every union position, windows or not (:meth:`_Blocks.columns`).
+        Also make set ``cover``'s traces on the union positions ``cover_cols`` (default: all), windows or not
+        (:meth:`_Blocks.columns` says where they are made).
     visit : callable, optional
         ``visit(s, rows, cols, traces)`` is called with every block of every set's traces made.
 
@@ -690,21 +714,25 @@ def evaluate_sets(sets, union, n_rows: int, stages, *, cover: int | None = None,
         :meth:`EventSet.evaluate` of each set.
     """
     d = int(n_rows)
-    plan = blocks_for(sets, union, cover)
+    plan = blocks_for(sets, union, cover, cover_cols)
     searches = [es._search() for es in sets]
     coefs = [np.empty((sr.n_events, 2 * d, DEGREE + 1)) for sr in searches]
     for blk in plan.blocks:
         if not blk.stages:
             continue
-        step = max(1, BLOCK_ELEMENTS // max(blk.size, 1))
+        step = max(1, BLOCK_ELEMENTS // max(blk.size[0], 1))
         for a in range(0, d, step):
             rows = slice(a, min(a + step, d))
             g = None
             for s in range(blk.stages):
-                g = stages[s](rows, blk.cols, g)
+                if s:
+                    take = blk.take[s]
+                    if not (isinstance(take, slice) and take.start == 0 and take.stop == g.shape[1]):
+                        g = g[:, take]
+                g = stages[s](rows, blk.cols[s], g)
                 blk.project(s, g, coefs[s], rows, d, plan.scratch)
                 if visit is not None:
-                    visit(s, rows, blk.cols, g)
+                    visit(s, rows, blk.cols[s], g)
     return [sr.findings(c, d) for sr, c in zip(searches, coefs)]
 
 

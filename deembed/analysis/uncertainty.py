@@ -643,8 +643,8 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
     -----
     The draws are made only where they are used (see the module notes): the analyzer end on the samples of
     both ends' windows and the band's frequencies, the line and the feedpoint where the feedpoint's windows
-    or the band need them (:func:`deembed.analysis.smooth.evaluate_sets`, block by block). Each sample's
-    noise serves both ends.
+    or the band need them (:func:`deembed.analysis.smooth.evaluate_sets`, block by block). Where the two
+    ends' windows share samples, each sample's noise serves both.
     """
     f = np.asarray(freq_hz, dtype=float)
     g = np.asarray(gamma_an, dtype=complex)
@@ -668,7 +668,8 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
     pts = np.union1d(np.union1d(idx_fp, idx_an), b_idx).astype(np.intp)
     sets = [events_an, events_fp]
     cover = 1 if band and pts.size else None
-    plan = blocks_for(sets, pts, cover)
+    cover_cols = np.searchsorted(pts, b_idx)
+    plan = blocks_for(sets, pts, cover, cover_cols)
     band_at = plan.columns(1) if cover is not None else np.zeros(0, dtype=np.intp)   # positions in pts
     use = 0
     if band_at.size:
@@ -714,7 +715,7 @@ def run(freq_hz, gamma_an, line, events_fp: EventSet, events_an: EventSet, *, no
             else:
                 mags[at, r] = np.abs(x[:k]).T
 
-        an_v, fp_v = evaluate_sets(sets, pts, n_rows, [draw_an, draw_fp], cover=cover,
+        an_v, fp_v = evaluate_sets(sets, pts, n_rows, [draw_an, draw_fp], cover=cover, cover_cols=cover_cols,
                                    visit=keep if mags is not None else None)
         v_an.append(an_v)
         v_fp.append(fp_v)
