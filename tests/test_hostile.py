@@ -906,9 +906,10 @@ def test_site_time_limit_records_the_stuck_entry_and_writes_the_index(tmp_path, 
     def stand_in(job):
         if job.name == "stuck":
             time.sleep(3600)
-        return {"name": job.name, "slug": job.slug, "verdict": "within_limits", "error": None, "line": "test line",
-                "baseline": {"file": "b.s1p", "outputs": {}, "warnings": [], "between_points": None},
-                "comparisons": [], "_records": []}
+        return site_job.AntennaResult(name=job.name, slug=job.slug, verdict="within_limits", error=None,
+                                      line="test line", limits={},
+                                      baseline={"file": "b.s1p", "outputs": {}, "warnings": [],
+                                                "between_points": None})
 
     monkeypatch.setattr(site_job, "_run_antenna", stand_in)
     (tmp_path / "site.toml").write_text("".join(

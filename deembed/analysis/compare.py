@@ -338,8 +338,8 @@ def _same_line(a, b) -> bool:
 # -------------------------------------------------------------------------------------- comparison
 
 def compare_corrections(before: Correction, after: Correction, limits: Limits | None = None, settings=None, *,
-                        warnings=()) -> dict:
-    """Compare an after-work correction with its baseline (JSON-ready dict).
+                        warnings=()) -> "Comparison":
+    """Compare an after-work correction with its baseline (a :class:`Comparison`; ``to_dict()`` is the JSON).
 
     Parameters
     ----------
@@ -358,7 +358,7 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
 
     Returns
     -------
-    dict
+    Comparison
         ``resonance_shift_hz`` (after minus before: the baseline's feedpoint resonance at its best match and
         the after sweep's nearest one of the same sense, each placed by its local model; None when either has
         none), ``resonance_shift_interval_hz``, ``min_swr_change_interval``, ``swr_2_width_change_interval_hz``
@@ -451,7 +451,7 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         notes_along = []
     mc = a_b.mc
     cov = mc.coverage if mc is not None else None
-    return {
+    return Comparison(**{
         "baseline": {"file": before.source, "points": int(before.freq_hz.size), "step_hz": step[0]},
         "after": {"file": after.source, "points": int(after.freq_hz.size), "step_hz": step[1]},
         "grid": {"method": al.method, "points": int(f.size), "low_hz": float(f[0]), "high_hz": float(f[-1])},
@@ -486,7 +486,47 @@ def compare_corrections(before: Correction, after: Correction, limits: Limits | 
         "notes": notes_along + list(al.notes) + between_notes + ([f"only {al.freq_hz.size} common frequencies: resonance, bandwidth and the "
                                     "antenna-or-line cause need a sweep, so this verdict says little"]
                                    if al.freq_hz.size < 3 else []),
-    }
+    })
+
+
+@dataclass(frozen=True)
+class Comparison(Result):
+    """An after-work sweep compared with its baseline: the compare JSON (``compare.schema.json``), key for key.
+
+    Made by :func:`compare_corrections` (see there for each field). The blocks ``baseline``, ``after``,
+    ``grid``, ``uncertainty``, ``feedpoint``, ``analyzer``, ``line``, ``limits`` and ``along_the_line`` are plain
+    JSON data; ``verdict`` is a :class:`Verdict`, ``cause`` a :class:`Cause`. ``outputs`` (OPTIONAL) names the
+    files written, set by :mod:`deembed.jobs.compare` with :func:`dataclasses.replace`.
+    """
+
+    baseline: dict
+    after: dict
+    grid: dict
+    resonance_shift_hz: float | None
+    resonance_before_hz: float | None
+    resonance_after_hz: float | None
+    resonance_before_interval_hz: list | None
+    resonance_after_interval_hz: list | None
+    min_swr_change: float | None
+    swr_2_width_change_hz: float | None
+    resonance_shift_interval_hz: list | None
+    min_swr_change_interval: list | None
+    swr_2_width_change_interval_hz: list | None
+    uncertainty: dict | None
+    largest_gamma_change_feedpoint: float | None
+    largest_gamma_change_analyzer: float | None
+    feedpoint: dict
+    analyzer: dict | None
+    line: dict
+    limits: dict
+    verdict: Verdict
+    cause: Cause
+    along_the_line: dict
+    warnings: list
+    notes: list
+    outputs: dict | None = None
+
+    OPTIONAL = ("outputs",)
 
 
 NO_INTERVAL_TEXT = ("no interval is worked out for the largest change of |Gamma|: it is a maximum over frequency "
@@ -842,5 +882,5 @@ def diagnose(fp: dict, sh: dict | None, line: dict, limits: Limits, verdict: dic
                                        "not what any change of the line's loss or length would do"}
 
 
-__all__ = ["FAR_END_MARGIN_RESOLUTIONS", "Aligned", "Cause", "Verdict", "align", "change_part_way", "check_feedpoint", "compare_corrections",
+__all__ = ["FAR_END_MARGIN_RESOLUTIONS", "Aligned", "Cause", "Comparison", "Verdict", "align", "change_part_way", "check_feedpoint", "compare_corrections",
            "diagnose", "feedpoint_noise", "fit_line_change", "fitted_resonance"]

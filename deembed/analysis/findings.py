@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..base.errors import OptionError
+from ..base.results import UNSET, Result
 from ..physics.rf import gamma_from_z, swr, z_from_gamma
 from .smooth import MIN_WINDOW_POINTS, find_events
 from .uncertainty import interval
@@ -529,7 +530,31 @@ def trim_resonance(resonances, target_hz, primary_hz=None):
 
 # ------------------------------------------------------------------------------------- end findings
 
-def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS, *, events=None, sigma=None) -> dict:
+@dataclass(frozen=True)
+class EndFindings(Result):
+    """What the findings say about one end of the line (``feedpoint`` and ``analyzer`` of correct's summary).
+
+    Made by :func:`end_findings` (see there for each field; every number a Python float or None). Two keys only
+    some outputs have, null or not when there (:data:`~deembed.base.results.UNSET` otherwise): ``uncertainty``,
+    the end's intervals (:func:`deembed.analysis.summary.summarise` sets it, None without draws), and ``trim``,
+    the trim advice at the feedpoint (set by ``correct --target``). ``noise_gamma_rms`` is None for a sweep too
+    short for the local models.
+    """
+
+    min_swr: dict
+    resonances_hz: list
+    resonances: list
+    swr_spans_hz: dict
+    swr_spans_cut_by_sweep_edge: dict
+    q: float | None
+    q_freq_hz: float | None
+    q_from_span: float | None
+    noise_gamma_rms: float | None = None
+    uncertainty: object = UNSET
+    trim: object = UNSET
+
+
+def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS, *, events=None, sigma=None) -> EndFindings:
     """Everything the findings can say about one end of the line, ready for JSON.
 
     The findings come from the smooth local models of :mod:`deembed.analysis.smooth` (a local polynomial fit
@@ -551,7 +576,7 @@ def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS, *, events=None, 
 
     Returns
     -------
-    dict
+    EndFindings
         ``min_swr``: ``{"freq_hz", "swr"}``;
         ``resonances_hz``: list of float;
         ``resonances``: list of ``{"freq_hz", "r_ohm", "kind", "swr"}``;
@@ -568,28 +593,26 @@ def end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS, *, events=None, 
     """
     f, g = _arrays(freq_hz, gamma, "gamma")
     if f.size < MIN_WINDOW_POINTS:     # too short for a local model: between-sample interpolation
-        out = sample_end_findings(f, g, thresholds)
-        out["noise_gamma_rms"] = None
-        return out
+        return sample_end_findings(f, g, thresholds)
     if events is None:
         events = find_events(f, g, sigma=sigma, thresholds=thresholds)
     v = events.findings(gamma=g) if events.nominal is None else events.findings(
         {k: np.array([x]) for k, x in events.nominal.items()})
-    return {
-        "min_swr": v["min_swr"],
-        "resonances_hz": [finite_or_none(x) for x in v["resonances_hz"]],
-        "resonances": v["resonances"],
-        "swr_spans_hz": {k: [[finite_or_none(lo), finite_or_none(hi)] for lo, hi in sp]
-                         for k, sp in v["swr_spans_hz"].items()},
-        "swr_spans_cut_by_sweep_edge": v["swr_spans_cut_by_sweep_edge"],
-        "q": v["q"],
-        "q_freq_hz": v["q_freq_hz"],
-        "q_from_span": finite_or_none(v["q_from_span"]) if v["q_from_span"] is not None else None,
-        "noise_gamma_rms": v["noise_gamma_rms"],
-    }
+    return EndFindings(
+        min_swr=v["min_swr"],
+        resonances_hz=[finite_or_none(x) for x in v["resonances_hz"]],
+        resonances=v["resonances"],
+        swr_spans_hz={k: [[finite_or_none(lo), finite_or_none(hi)] for lo, hi in sp]
+                      for k, sp in v["swr_spans_hz"].items()},
+        swr_spans_cut_by_sweep_edge=v["swr_spans_cut_by_sweep_edge"],
+        q=v["q"],
+        q_freq_hz=v["q_freq_hz"],
+        q_from_span=finite_or_none(v["q_from_span"]) if v["q_from_span"] is not None else None,
+        noise_gamma_rms=v["noise_gamma_rms"],
+    )
 
 
-def sample_end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
+def sample_end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> EndFindings:
     """The per-sample findings (interpolation between samples), for sweeps too short for the local models.
 
     Parameters
@@ -603,7 +626,7 @@ def sample_end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
 
     Returns
     -------
-    dict
+    EndFindings
         ``min_swr``: ``{"freq_hz", "swr"}``;
         ``resonances_hz``: list of float;
         ``resonances``: list of ``{"freq_hz", "r_ohm", "kind", "swr"}``;
@@ -612,7 +635,8 @@ def sample_end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
         ``q``: Yaghjian-Best Q at the resonance nearest the SWR minimum (None without one);
         ``q_freq_hz``: that resonance's frequency (None without one);
         ``q_from_span``: Q from the 2:1 span that contains the SWR minimum (None when there is
-        none or the sweep cuts it); valid only if the antenna is matched near the centre.
+        none or the sweep cuts it); valid only if the antenna is matched near the centre;
+        ``noise_gamma_rms``: None (no local model assumed any noise).
         Every number is a Python float; NaN and inf become None.
     """
     f, g = _arrays(freq_hz, gamma, "gamma")
@@ -642,15 +666,14 @@ def sample_end_findings(freq_hz, gamma, thresholds=DEFAULT_THRESHOLDS) -> dict:
         q = finite_or_none(q_impedance(f, z, nearest.freq_hz, half_window_hz=hw))
         q_freq = nearest.freq_hz
 
-    return {
-        "min_swr": {"freq_hz": finite_or_none(f_min), "swr": finite_or_none(s_min)},
-        "resonances_hz": [finite_or_none(r.freq_hz) for r in res],
-        "resonances": [{"freq_hz": finite_or_none(r.freq_hz), "r_ohm": finite_or_none(r.r_ohm), "kind": r.kind,
-                        "swr": finite_or_none(r.swr)} for r in res],
-        "swr_spans_hz": {k: [[finite_or_none(lo), finite_or_none(hi)] for lo, hi in v] for k, v in spans.items()},
-        "swr_spans_cut_by_sweep_edge": {k: [span_cut_by_sweep_edge(sp, f) for sp in v]
-                                        for k, v in spans.items()},
-        "q": q,
-        "q_freq_hz": finite_or_none(q_freq),
-        "q_from_span": q_bw,
-    }
+    return EndFindings(
+        min_swr={"freq_hz": finite_or_none(f_min), "swr": finite_or_none(s_min)},
+        resonances_hz=[finite_or_none(r.freq_hz) for r in res],
+        resonances=[{"freq_hz": finite_or_none(r.freq_hz), "r_ohm": finite_or_none(r.r_ohm), "kind": r.kind,
+                     "swr": finite_or_none(r.swr)} for r in res],
+        swr_spans_hz={k: [[finite_or_none(lo), finite_or_none(hi)] for lo, hi in v] for k, v in spans.items()},
+        swr_spans_cut_by_sweep_edge={k: [span_cut_by_sweep_edge(sp, f) for sp in v] for k, v in spans.items()},
+        q=q,
+        q_freq_hz=finite_or_none(q_freq),
+        q_from_span=q_bw,
+    )

@@ -5,10 +5,12 @@ Pure functions of arrays and small dicts; nothing here writes files or plots.
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from ..base.errors import InputFileError
+from ..base.results import Result
 from ..base.units import fmt_freq, fmt_span
 from ..physics import rf
 from ..physics.budget import MAX_MATCHED_LOSS_DB, matched_loss_refusal, power_budget
@@ -302,9 +304,39 @@ def line_summary(line, freq_hz) -> dict:
     return out
 
 
+@dataclass(frozen=True)
+class CorrectionSummary(Result):
+    """The summary of a correction: correct's ``NAME.summary.json`` (``summary.schema.json``), key for key.
+
+    Made by :func:`summarise` (a sweep with phase: ``feedpoint`` and ``analyzer`` are
+    :class:`~deembed.analysis.findings.EndFindings`, with their ``uncertainty``) or :func:`magnitude_summary`
+    (SWR or return loss alone: the ends are :func:`deembed.analysis.magnitude.magnitude_findings` dicts, and
+    ``sweep.phase`` is false). ``sweep`` and ``line`` are plain JSON data; ``line.between_points`` is there
+    only for a characterized line. The OPTIONAL fields are set by :mod:`deembed.jobs.correct` with
+    :func:`dataclasses.replace`: ``along_the_line`` (a sweep with phase), ``power`` (``--power``), ``bands``
+    (``--bands``), ``outputs`` (the files written, once they are).
+    """
+
+    sweep: dict
+    line: dict
+    feedpoint: Mapping
+    analyzer: Mapping
+    warnings: list
+    along_the_line: dict | None = None
+    power: dict | None = None
+    bands: dict | None = None
+    outputs: dict | None = None
+
+    OPTIONAL = ("along_the_line", "power", "bands", "outputs")
+
+    def warned(self, *more: str) -> "CorrectionSummary":
+        """This summary with ``more`` warnings after its own."""
+        return replace(self, warnings=[*self.warnings, *more]) if more else self
+
+
 def summarise(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | None = None,
-              assessment=None) -> dict:
-    """The summary of a correction: both ends' findings (with their uncertainty), the line, warnings (JSON-ready).
+              assessment=None) -> CorrectionSummary:
+    """The summary of a correction: both ends' findings (with their uncertainty), the line, warnings.
 
     ``assessment`` is :func:`deembed.analysis.trust.assess` of the correction (made here, without the
     Monte Carlo step, when not given). A line whose matched loss is beyond any feed line's is refused
@@ -312,25 +344,22 @@ def summarise(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | 
     refuse_absurd_loss(corr)
     a = assessment or assess(corr.freq_hz, corr.gamma_analyzer, corr.gamma_feedpoint, corr.line,
                              thresholds=thresholds, settings=None)
-    summary = {
-        "sweep": {"file": corr.source, "points": int(corr.freq_hz.size),
-                  "low_hz": float(corr.freq_hz[0]), "high_hz": float(corr.freq_hz[-1]),
-                  "noise_gamma_rms": float(a.noise_rms)},
-        "line": line_summary(corr.line, corr.freq_hz),
-        "feedpoint": end_findings(corr.freq_hz, corr.gamma_feedpoint, thresholds=thresholds, events=a.events_fp),
-        "analyzer": end_findings(corr.freq_hz, corr.gamma_analyzer, thresholds=thresholds, events=a.events_an),
-        "warnings": list(notes) + warnings_for(corr) + list(a.notes),
-    }
+    sweep = {"file": corr.source, "points": int(corr.freq_hz.size),
+             "low_hz": float(corr.freq_hz[0]), "high_hz": float(corr.freq_hz[-1]),
+             "noise_gamma_rms": float(a.noise_rms), **(sweep_info or {})}
+    line = line_summary(corr.line, corr.freq_hz)
+    warnings = list(notes) + warnings_for(corr) + list(a.notes)
     bp = between_points(corr.line, corr.freq_hz, corr.gamma_feedpoint)
     if bp is not None:
-        summary["line"]["between_points"] = bp
-        summary["warnings"].extend(between_warnings(bp))
+        line["between_points"] = bp
+        warnings += between_warnings(bp)
     blocks = uncertainty_blocks(a, corr.line, sources_record(a, corr.line)) if a.mc is not None else {}
-    summary["feedpoint"]["uncertainty"] = blocks.get("feedpoint")
-    summary["analyzer"]["uncertainty"] = blocks.get("analyzer")
-    if sweep_info:
-        summary["sweep"].update(sweep_info)
-    return summary
+    fp = end_findings(corr.freq_hz, corr.gamma_feedpoint, thresholds=thresholds, events=a.events_fp)
+    an = end_findings(corr.freq_hz, corr.gamma_analyzer, thresholds=thresholds, events=a.events_an)
+    return CorrectionSummary(sweep=sweep, line=line,
+                             feedpoint=replace(fp, uncertainty=blocks.get("feedpoint")),
+                             analyzer=replace(an, uncertainty=blocks.get("analyzer")),
+                             warnings=warnings)
 
 
 def power_summary(power_w: float, freq_hz, matched_loss_db, gamma_feedpoint) -> dict:
@@ -402,22 +431,20 @@ def magnitude_warnings(corr) -> list[str]:
     return out
 
 
-def magnitude_summary(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(), sweep_info: dict | None = None) -> dict:
-    """The summary of a magnitude-only correction, in the shape of :func:`summarise` (JSON-ready): both ends'
-    findings without resonance and Q (``not_available`` says why), the feedpoint's with its bounds."""
+def magnitude_summary(corr, *, thresholds=(1.5, 2.0, 3.0), notes=(),
+                      sweep_info: dict | None = None) -> CorrectionSummary:
+    """The summary of a magnitude-only correction, in the shape of :func:`summarise`: both ends' findings
+    without resonance and Q (``not_available`` says why), the feedpoint's with its bounds."""
     refuse_absurd_loss(corr)
     ok = corr.gamma_feedpoint_mag < 1
     est = np.where(ok, corr.gamma_feedpoint_mag, np.nan)
-    summary = {
-        "sweep": {"file": corr.source, "points": int(corr.freq_hz.size), "phase": False,
-                  "low_hz": float(corr.freq_hz[0]), "high_hz": float(corr.freq_hz[-1])},
-        "line": line_summary(corr.line, corr.freq_hz),
-        "feedpoint": magnitude_findings(corr.freq_hz, est, thresholds,
-                                        gamma_mag_low=corr.gamma_feedpoint_mag_low,
-                                        gamma_mag_high=np.where(ok, corr.gamma_feedpoint_mag_high, np.inf)),
-        "analyzer": magnitude_findings(corr.freq_hz, corr.gamma_analyzer_mag, thresholds),
-        "warnings": list(notes) + magnitude_warnings(corr),
-    }
-    if sweep_info:
-        summary["sweep"].update(sweep_info)
-    return summary
+    return CorrectionSummary(
+        sweep={"file": corr.source, "points": int(corr.freq_hz.size), "phase": False,
+               "low_hz": float(corr.freq_hz[0]), "high_hz": float(corr.freq_hz[-1]), **(sweep_info or {})},
+        line=line_summary(corr.line, corr.freq_hz),
+        feedpoint=magnitude_findings(corr.freq_hz, est, thresholds,
+                                     gamma_mag_low=corr.gamma_feedpoint_mag_low,
+                                     gamma_mag_high=np.where(ok, corr.gamma_feedpoint_mag_high, np.inf)),
+        analyzer=magnitude_findings(corr.freq_hz, corr.gamma_analyzer_mag, thresholds),
+        warnings=list(notes) + magnitude_warnings(corr),
+    )

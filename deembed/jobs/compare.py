@@ -7,8 +7,9 @@ from __future__ import annotations
 
 import json
 import os
+from dataclasses import replace
 
-from ..analysis.compare import compare_corrections
+from ..analysis.compare import Comparison, compare_corrections
 from ..analysis.limits import Limits
 from ..io.atomic import check_not_input, stem_of, write_text_atomic
 from ..io.jsonfile import to_jsonable
@@ -31,7 +32,7 @@ def compare_paths(after_path: str, out_dir: str) -> dict:
              ("compare_along_png", ".compare-along.png"))}
 
 
-def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *, title: str = "",
+def write_compare_outputs(result: Comparison, before, after, paths: dict, inputs=(), *, title: str = "",
                           reports=()) -> dict:
     """Write the comparison's JSON, overlay PNG and HTML atomically; returns the paths written.
 
@@ -49,7 +50,7 @@ def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *
         tr_b, tr_a, s_a = along_data
         save(along_overlay(tr_b, tr_a, s_a), along_png)
         paths["compare_along_png"] = along_png
-    result = dict(result, outputs={k: os.path.basename(v) for k, v in paths.items()})
+    result = replace(result, outputs={k: os.path.basename(v) for k, v in paths.items()})
     write_text_atomic(paths["compare_json"], json.dumps(to_jsonable(result), indent=2, allow_nan=False) + "\n")
     here = os.path.dirname(os.path.abspath(paths["compare_html"]))
     links = [(side, os.path.relpath(os.path.abspath(p), here)) for side, p in reports if p]
@@ -61,7 +62,7 @@ def write_compare_outputs(result: dict, before, after, paths: dict, inputs=(), *
 def compare_files(baseline: str, after: str, line, *, after_line: str | None = None, limits: Limits | None = None,
                   port: int | None = None, out: str | None = None, cables: str | None = None,
                   extrapolate: bool = False, inputs=(), title: str = "", settings=None, tolerances=(),
-                  columns=None, warnings=()) -> dict:
+                  columns=None, warnings=()) -> Comparison:
     """Correct a baseline and an after-work sweep and compare them; write the outputs when ``out`` is given.
 
     Parameters
@@ -92,7 +93,7 @@ def compare_files(baseline: str, after: str, line, *, after_line: str | None = N
 
     Returns
     -------
-    dict
+    Comparison
         The comparison (:func:`deembed.analysis.compare.compare_corrections`), with ``outputs`` (paths
         written) when ``out`` is given.
     """
@@ -124,13 +125,13 @@ def compare_files_with_corrections(baseline: str, after: str, line, *, after_lin
         check_finite(corr)
     result = compare_corrections(before, later, limits, settings=settings, warnings=warnings)
     if out:
-        result["outputs"] = write_compare_folder(result, before, later, after, out,
-                                                 inputs=[baseline, after, after_line, cables, *inputs,
-                                                         *line_sources(line), *line_sources(other)], title=title)
+        result = replace(result, outputs=write_compare_folder(
+            result, before, later, after, out, inputs=[baseline, after, after_line, cables, *inputs,
+                                                       *line_sources(line), *line_sources(other)], title=title))
     return result, before, later
 
 
-def write_compare_folder(result: dict, before, after, after_path: str, out_dir: str, inputs=(), *,
+def write_compare_folder(result: Comparison, before, after, after_path: str, out_dir: str, inputs=(), *,
                          title: str = "") -> dict:
     """Write one comparison's outputs into ``out_dir`` as one transaction; returns the final paths.
 

@@ -7,11 +7,11 @@ from __future__ import annotations
 
 import json
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from ..analysis.summary import summarise, table_columns
+from ..analysis.summary import CorrectionSummary, summarise, table_columns
 from ..physics.deembedding import correct
 from ..base.errors import OptionError
 from ..io.atomic import check_not_input
@@ -123,41 +123,40 @@ def _analyse(sweep, line, opts: Options):
                         sweep_info={"comments": list(getattr(sweep, "comments", ()))}, assessment=a)
     budget = budget_columns(corr, opts.power_w) if opts.power_w else None
     table = table_columns(corr, budget, swr_band=a.swr_band)
-    summary["along_the_line"], along_data = for_correction(corr.freq_hz, corr.gamma_analyzer, line)
+    along, along_data = for_correction(corr.freq_hz, corr.gamma_analyzer, line)
+    summary = replace(summary, along_the_line=along)
     if not opts.plots:
         along_data = None
     if opts.target_hz is not None:
-        summary["feedpoint"]["trim"] = trim_for(a, summary, opts.target_hz)
+        trim, why_not = trim_for(a, summary, opts.target_hz)
+        summary = replace(summary, feedpoint=replace(summary.feedpoint, trim=trim)).warned(*why_not)
     if opts.power_w:
-        summary["power"] = budget_summary(corr, budget, opts.power_w)
+        summary = replace(summary, power=budget_summary(corr, budget, opts.power_w))
     if opts.bands or opts.bands_file:
 
         bands = load_bands(opts.bands_file)
         limit = 2.0 if 2.0 in opts.thresholds else opts.thresholds[0]
-        summary["bands"] = {
+        summary = replace(summary, bands={
             "swr_limit": limit,
             "feedpoint": band_check(corr.freq_hz, corr.gamma_feedpoint, bands, limit),
             "analyzer": band_check(corr.freq_hz, corr.gamma_analyzer, bands, limit),
-        }
+        })
     return corr, summary, table, along_data
 
 
-def trim_for(a, summary: dict, target_hz: float):
-    """Trimming advice for the series resonance the user means (see :func:`trim_resonance`), with its interval;
-    a warning goes into the summary when there is none or the target is too far."""
-    fp = summary["feedpoint"]
-    primary = fp.get("q_freq_hz") or _primary_hz(a)
-    chosen = trim_resonance(fp.get("resonances") or [], target_hz, primary)
+def trim_for(a, summary: CorrectionSummary, target_hz: float) -> tuple:
+    """Trimming advice for the series resonance the user means (see :func:`trim_resonance`), with its interval:
+    ``(advice or None, warnings)``, a warning for the summary when there is none or the target is too far."""
+    fp = summary.feedpoint
+    primary = fp.q_freq_hz or _primary_hz(a)
+    chosen = trim_resonance(fp.resonances, target_hz, primary)
     if chosen is None:
-        summary["warnings"].append("no series resonance at the feedpoint inside the sweep: no trimming advice; "
-                                   "sweep a wider range around the target")
-        return None
-    j = [r["freq_hz"] for r in fp["resonances"]].index(chosen["freq_hz"])
+        return None, ["no series resonance at the feedpoint inside the sweep: no trimming advice; "
+                      "sweep a wider range around the target"]
+    j = [r["freq_hz"] for r in fp.resonances].index(chosen["freq_hz"])
     cov = a.settings.coverage if a.settings is not None else 0.95
     trim = trim_advice(chosen["freq_hz"], target_hz, resonance_draws_hz=resonance_draws(a, j), coverage=cov)
-    if trim["refused"]:
-        summary["warnings"].append(f"no trimming advice: {trim['refused']}")
-    return trim
+    return trim, [f"no trimming advice: {trim['refused']}"] if trim["refused"] else []
 
 
 def _primary_hz(a):
@@ -191,9 +190,11 @@ def budget_summary(corr, budget: dict, power_w: float) -> dict:
     return power_summary(power_w, corr.freq_hz, corr.matched_loss_db, corr.gamma_feedpoint)
 
 
-def write_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options, along_data=False) -> dict:
-    """Write every output atomically; returns the paths written. ``along_data``: the look along the line for
-    its plot as :func:`_analyse` gave it (by default worked out here)."""
+def write_outputs(corr, summary: CorrectionSummary, table: dict, paths: dict, opts: Options,
+                  along_data=False) -> tuple[dict, CorrectionSummary]:
+    """Write every output atomically; returns the paths written and the summary with its ``outputs``.
+    ``along_data``: the look along the line for its plot as :func:`_analyse` gave it (by default worked out
+    here)."""
 
     written = {}
     comments = [f"deembed: feedpoint reflection of {os.path.basename(corr.source)}",
@@ -205,15 +206,15 @@ def write_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options, 
     written["table_csv"] = paths["table_csv"]
     if opts.plots:
         written.update(write_plots(corr, table, paths, opts, along_data))
-    summary["outputs"] = {k: os.path.basename(v) for k, v in written.items()}
+    summary = replace(summary, outputs={k: os.path.basename(v) for k, v in written.items()})
     if opts.html:
 
         write_report(paths["report_html"], corr, summary, table, written)
         written["report_html"] = paths["report_html"]
-        summary["outputs"]["report_html"] = os.path.basename(paths["report_html"])
+        summary = replace(summary, outputs={**summary.outputs, "report_html": os.path.basename(paths["report_html"])})
     write_text_atomic(paths["summary_json"], json.dumps(to_jsonable(summary), indent=2, allow_nan=False) + "\n")
     written["summary_json"] = paths["summary_json"]
-    return written
+    return written, summary
 
 
 def write_table_csv(table: dict, path: str) -> None:
@@ -273,9 +274,10 @@ def correct_file(sweep_path: str, line, out_dir: str, opts: Options | None = Non
     del sweep  # the correction holds what the outputs need
     if staged:
         os.makedirs(out_dir, exist_ok=True)
-        return corr, summary, write(corr, summary, table, output_paths(sweep_path, out_dir), opts)
+        written, summary = write(corr, summary, table, output_paths(sweep_path, out_dir), opts)
+        return corr, summary, written
     with OutputFolder(out_dir, inputs=inputs) as out:
-        written = write(corr, summary, table, output_paths(sweep_path, out.stage), opts)
+        written, summary = write(corr, summary, table, output_paths(sweep_path, out.stage), opts)
     return corr, summary, {k: out.final(v) for k, v in written.items()}
 
 
@@ -291,20 +293,19 @@ def analyse_magnitude(sweep, line, opts: Options):
     budget = None
     if opts.power_w:
         budget = budget_columns_mag(corr, opts.power_w)
-        summary["power"] = budget_summary_mag(corr, budget, opts.power_w)
+        summary = replace(summary, power=budget_summary_mag(corr, budget, opts.power_w))
     table = magnitude_table(corr, budget)
     if opts.target_hz is not None:
-        summary["feedpoint"]["trim"] = None
-        summary["warnings"].append("no trimming advice: it needs the feedpoint resonance, which a sweep without "
-                                   "phase cannot give")
+        summary = replace(summary, feedpoint={**summary.feedpoint, "trim": None}).warned(
+            "no trimming advice: it needs the feedpoint resonance, which a sweep without phase cannot give")
     if opts.bands or opts.bands_file:
         bands = load_bands(opts.bands_file)
         limit = 2.0 if 2.0 in opts.thresholds else opts.thresholds[0]
-        summary["bands"] = {
+        summary = replace(summary, bands={
             "swr_limit": limit,
             "feedpoint": band_check(corr.freq_hz, corr.gamma_feedpoint_mag, bands, limit),
             "analyzer": band_check(corr.freq_hz, corr.gamma_analyzer_mag, bands, limit),
-        }
+        })
     return corr, summary, table
 
 
@@ -326,9 +327,11 @@ def budget_summary_mag(corr, budget: dict, power_w: float) -> dict:
     return power_summary(power_w, corr.freq_hz, corr.matched_loss_db, np.minimum(corr.gamma_feedpoint_mag, 1.0))
 
 
-def write_magnitude_outputs(corr, summary: dict, table: dict, paths: dict, opts: Options) -> dict:
-    """The table, the summary and the SWR plot. No Touchstone file and no HTML report: without phase there is
-    no reflection coefficient to write, and the report's Smith chart and impedance plots need one."""
+def write_magnitude_outputs(corr, summary: CorrectionSummary, table: dict, paths: dict,
+                            opts: Options) -> tuple[dict, CorrectionSummary]:
+    """The table, the summary and the SWR plot; returns the paths written and the summary with its ``outputs``.
+    No Touchstone file and no HTML report: without phase there is no reflection coefficient to write, and the
+    report's Smith chart and impedance plots need one."""
     written = {}
     write_table_csv(table, paths["table_csv"])
     written["table_csv"] = paths["table_csv"]
@@ -337,6 +340,6 @@ def write_magnitude_outputs(corr, summary: dict, table: dict, paths: dict, opts:
         plots.save(fig, paths["swr_png"])
         written["swr_png"] = paths["swr_png"]
     written["summary_json"] = paths["summary_json"]
-    summary["outputs"] = {k: os.path.basename(v) for k, v in written.items()}
+    summary = replace(summary, outputs={k: os.path.basename(v) for k, v in written.items()})
     write_text_atomic(paths["summary_json"], json.dumps(to_jsonable(summary), indent=2, allow_nan=False) + "\n")
-    return written
+    return written, summary

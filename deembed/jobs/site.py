@@ -11,11 +11,13 @@ from __future__ import annotations
 
 import json
 import os
-from dataclasses import replace
+from dataclasses import dataclass, field, replace
 
 from ..analysis.compare import compare_corrections
 from ..analysis.limits import parse_limits
+from ..analysis.compare import Cause
 from ..base.errors import DeembedError, InputFileError, OptionError, OutputWriteError
+from ..base.results import INTERNAL, Result
 from ..base.verdicts import ERROR, OUTSIDE, WITHIN
 from ..io.atomic import same_path, write_text_atomic
 from ..io.history import check_target, is_url, open_store
@@ -54,14 +56,87 @@ def _check_limits(values: dict, path: str, where: str):
         raise InputFileError(path, str(exc)) from None
 
 
+# ------------------------------------------------------------------------------------------- results
+
+@dataclass(frozen=True)
+class SiteComparison(Result):
+    """One latest sweep of an antenna against its baseline (``antennas[].comparisons[]`` in site.json): the
+    comparison's verdict and headline numbers (:class:`deembed.analysis.compare.Comparison` holds the rest, in
+    the sweep's own ``.compare.json``), the files written and the sweep's correction warnings."""
+
+    file: str
+    date: str | None
+    date_source: str | None
+    verdict: str
+    limits_exceeded: list
+    reasons: list
+    cause: Cause
+    resonance_shift_hz: float | None
+    resonance_shift_interval_hz: list | None
+    certainty: dict
+    min_swr_change: float | None
+    largest_gamma_change_feedpoint: float | None
+    outputs: dict
+    warnings: list
+    between_points: dict | None
+
+
+@dataclass(frozen=True)
+class AntennaResult(Result):
+    """One antenna of a site (``antennas[]`` in site.json), made by :func:`run_antenna`.
+
+    A failed antenna (``verdict`` ``error``, ``error`` its message) has no ``after_line`` nor ``limits`` keys;
+    ``trend`` (OPTIONAL) is its trend page, run count and flags when the run was recorded. ``inputs_read``,
+    ``write_failed`` and ``records`` travel from the worker to :func:`run_site` and are no part of the JSON.
+    """
+
+    name: str
+    slug: str
+    verdict: str
+    error: str | None
+    line: str | None
+    after_line: str | None = None
+    limits: dict | None = None
+    baseline: dict | None = None
+    comparisons: tuple = ()
+    trend: dict | None = None
+    inputs_read: tuple = field(default=(), metadata=INTERNAL)
+    write_failed: bool = field(default=False, metadata=INTERNAL)
+    records: tuple = field(default=(), metadata=INTERNAL)
+
+    OPTIONAL = ("limits", "trend")
+
+    def _shown(self, name: str) -> bool:
+        if name == "after_line":
+            return self.limits is not None  # checked (limits read): the after-line is said, null or not
+        return super()._shown(name)
+
+
+@dataclass(frozen=True)
+class SiteResult(Result):
+    """A whole site (site.json, ``site --json``), made by :func:`run_site`: ``verdict`` over every antenna,
+    ``counts`` per verdict, the :class:`AntennaResult` of each in file order, the files written; ``history``
+    (OPTIONAL) what was recorded into the store, when the run was recorded."""
+
+    site: str
+    file: str
+    verdict: str
+    counts: dict
+    antennas: tuple
+    outputs: dict
+    history: dict | None = None
+
+    OPTIONAL = ("history",)
+
+
 # ------------------------------------------------------------------------------------------- one feed
 
-def run_antenna(job: AntennaJob) -> dict:
+def run_antenna(job: AntennaJob) -> AntennaResult:
     """Correct, compare and write one antenna; never raises (a failure is the result's ``error``).
 
     The result's ``inputs_read`` lists every file the antenna read (for the site's output-over-input
-    check; :func:`run_site` removes it); ``write_failed`` is true when its own outputs could not be
-    written (a full disk), which fails the whole site run rather than the antenna alone.
+    check); ``write_failed`` is true when its own outputs could not be written (a full disk), which fails the
+    whole site run rather than the antenna alone.
     """
     with recording_inputs() as read:
         try:
@@ -69,17 +144,14 @@ def run_antenna(job: AntennaJob) -> dict:
         except DeembedError as exc:
             result = _failed(job, str(exc))
         except OSError as exc:  # writing into the staging folder: the disk, not the antenna
-            result = _failed(job, f"could not write its results ({exc.strerror or exc})")
-            result["write_failed"] = True
+            result = replace(_failed(job, f"could not write its results ({exc.strerror or exc})"), write_failed=True)
         except Exception as exc:  # a failing antenna must not stop the others
             result = _failed(job, f"internal error: {type(exc).__name__}: {exc}")
-    result["inputs_read"] = sorted(read)
-    return result
+    return replace(result, inputs_read=tuple(sorted(read)))
 
 
-def _failed(job: AntennaJob, message: str) -> dict:
-    return {"name": job.name, "slug": job.slug, "verdict": ERROR, "error": message, "line": None,
-            "baseline": None, "comparisons": []}
+def _failed(job: AntennaJob, message: str) -> AntennaResult:
+    return AntennaResult(name=job.name, slug=job.slug, verdict=ERROR, error=message, line=None)
 
 
 def _columns(job: AntennaJob):
@@ -95,7 +167,7 @@ def _columns(job: AntennaJob):
         raise InputFileError(job.site_file, str(exc)) from None
 
 
-def _run_antenna(job: AntennaJob) -> dict:
+def _run_antenna(job: AntennaJob) -> AntennaResult:
 
     files = read_antenna(job)
     try:
@@ -118,16 +190,12 @@ def _run_antenna(job: AntennaJob) -> dict:
         raise InputFileError(baseline, "this sweep holds SWR or return loss only, without phase; the site check "
                                        "compares with the baseline (resonance shift, the antenna-or-line cause), "
                                        "which needs the phase: export R and X, or a Touchstone file")
-    result = {"name": job.name, "slug": job.slug, "verdict": WITHIN, "error": None,
-              "line": line.describe(), "after_line": other.describe() if other is not line else None,
-              "limits": limits.as_dict(),
-              "baseline": {"file": baseline, "outputs": {k: rel(v) for k, v in base_written.items()},
-                           "warnings": base_summary.get("warnings", []),
-                           "between_points": base_summary["line"].get("between_points")},
-              "comparisons": []}
     bd, bsrc = sweep_date(baseline, files.dates.get(baseline), "site_file")
-    result["baseline"].update(date=bd, date_source=bsrc)
-    records = []
+    base_block = {"file": baseline, "outputs": {k: rel(v) for k, v in base_written.items()},
+                  "warnings": base_summary["warnings"],
+                  "between_points": base_summary["line"].get("between_points"),
+                  "date": bd, "date_source": bsrc}
+    records, comparisons, verdict = [], [], WITHIN
     if job.record:
         d, src = bd, bsrc
         records.append(build_record(site=job.site_name, antenna=job.name, sweep_path=baseline, date=d,
@@ -144,37 +212,38 @@ def _run_antenna(job: AntennaJob) -> dict:
                                    title=f"{job.name}: {os.path.basename(sweep)} against {os.path.basename(baseline)}",
                                    reports=[("baseline", base_written.get("report_html")),
                                             ("after the work", written.get("report_html"))])
-        result["comparisons"].append({
-            "file": sweep,
-            "date": d,
-            "date_source": src,
-            "verdict": res["verdict"]["status"],
-            "limits_exceeded": res["verdict"]["limits_exceeded"],
-            "reasons": res["verdict"]["reasons"],
-            "cause": res["cause"],
-            "resonance_shift_hz": res["resonance_shift_hz"],
-            "resonance_shift_interval_hz": res.get("resonance_shift_interval_hz"),
-            "certainty": res["verdict"].get("certainty", {}),
-            "min_swr_change": res["min_swr_change"],
-            "largest_gamma_change_feedpoint": res["largest_gamma_change_feedpoint"],
-            "outputs": {**{k: rel(v) for k, v in written.items()}, **{k: rel(v) for k, v in cw.items()}},
-            "warnings": summary.get("warnings", []),
-            "between_points": summary["line"].get("between_points"),
-        })
-        if res["verdict"]["status"] != WITHIN:
-            result["verdict"] = OUTSIDE
+        comparisons.append(SiteComparison(
+            file=sweep,
+            date=d,
+            date_source=src,
+            verdict=res.verdict.status,
+            limits_exceeded=res.verdict.limits_exceeded,
+            reasons=res.verdict.reasons,
+            cause=res.cause,
+            resonance_shift_hz=res.resonance_shift_hz,
+            resonance_shift_interval_hz=res.resonance_shift_interval_hz,
+            certainty=res.verdict.certainty or {},
+            min_swr_change=res.min_swr_change,
+            largest_gamma_change_feedpoint=res.largest_gamma_change_feedpoint,
+            outputs={**{k: rel(v) for k, v in written.items()}, **{k: rel(v) for k, v in cw.items()}},
+            warnings=summary["warnings"],
+            between_points=summary["line"].get("between_points"),
+        ))
+        if res.verdict.status != WITHIN:
+            verdict = OUTSIDE
         if job.record:
             records.append(build_record(site=job.site_name, antenna=job.name, sweep_path=sweep, date=d,
                                         date_source=src, role="latest", corr=corr, summary=summary, comparison=res,
                                         baseline_sha256=records[0].sweep_sha256))
-    result["_records"] = records
-    return result
+    return AntennaResult(name=job.name, slug=job.slug, verdict=verdict, error=None, line=line.describe(),
+                         after_line=other.describe() if other is not line else None, limits=limits.as_dict(),
+                         baseline=base_block, comparisons=tuple(comparisons), records=tuple(records))
 
 
 # ------------------------------------------------------------------------------------------- the site
 
 def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=None, record: str | bool = True,
-             trend_limits=None, time_limit_s: float | None = DEFAULT_TIME_LIMIT_S) -> dict:
+             trend_limits=None, time_limit_s: float | None = DEFAULT_TIME_LIMIT_S) -> SiteResult:
     """Check every antenna of a site file; write ``index.html`` and ``site.json`` into ``out_dir``.
 
     Parameters
@@ -200,9 +269,9 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
 
     Returns
     -------
-    dict
-        ``{"site", "file", "verdict", "counts", "antennas": [per-antenna results, in file order], "outputs"}``;
-        ``verdict`` is ``within_limits`` when every antenna is, ``error`` when any could not be checked,
+    SiteResult
+        ``site``, ``file``, ``verdict``, ``counts``, ``antennas`` (an :class:`AntennaResult` each, in file
+        order), ``outputs`` and, when recorded, ``history``; ``verdict`` is ``within_limits`` when every antenna is, ``error`` when any could not be checked,
         else ``outside_limits``.
 
     Notes
@@ -227,7 +296,7 @@ def run_site(path, out_dir: str, *, workers: int = DEFAULT_WORKERS, progress=Non
     return summary
 
 
-def _run_into(site: Site, out: OutputFolder, workers, progress, time_limit_s, store, trend_limits) -> dict:
+def _run_into(site: Site, out: OutputFolder, workers, progress, time_limit_s, store, trend_limits) -> SiteResult:
     """The body of :func:`run_site`, writing under the transaction's staging folder."""
     stage = out.stage
     jobs = [replace(j, out_dir=os.path.join(stage, j.slug)) for j in site.jobs]
@@ -237,19 +306,22 @@ def _run_into(site: Site, out: OutputFolder, workers, progress, time_limit_s, st
     results = run_all(jobs, run_antenna, workers=workers, time_limit_s=time_limit_s, on_failure=_failed,
                       progress=progress)
     for r in results:
-        out.add_inputs(r.pop("inputs_read", ()))
-    broken = [r for r in results if r.pop("write_failed", False)]
+        out.add_inputs(r.inputs_read)
+    broken = [r for r in results if r.write_failed]
     if broken:
-        raise OutputWriteError(out.out_dir, f"could not write the results of {broken[0]['name']}: "
-                                            f"{broken[0]['error']}; free some space or choose another `out` "
+        raise OutputWriteError(out.out_dir, f"could not write the results of {broken[0].name}: "
+                                            f"{broken[0].error}; free some space or choose another `out` "
                                             "(nothing was changed)")
-    records = [rec for r in results for rec in r.pop("_records", [])]
-    counts = {s: sum(r["verdict"] == s for r in results) for s in (WITHIN, OUTSIDE, ERROR)}
+    records = [rec for r in results for rec in r.records]
+    results = [replace(r, inputs_read=(), records=()) for r in results]
+    counts = {s: sum(r.verdict == s for r in results) for s in (WITHIN, OUTSIDE, ERROR)}
     overall = WITHIN if counts[WITHIN] == total else ERROR if counts[ERROR] else OUTSIDE
-    summary = {"site": site.name, "file": site.path, "verdict": overall, "counts": counts,
-               "antennas": results, "outputs": {"index_html": "index.html", "site_json": "site.json"}}
+    history = None
     if store is not None:
-        summary["history"] = _record_and_trend(store, site, records, results, stage, trend_limits)
+        history, trends = _record_and_trend(store, site, records, stage, trend_limits)
+        results = [replace(r, trend=trends[r.name]) if r.name in trends else r for r in results]
+    summary = SiteResult(site=site.name, file=site.path, verdict=overall, counts=counts, antennas=tuple(results),
+                         outputs={"index_html": "index.html", "site_json": "site.json"}, history=history)
     write_text_atomic(os.path.join(stage, "site.json"),
                       json.dumps(to_jsonable(summary), indent=2, allow_nan=False) + "\n")
     write_text_atomic(os.path.join(stage, "index.html"), index_html(summary))
@@ -294,15 +366,17 @@ def refuse_outputs_over_inputs(site: Site, out_dir: str) -> list:
     return inputs
 
 
-def _record_and_trend(store: str, site: Site, records: list, results: list, out_dir: str, limits) -> dict:
-    """Record the run's sweeps (one transaction) and write every antenna's trend page into ``OUT/trend/``;
-    each antenna result gets ``trend`` (its page, relative to ``out_dir``, its run count and flags). A store
-    that fails now is reported in the summary, not raised: the index is still written."""
+def _record_and_trend(store: str, site: Site, records: list, out_dir: str, limits) -> tuple[dict, dict]:
+    """Record the run's sweeps (one transaction) and write every antenna's trend page into ``OUT/trend/``.
+
+    Returns ``(history, trends)``: what was recorded (the site result's ``history``) and, by antenna name, its
+    ``trend`` (its page, relative to ``out_dir``, its run count and flags). A store that fails now is reported
+    in ``history``, not raised: the index is still written."""
     info = {"store": store, "added": 0, "already": 0, "error": None, "flagged": []}
     if not records:  # every antenna failed: no store is made, an existing one is left as it was
         kept = "the store was left as it was" if is_url(store) or os.path.exists(store) else "no store was made"
         info["error"] = f"no antenna could be checked, so there was nothing to record ({kept})"
-        return info
+        return info, {}
     try:
         with open_store(store) as st:
             info["store"] = st.name
@@ -312,13 +386,13 @@ def _record_and_trend(store: str, site: Site, records: list, results: list, out_
         written = write_trend_outputs(trends, os.path.join(out_dir, "trend"))
     except DeembedError as exc:
         info["error"] = str(exc)
-        return info
-    by_name = {e["antenna"]: e["trend"] for e in trends["entries"]}
-    for r in results:
-        tr = by_name.get(r["name"])
-        if tr is not None and r["name"] in written["entries"]:
-            r["trend"] = {"page": os.path.relpath(written["entries"][r["name"]]["trend_html"], out_dir),
-                          "runs": tr.runs, "flags": [f["reason"] for f in tr.flags]}
+        return info, {}
+    by_name = {}
+    for e in trends["entries"]:
+        name, tr = e["antenna"], e["trend"]
+        if name in written["entries"]:  # the last entry of a name, as the antennas of that name show it
+            by_name[name] = {"page": os.path.relpath(written["entries"][name]["trend_html"], out_dir),
+                             "runs": tr.runs, "flags": [f["reason"] for f in tr.flags]}
     info["flagged"] = [e["antenna"] for e in trends["entries"] if e["trend"].flags]
-    return info
+    return info, by_name
 
