@@ -708,6 +708,31 @@ def test_a_refused_command_leaves_no_folder_it_created(tmp_path, capsys):
     assert not (tmp_path / "new").exists()
 
 
+@pytest.mark.parametrize("command", ["correct", "compare", "locate", "site", "trend", "characterize"])
+def test_every_command_that_writes_takes_its_out_before_reading_anything(tmp_path, capsys, command):
+    """With another run holding --out, a command is refused at once (exit 3, that run's process named), before
+    it reads a single input: here every input is missing, which would otherwise be exit 2."""
+    import fcntl
+
+    out = tmp_path / "o"
+    out.mkdir()
+    gone = tmp_path / "missing.s1p"
+    args = {"correct": ["correct", gone, *LINE], "compare": ["compare", gone, tmp_path / "missing2.s1p", *LINE],
+            "locate": ["locate", gone, *LINE], "site": ["site", "--no-record", tmp_path / "missing.site.toml"],
+            "trend": ["trend", tmp_path / "missing.site.toml"],
+            "characterize": ["characterize", "--open", gone]}[command]
+    fd = os.open(out / ".deembed-lock", os.O_RDWR | os.O_CREAT)
+    fcntl.flock(fd, fcntl.LOCK_EX)
+    os.write(fd, b"4343\n")
+    try:
+        code, _, err = run(capsys, *args, "--out", out)
+    finally:
+        os.close(fd)
+    assert code == 3, err
+    one_error_line(err, "another deembed run", "4343")
+    assert sorted(os.listdir(out)) == [".deembed-lock"]
+
+
 def test_two_runs_racing_into_one_out_never_mix_their_outputs(tmp_path):
     """Two sweeps with the same name (so the same output names) and different point counts, run at once
     into one folder: each run ends with 0 or the clear 'busy' refusal, and the folder holds one run's

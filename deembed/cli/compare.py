@@ -84,14 +84,17 @@ def compare_command(
 
     settings = uncertainty_settings(draws, seed, cal_uncertainty)
     the_line, line_notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate, tol)
-    result, before, later = compare_files_with_corrections(baseline, after, the_line, after_line=after_line,
-                                                           limits=limits, port=port, out=out, cables=cables,
-                                                           extrapolate=extrapolate, inputs=[line],
-                                                           settings=settings if settings is not None
-                                                           else UncertaintySettings(draws=0),
-                                                           tolerances=tol or (),
-                                                           columns=parse_columns(columns) if columns else None,
-                                                           warnings=line_notes)
+    from ..io.outfolder import claimed
+
+    with claimed(out):  # --out (when given) is this run's from here: a second run into it is refused at once
+        result, before, later = compare_files_with_corrections(baseline, after, the_line, after_line=after_line,
+                                                               limits=limits, port=port, out=out, cables=cables,
+                                                               extrapolate=extrapolate, inputs=[line],
+                                                               settings=settings if settings is not None
+                                                               else UncertaintySettings(draws=0),
+                                                               tolerances=tol or (),
+                                                               columns=parse_columns(columns) if columns else None,
+                                                               warnings=line_notes)
     if as_json:
         print(json.dumps(to_jsonable(result), indent=2, allow_nan=False))
     else:

@@ -38,8 +38,11 @@ def site_command(
     if workers < 1:
         raise OptionError("--workers", f"{workers}: give 1 or more processes")
     limit_s = parse_duration(time_limit)
-    summary = run_site(site_file, out, workers=workers, progress=stderr_progress(), time_limit_s=limit_s,
-                       record=False if no_record else (record if record is not None else True))
+    from ..io.outfolder import claimed
+
+    with claimed(out):  # --out is this run's from here: a second run into it is refused at once
+        summary = run_site(site_file, out, workers=workers, progress=stderr_progress(), time_limit_s=limit_s,
+                           record=False if no_record else (record if record is not None else True))
     if as_json:
         print(json.dumps(to_jsonable(summary), indent=2, allow_nan=False))
     else:
