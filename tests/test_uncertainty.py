@@ -4,6 +4,7 @@ closed-form error amplification through a lossy line, scikit-rf's line model, an
 Sources beside each check. Invented antennas (series RLC) and lines are test data only.
 """
 import math
+import os
 
 import numpy as np
 import pytest
@@ -14,8 +15,10 @@ from deembed.analysis.trust import UncertaintySettings, assess
 from deembed.io.cables import catalog
 from deembed.physics.deembedding import embed_gamma, feedpoint_gamma
 from deembed.physics.line import DB_PER_NP, Line, LossModel, Section
-from deembed.physics.line_draws import s_terms, section_parts, section_s_terms
+from deembed.physics.line_draws import DRAWS_ERROR_BOUND, Scratch, s_terms, section_parts, section_s_terms
 from deembed.physics.tolerance import Tolerance
+
+SAMPLES = os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "sample_sweeps")
 
 C0 = 299_792_458.0
 
@@ -52,6 +55,37 @@ def test_broadcast_section_matches_scikit_rf_distributed_circuit():
         assert np.max(np.abs(s11 - ref[:, 0, 0])) < 1e-10
         assert np.max(np.abs(s22 - ref[:, 1, 1])) < 1e-10
         assert np.max(np.abs(s2 - ref[:, 1, 0] * ref[:, 0, 1])) < 1e-10
+
+
+def test_single_precision_trig_stays_within_its_bound():
+    # the draws' line terms (exp, cos, sin in single precision after an exact phase reduction) against the
+    # double-precision terms checked above against scikit-rf: 2 beta up to 10^4 rad, lossy lines well below
+    # their lowest resonance, 25-ohm mismatches; a badly mismatched lossy line at low frequency (where the
+    # single-precision error would be amplified) falls back to double precision
+    rng = np.random.default_rng(8)
+    sc = Scratch()
+    worst = 0.0
+    for f_hi, tau, dz in ((30e6, 150e-9, 2.0), (500e6, 1e-6, 25.0), (3e9, 300e-9, 5.0), (1e6, 5e-6, 2.0),
+                          (1e4, 1e-9, 2.0), (2e5, 1e-8, 25.0)):
+        f = np.linspace(0.0, f_hi, 1501)
+        z0 = 50 + dz * rng.uniform(-1, 1, (40, 1))
+        t = tau * (1 + 0.01 * rng.uniform(-1, 1, (40, 1)))
+        c, d = 3e-5 * rng.uniform(0, 3, (40, 1)), 2e-10 * rng.uniform(0, 3, (40, 1))
+        exact = section_s_terms(z0, t, c, d, f)
+        fast = section_s_terms(z0, t, c, d, f, single_trig=True, scratch=sc)
+        worst = max(worst, *(float(np.max(np.abs(a - b))) for a, b in zip(exact, fast)))
+    assert worst < DRAWS_ERROR_BOUND
+    # and directly against scikit-rf's DistributedCircuit (an independent path)
+    import skrf
+
+    f = np.linspace(1e6, 300e6, 201)
+    sec = Section(52.0, 120e-9, LossModel(3e-5, 2e-10))
+    r, l, g, cc = sec.rlgc_total(f)
+    ref = skrf.media.DistributedCircuit(skrf.Frequency.from_f(f, unit="Hz"), C=cc, L=l, R=r, G=g,
+                                        z0_port=50).line(1.0, "m").s
+    s11, s2, s22 = section_s_terms(52.0, 120e-9, 3e-5, 2e-10, f, single_trig=True)
+    assert np.max(np.abs(s11 - ref[:, 0, 0])) < DRAWS_ERROR_BOUND
+    assert np.max(np.abs(s2 - ref[:, 1, 0] * ref[:, 0, 1])) < DRAWS_ERROR_BOUND
 
 
 def test_broadcast_over_draws_equals_one_section_per_draw():
@@ -251,8 +285,12 @@ def test_calibration_presets_and_parsing():
 
     assert un.parse_calibration("bench").directivity < un.parse_calibration("hobby").directivity
     assert un.parse_calibration("0.02").tracking == 0.02
-    with pytest.raises(OptionError):
+    with pytest.raises(OptionError) as exc:
         un.parse_calibration("excellent")
+    assert exc.value.field == "calibration"          # the field, which the command line maps to its option
+    from deembed.cli.options import OPTION_FOR_FIELD
+
+    assert exc.value.render(OPTION_FOR_FIELD).startswith("--cal-uncertainty: ")
 
 
 def test_events_are_found_once_and_reused_for_draws():
@@ -264,3 +302,171 @@ def test_events_are_found_once_and_reused_for_draws():
     many = ev.evaluate(np.repeat(g_fp[idx][None, :], 3, axis=0), idx)
     for k in one:
         assert np.allclose(many[k], one[k][0], equal_nan=True)
+
+
+# ------------------------------------------------------------------------------------- the random draws
+
+def test_box_muller_noise_is_circular_gaussian():
+    # JCGM 101:2008 C.4.2 (Box-Muller): real and imaginary parts independent, normal, each of variance
+    # rms^2 / 2; checked with scipy's Kolmogorov-Smirnov test against the standard normal
+    from scipy import stats
+
+    rng = np.random.default_rng(11)
+    out = np.zeros((50, 2000), dtype=complex)
+    un.add_complex_noise(out, 0.004, rng)
+    re, im = out.real.ravel() / (0.004 / math.sqrt(2)), out.imag.ravel() / (0.004 / math.sqrt(2))
+    assert stats.kstest(re, "norm").pvalue > 0.001 and stats.kstest(im, "norm").pvalue > 0.001
+    assert abs(float(np.corrcoef(re, im)[0, 1])) < 0.02
+    assert float(np.mean(np.abs(out) ** 2)) == pytest.approx(0.004 ** 2, rel=0.02)
+
+
+def test_keyed_normals_depend_only_on_their_draw_and_point():
+    # a counter-based generator: what two sweeps share (draw k at characterized point j) is the same value
+    # whatever else each asks for; the values are circular complex Gaussian (scipy's KS test)
+    from scipy import stats
+
+    key = np.uint64(12345)
+    all_ = un.keyed_complex_normals(key, np.arange(300), np.arange(40), 40)
+    some = un.keyed_complex_normals(key, np.arange(100, 160), np.array([3, 17, 39]), 40)
+    assert np.array_equal(some, all_[100:160][:, [3, 17, 39]])
+    z = all_.ravel() * math.sqrt(2)
+    assert stats.kstest(z.real, "norm").pvalue > 0.001 and stats.kstest(z.imag, "norm").pvalue > 0.001
+    assert float(np.mean(np.abs(all_) ** 2)) == pytest.approx(1.0, rel=0.03)
+    other = un.keyed_complex_normals(np.uint64(12346), np.arange(300), np.arange(40), 40)
+    assert abs(float(np.corrcoef(all_.real.ravel(), other.real.ravel())[0, 1])) < 0.03
+
+
+# ------------------------------------------------------------------------------------------ the band
+
+def _dense_sweep(n, noise):
+    f = np.linspace(13.0e6, 15.5e6, n)
+    line = Line((catalog()["rg213"].section(30.0),))
+    g = embed_gamma(gamma(series_rlc(f, r=60.0, f0=14.1e6)), line.s_params(f))
+    rng = np.random.default_rng(5)
+    g = g + noise / math.sqrt(2) * (rng.standard_normal(n) + 1j * rng.standard_normal(n))
+    s = terms_of(line, f)
+    a = assess(f, g, feedpoint_gamma(g, *s), line, terms=s, settings=None)
+    return f, g, line, a
+
+
+def test_band_interpolated_between_its_frequencies_agrees_with_the_full_band():
+    # The band is worked out at 2001 evenly spread frequencies (and the feedpoint windows' samples) and
+    # interpolated between them. On a 10001-point sweep: with the analyzer noise left out, the draws differ
+    # only in the line and the calibration, which vary slowly, and the interpolated band must equal the band
+    # worked out at every frequency to 0.1 % of its width. With the noise drawn, the band worked out at every
+    # frequency has a point-to-point Monte Carlo scatter of its own (JCGM 101 7.9; estimated from its second
+    # differences, which a band smooth over a few sweep steps leaves to the scatter alone); the interpolated
+    # band must stay within that scatter (RMS difference at most 1.2 times it) and show no bias (under 5 % of
+    # the width averaged over any 101 neighbouring frequencies). Common practice, no source.
+    n = 10001
+    f, g, line, a = _dense_sweep(n, 0.0)
+    kw = dict(n_draws=300, seed=2)
+    part = un.run(f, g, line, a.events_fp, a.events_an, noise_rms=0.0, **kw).swr_band
+    full = un.run(f, g, line, a.events_fp, a.events_an, noise_rms=0.0, band_points=n, **kw).swr_band
+    width = full[1] - full[0]
+    assert np.all(width > 0)
+    for k in (0, 1):
+        assert np.max(np.abs(part[k] - full[k]) / width) < 1e-3
+    f, g, line, a = _dense_sweep(n, 0.003)
+    part = un.run(f, g, line, a.events_fp, a.events_an, noise_rms=a.noise_rms, **kw).swr_band
+    full = un.run(f, g, line, a.events_fp, a.events_an, noise_rms=a.noise_rms, band_points=n, **kw).swr_band
+    width = full[1] - full[0]
+    for k in (0, 1):
+        d = (part[k] - full[k]) / width
+        second = (full[k][1:-1] - 0.5 * (full[k][:-2] + full[k][2:])) / width[1:-1]
+        scatter = float(np.sqrt(np.mean(second ** 2) / 1.5))     # var of e_i - (e_i-1 + e_i+1)/2 is 1.5 var(e)
+        assert scatter > 0.005                                     # the noise shows: the check means something
+        assert float(np.sqrt(np.mean(d ** 2))) <= 1.2 * scatter
+        assert float(np.max(np.abs(np.convolve(d, np.ones(101) / 101, mode="valid")))) < 0.05
+
+
+def test_the_step_draws_a_bounded_number_of_frequencies():
+    # the work is bounded in the sweep's length: the line and the feedpoint are drawn at most at the band's
+    # frequencies and the feedpoint windows' samples, each window at most MAX_WINDOW_POINTS samples
+    from deembed.analysis.smooth import MAX_WINDOW_POINTS, blocks_for
+
+    n = 200_001
+    f, g, line, a = _dense_sweep(n, 0.003)
+    b_idx = un.band_indices(n)
+    assert b_idx.size == un.BAND_POINTS and b_idx[0] == 0 and b_idx[-1] == n - 1
+    pts = np.union1d(np.union1d(a.events_fp.indices(), a.events_an.indices()), b_idx)
+    plan = blocks_for([a.events_an, a.events_fp], pts, 1, np.searchsorted(pts, b_idx))
+    fp_windows = sum(e.model.idx.size for e in a.events_fp.all_events())
+    assert all(e.model.idx.size <= MAX_WINDOW_POINTS for e in a.events_fp.all_events() + a.events_an.all_events())
+    assert plan.columns(1).size <= un.BAND_POINTS + fp_windows
+    assert plan.columns(0).size == pts.size
+
+
+# ------------------------------------------------------------------------ a characterized line's scatter
+
+def _characterized_sample(tmp_path):
+    from deembed.analysis.characterize import characterize
+    from deembed.io.charfile import line_from_characterization, write_characterization
+    from deembed.io.touchstone import read_sweep
+
+    std = {k: read_sweep(os.path.join(SAMPLES, f"dipole-40m-far-{k}.s1p")) for k in ("open", "short", "load")}
+    ch = characterize(std["open"].freq_hz, gamma_open=std["open"].gamma, gamma_short=std["short"].gamma,
+                      gamma_load=std["load"].gamma)
+    path = str(tmp_path / "run.line.s2p")
+    write_characterization(path, ch)
+    return line_from_characterization(path), read_sweep(os.path.join(SAMPLES, "dipole-40m.s1p"))
+
+
+def test_characterization_scatter_widens_the_intervals_as_first_order_propagation_says(tmp_path, monkeypatch):
+    # The sample dipole's run characterized from its far-end sweeps (README) has a measurement scatter of
+    # about 0.017 in |Gamma| at the feedpoint. Drawn per characterized point (Gaussian, JCGM 101 6.4.7), it
+    # must add to each finding's variance what the law of propagation of uncertainty gives (JCGM 100:2008
+    # eq. (10), sensitivities by central differences through the same fixed local models, the scatter of
+    # sweep points nearest one characterized point taken as one input): within 10 %, with the analyzer's
+    # noise and calibration left out so that the rest (the between-points offset) is small.
+    from deembed.physics.between import feedpoint_error
+
+    line, sw = _characterized_sample(tmp_path)
+    f, g = sw.freq_hz, sw.gamma
+    s = terms_of(line, f)
+    g_fp = feedpoint_gamma(g, *s)
+    a = assess(f, g, g_fp, line, terms=s, settings=None)
+    ev = a.events_fp
+    kw = dict(noise_rms=0.0, calibration=un.CAL_PRESETS["none"], n_draws=4000, seed=3, band=False)
+    with_scatter = un.run(f, g, line, ev, a.events_an, **kw)
+    monkeypatch.setattr(un, "draw_scatter", lambda *args, **kwargs: None)
+    without = un.run(f, g, line, ev, a.events_an, **kw)
+    monkeypatch.undo()
+    part = line.parts[0]
+    err = feedpoint_error(part.s_params(f), np.broadcast_to(part.between.scatter, (f.size, 2, 2)), g_fp)
+    assert float(np.max(err)) == pytest.approx(0.0166, abs=0.001)      # the summary's figure (README)
+    grid = part.freq_hz
+    nearest = np.abs(f[:, None] - grid[None, :]).argmin(axis=1)
+    for key in (f"res_hz_{ev.primary}", "min_swr"):
+        events = ev
+        idx = events.indices()
+        h = 1e-6
+        base = g_fp[idx]
+        m = idx.size
+        batch = np.repeat(base[None, :], 4 * m, axis=0)
+        rows = np.arange(m)
+        batch[rows, rows] += h
+        batch[m + rows, rows] -= h
+        batch[2 * m + rows, rows] += 1j * h
+        batch[3 * m + rows, rows] -= 1j * h
+        y = events.evaluate(batch, idx)[key]
+        c_re, c_im = (y[:m] - y[m:2 * m]) / (2 * h), (y[2 * m:3 * m] - y[3 * m:]) / (2 * h)
+        e = err[idx]
+        a_re = np.bincount(nearest[idx], weights=np.nan_to_num(c_re) * e)
+        a_im = np.bincount(nearest[idx], weights=np.nan_to_num(c_im) * e)
+        u2 = float(np.sum(a_re ** 2 + a_im ** 2)) / 2
+        added = float(np.var(with_scatter.feedpoint.values[key]) - np.var(without.feedpoint.values[key]))
+        assert added == pytest.approx(u2, rel=0.10)
+    # and it is named among the contributors, and for what limits the result when it is the largest
+    block = un.end_block(with_scatter.feedpoint, ev.nominal, coverage=0.95, n_draws=4000, seed=3)
+    share = block["contributions"]["resonance_hz"]
+    assert next(iter(share)) == un.SCATTER_SOURCE
+    assert "measurement scatter" in block["limited_by"]
+    # with the analyzer's noise and calibration drawn too, it keeps its first-order share of what the scalar
+    # inputs leave
+    full = un.run(f, g, line, ev, a.events_an, noise_rms=a.noise_rms, n_draws=1000, seed=3, band=False)
+    pv = full.feedpoint.point_variances[f"res_hz_{ev.primary}"]
+    share = un.end_block(full.feedpoint, ev.nominal, coverage=0.95, n_draws=1000, seed=3)["contributions"]["resonance_hz"]
+    assert share[un.SCATTER_SOURCE] > 0
+    assert share[un.SCATTER_SOURCE] / share[un.NOISE_SOURCE] == pytest.approx(pv[un.SCATTER_SOURCE] / pv[un.NOISE_SOURCE],
+                                                                             rel=1e-9)
