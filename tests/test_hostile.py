@@ -1013,6 +1013,18 @@ def test_a_no_plots_rerun_removes_the_earlier_report_and_plots_and_nothing_else(
     assert {n: (out / n).read_bytes() for n in os.listdir(out) if n.startswith("y.")} == others_before
 
 
+def test_a_no_plots_rerun_keeps_what_locate_wrote_under_a_shared_name(tmp_path, capsys):
+    """``deembed locate`` writes NAME.along.png too: a correct rerun without plots leaves it alone."""
+    sweep = write_sweep(tmp_path / "w.s1p", n=801, f0=1e6, f1=60e6)
+    out = tmp_path / "o"
+    code, _, err = run(capsys, "locate", sweep, *LINE, "--out", out)
+    assert code == 0, err
+    plot = (out / "w.along.png").read_bytes()
+    code, _, err = run(capsys, "correct", sweep, *LINE, "--out", out, "--draws", "0", "--no-plots")
+    assert code == 0, err
+    assert (out / "w.along.png").read_bytes() == plot and (out / "w.along.json").is_file()
+
+
 def test_a_rerun_that_fails_at_the_commit_keeps_the_whole_earlier_set(tmp_path, capsys, monkeypatch):
     """The earlier set's files are set aside in the same transaction as the new files are moved in: a move that
     fails puts every one back, the plots and report of the earlier run included."""

@@ -63,8 +63,9 @@ def correct_command(
     settings = uncertainty_settings(draws, seed, cal_uncertainty)
     # the folder is this run's from here, before any file is read (a second run into it is refused at once),
     # and the run's outputs are one set: an earlier run's files for this sweep that this one does not write
-    # go with the commit
-    with claimed(out, replaces=workflow.output_paths(sweep, "").values()):
+    # go with the commit (but not NAME.along.png, which `deembed locate` writes under the same name)
+    own = [p for k, p in workflow.output_paths(sweep, "").items() if k != "along_png"]
+    with claimed(out, replaces=own):
         the_line, notes = build_line(cable, length, vf, delay, z0, loss, line, cables, extrapolate, tol)
         opts = workflow.Options(
             port=port, thresholds=parse_thresholds(swr_limits or "1.5,2,3"),
