@@ -235,8 +235,8 @@ def _plain(obj):
 def test_end_findings_e10_is_json_ready():
     g = gamma_from_z(series_rlc_z(FINE))
     out = fd.end_findings(FINE, g)
-    assert _plain(out)
-    json.dumps(out, allow_nan=False)
+    assert _plain(out.to_dict())            # a typed result (deembed.base.results.Result); its JSON form is plain
+    json.dumps(out.to_dict(), allow_nan=False)
     assert out["min_swr"]["freq_hz"] == pytest.approx(14e6, abs=1e3)  # [D] E10
     assert out["min_swr"]["swr"] == pytest.approx(1.0, abs=1e-6)  # [D] E10 matched at f0
     assert out["resonances_hz"] == [pytest.approx(14e6, abs=10.0)]
@@ -253,7 +253,7 @@ def test_end_findings_tiny_sweeps_do_not_crash(n):
     f = np.array([14.0e6, 14.1e6])[:n]
     g = np.array([0.2, 0.1 + 0.05j])[:n]
     out = fd.end_findings(f, g)
-    json.dumps(out, allow_nan=False)
+    json.dumps(out.to_dict(), allow_nan=False)
     assert out["q"] is None and out["q_from_span"] is None and out["resonances"] == []
     if n == 1:
         assert out["min_swr"] == {"freq_hz": 14.0e6, "swr": pytest.approx(1.5, abs=1e-12)}  # [D] F2: |G| 0.2
@@ -264,7 +264,7 @@ def test_end_findings_tiny_sweeps_do_not_crash(n):
 def test_end_findings_open_circuit_gives_none_not_inf():
     f = np.linspace(1e6, 2e6, 5)
     out = fd.end_findings(f, np.ones(5, dtype=complex))  # Gamma = 1: SWR infinite everywhere
-    json.dumps(out, allow_nan=False)
+    json.dumps(out.to_dict(), allow_nan=False)
     assert out["min_swr"]["swr"] is None
     assert out["swr_spans_hz"]["2"] == []
 
