@@ -86,21 +86,6 @@ LATE_IMPORTS_PENDING = {
     # "file:function". This list may only shrink: move the import to the module's top (lint-imports and the
     # fresh-interpreter test above show whether a cycle results) and delete its line here. Owners in brackets.
     "deembed/__main__.py:run",                         # [perf] `python -m deembed` entry point
-    "deembed/analysis/along.py:_line_map",             # [locate]
-    "deembed/analysis/compare.py:trust_pair",          # [compare]
-    "deembed/analysis/compare.py:_change_intervals",   # [compare]
-    "deembed/analysis/findings.py:end_findings",       # [compare]
-    "deembed/analysis/trust.py:sources_record",        # [mc]
-    "deembed/analysis/uncertainty.py:parse_calibration",  # [mc]
-    "deembed/analysis/uncertainty.py:draw_between",    # [mc]
-    "deembed/jobs/locate.py:_vf",                      # [locate]
-    "deembed/jobs/locate.py:_write_locate",            # [locate]
-    "deembed/jobs/pool.py:parse_duration",             # [trend]
-    "deembed/jobs/site.py:run_antenna",                # [trend]
-    "deembed/jobs/site.py:_columns",                   # [trend]
-    "deembed/jobs/trend.py:run_trend",                 # [trend]
-    "deembed/render/along.py:save",                    # [locate]
-    "deembed/render/report.py:_between",               # [compare]
 }
 
 LATE_OPTIONAL = {
@@ -189,7 +174,6 @@ def _deembed_module_names(rel: str, tree) -> set[str]:
 PRIVATE_IMPORTS_PENDING = {
     # A module reaching into another's private name, as "file:name". May only shrink: make the name public
     # (renamed, with a docstring) or keep the code in its own module, and delete the line here.
-    "deembed/analysis/trust.py:_is_section",  # [mc] from analysis.uncertainty
 }
 
 
@@ -230,7 +214,6 @@ HASATTR_ALLOWED = {
 
 HASATTR_PENDING = {
     # hasattr on a line part still there; may only shrink (use part.kind or isinstance).
-    "deembed/analysis/trust.py: hasattr(part, 'between_points')",  # [mc]
 }
 
 

@@ -112,3 +112,13 @@ def test_the_schemas_refuse_outputs_that_break_them(capsys, tmp_path, station):
     broken = copy.deepcopy(summary)
     broken["feedpoint"]["min_swr"]["swr"] = "1.5"
     assert not validator.is_valid(broken)
+
+
+def test_every_json_output_has_its_schema_and_the_along_block_is_the_same_in_both():
+    assert set(SCHEMAS) == {"summary", "compare", "site", "budget", "characterization", "locate", "trend"}
+    summary, locate = load_schema("summary"), load_schema("locate")
+    assert summary["properties"]["along_the_line"] == {"$ref": "#/$defs/along_the_line"}
+    for name in ("along_the_line", "length", "reflection"):  # the copy is locate's own, which owns it
+        assert summary["$defs"][name] == locate["$defs"][name]
+    compare = load_schema("compare")
+    assert compare["properties"]["along_the_line"] == {"$ref": "#/$defs/compare_along"}

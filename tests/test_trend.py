@@ -11,6 +11,8 @@ intervals, where a drift and a step injected into the dry feeds' runs must be fl
 """
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
 from scipy import stats
@@ -303,14 +305,18 @@ def test_recorded_intervals_from_the_uncertainty_block():
     summary = summarise(corr)
     fp = summary["feedpoint"]
     lo, hi = fp["min_swr"]["swr"] - 0.02, fp["min_swr"]["swr"] + 0.03
-    fp["uncertainty"] = {"coverage": 0.95, "min_swr": [lo, hi], "q": None,
-                         "resonances_hz": [[fp["resonances_hz"][0] - 1e3, fp["resonances_hz"][0] + 1e3]]}
-    vals = {(v.quantity, v.idx): v for v in sweep_values(corr, summary)}
+    unc = {"coverage": 0.95, "min_swr": [lo, hi], "q": None,
+           "resonances_hz": [[fp["resonances_hz"][0] - 1e3, fp["resonances_hz"][0] + 1e3]]}
+
+    def with_block(block):  # the summary is a frozen typed result: a copy with this uncertainty block
+        return dataclasses.replace(summary, feedpoint=dataclasses.replace(fp, uncertainty=block))
+
+    vals = {(v.quantity, v.idx): v for v in sweep_values(corr, with_block(unc))}
     assert (vals[("min_swr", 0)].low, vals[("min_swr", 0)].high) == (lo, hi)
     assert vals[("resonances_hz", 0)].high - vals[("resonances_hz", 0)].low == pytest.approx(2e3)
     assert vals[("q", 0)].low is None
-    fp["uncertainty"]["coverage"] = float(stats.norm.cdf(1) - stats.norm.cdf(-1))  # one standard deviation
-    v = {(v.quantity, v.idx): v for v in sweep_values(corr, summary)}[("min_swr", 0)]
+    one_sd = dict(unc, coverage=float(stats.norm.cdf(1) - stats.norm.cdf(-1)))  # one standard deviation
+    v = {(v.quantity, v.idx): v for v in sweep_values(corr, with_block(one_sd))}[("min_swr", 0)]
     assert v.value - v.low == pytest.approx(0.02 * stats.norm.ppf(0.975), rel=1e-9)
     assert v.high - v.value == pytest.approx(0.03 * stats.norm.ppf(0.975), rel=1e-9)
 

@@ -55,6 +55,7 @@ explain (the antenna changed) widens it.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 
 import numpy as np
 
@@ -82,7 +83,7 @@ LOSS_SPAWN_KEY = 23
 
 
 def _pair(iv):
-    if isinstance(iv, dict):
+    if isinstance(iv, Mapping):
         iv = [iv.get("low"), iv.get("high")]
     if isinstance(iv, (list, tuple)) and len(iv) == 2:
         lo, hi = _num(iv[0]), _num(iv[1])
@@ -115,7 +116,7 @@ def _u(block: dict | None, *path):
     """``block[path[0]][path[1]]...`` or None (the findings' ``uncertainty`` block, where present)."""
     cur = block
     for k in path:
-        if isinstance(cur, dict):
+        if isinstance(cur, Mapping):  # a plain block or a typed result (deembed.base.results.Result)
             cur = cur.get(k)
         elif isinstance(cur, list) and isinstance(k, int) and 0 <= k < len(cur):
             cur = cur[k]
@@ -141,7 +142,7 @@ def settings_of(summary: dict | None, comparison: dict | None = None) -> dict | 
     """``{"draws", "seed", "coverage"}`` of the Monte Carlo step behind a summary (or a comparison), or None
     when there was none (no intervals were asked for)."""
     for block in (_u(summary, "feedpoint", "uncertainty"), _u(comparison, "uncertainty")):
-        if isinstance(block, dict) and block.get("draws"):
+        if isinstance(block, Mapping) and block.get("draws"):
             return {"draws": int(block["draws"]), "seed": int(block.get("seed", 1)),
                     "coverage": float(block.get("coverage", 0.95))}
     return None
@@ -160,7 +161,7 @@ def fixed_line_draws(line, n: int) -> LineDraws:
 
 
 def _thresholds(summary: dict) -> tuple:
-    keys = (summary.get("feedpoint") or {}).get("swr_spans_hz") or {}
+    keys = summary["feedpoint"]["swr_spans_hz"]
     try:
         th = tuple(sorted(float(k) for k in keys))
     except ValueError:
@@ -249,17 +250,17 @@ def line_loss_values(corr, summary: dict, comparison: dict | None, settings: dic
     chi2 = None
     noise = _num(_u(summary, "sweep", "noise_gamma_rms"))
     if comparison is not None:
-        ln = comparison.get("line") or {}
-        fit = ln.get("fitted_change") or {}
+        ln = comparison["line"]
+        fit = ln["fitted_change"] or {}  # None with a line of its own for each sweep
         c = _num(fit.get("c_np_per_sqrt_hz"))
         if ln.get("same_line") and c is not None:
-            code = (comparison.get("cause") or {}).get("code")
+            code = comparison["cause"]["code"]
             loss = loss + DB_PER_NP * c * math.sqrt(fc)
             method = "the line's description plus the change fitted against the baseline, at the band centre"
             if code not in ("line", "unchanged"):
                 method += (f" (the comparison's cause is {code}: the fitted change may carry part of the antenna's "
                            "change)")
-            unc = comparison.get("uncertainty") or {}
+            unc = comparison["uncertainty"] or {}  # None without draws
             na = _num(unc.get("noise_gamma_rms_after")) or noise
             nb = _num(unc.get("noise_gamma_rms_before"))
             chi2 = fit_chi2(corr, fit, na, nb) if na else None
@@ -298,14 +299,14 @@ def sweep_values(corr, summary: dict, comparison: dict | None = None, settings: 
     (:func:`settings_of`), none when neither had any (then no intervals are recorded)."""
 
     fp = summary["feedpoint"]
-    u = fp.get("uncertainty") or {}
+    u = fp.get("uncertainty") or {}  # OPTIONAL: none without phase, None without draws
     cov = u.get("coverage")
     settings = settings if settings is not None else settings_of(summary, comparison)
     r = run_intervals(corr, summary, settings) or {}
     rcov = r.get("coverage")
     out = []
     res, how = _num(fp.get("resonance_hz")), "findings (the resonance nearest the lowest SWR)"
-    near = (fp.get("min_swr") or {}).get("freq_hz")
+    near = fp["min_swr"]["freq_hz"]
     run_res = r.get("resonance_hz")
     if res is None and near is not None:
         res = fitted_resonance(corr.freq_hz, corr.gamma_feedpoint, near)
@@ -318,12 +319,12 @@ def sweep_values(corr, summary: dict, comparison: dict | None = None, settings: 
     for i, x in enumerate(fp.get("resonances_hz") or []):
         out.append(_v("resonances_hz", x, "Hz", "findings", idx=i, iv=_u(u, "resonances_hz", i), coverage=cov,
                       run_iv=_u(r, "resonances_hz", i), run_coverage=rcov))
-    ms = fp.get("min_swr") or {}
+    ms = fp["min_swr"]
     out.append(_v("min_swr", ms.get("swr"), "", "findings", iv=u.get("min_swr"), coverage=cov,
                   run_iv=r.get("min_swr"), run_coverage=rcov))
     out.append(_v("min_swr_freq_hz", ms.get("freq_hz"), "Hz", "findings", iv=u.get("min_swr_freq_hz"),
                   coverage=cov, run_iv=r.get("min_swr_freq_hz"), run_coverage=rcov))
-    for k, lst in (fp.get("swr_spans_hz") or {}).items():
+    for k, lst in fp["swr_spans_hz"].items():
         for i, (lo, hi) in enumerate(lst):
             out.append(_v(f"swr_span_{k}_low_hz", lo, "Hz", "findings", idx=i,
                           iv=_u(u, "swr_spans_hz", k, i, 0), coverage=cov,
@@ -351,9 +352,7 @@ def verdict_of(comparison: dict | None):
     """(verdict status, cause code, cause text) of a comparison, or three None."""
     if comparison is None:
         return None, None, None
-    verdict = (comparison.get("verdict") or {}).get("status")
-    d = comparison.get("cause") or {}
-    return verdict, d.get("code"), d.get("text")
+    return comparison["verdict"]["status"], comparison["cause"]["code"], comparison["cause"]["text"]
 
 
 __all__ = ["band_centre_hz", "description_loss_draws", "fit_chi2", "fixed_line_draws", "line_loss_at_centre",

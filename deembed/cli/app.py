@@ -82,7 +82,7 @@ app.command("trend")(trend_command)
 METAVARS = {
     "--out": "DIR", "--line": "FILE", "--after-line": "FILE", "--bands-file": "FILE", "--open": "FILE",
     "--short": "FILE", "--load": "FILE", "--catalog": "FILE", "--record": "STORE", "--target": "FREQ",
-    "--max-shift": "FREQ", "--max-drift": "FREQ", "--at": "FREQ", "--resolve": "LENGTH", "--length": "LENGTH",
+    "--max-shift": "FREQ", "--max-drift": "RATE", "--at": "FREQ", "--resolve": "LENGTH", "--length": "LENGTH",
     "--power": "POWER", "--date": "YYYY-MM-DD", "--baseline-date": "YYYY-MM-DD", "--name": "NAME",
     "--antenna": "NAME", "--tol": "NAME=VALUE", "--draws": "N", "--seed": "N", "--workers": "N", "--pad": "N",
     "--kaiser-beta": "BETA", "--threshold": "LEVEL", "--floor": "LEVEL", "--keep": "FROM:TO", "--remove": "FROM:TO",

@@ -102,7 +102,7 @@ def _end_rows(end: dict, result: dict | None, exceeded, step_hz=None) -> list:
     intervals); frequencies with the digits their interval supports, else the sweeps' step ``step_hz``."""
     rows = []
     if result is not None:
-        steps = ((result.get("baseline") or {}).get("step_hz"), (result.get("after") or {}).get("step_hz"))
+        steps = (result["baseline"]["step_hz"], result["after"]["step_hz"])
         rows.append({"label": "Resonance", "hint": "reactance zero nearest the best match, fitted",
                      "before": _freq(result["resonance_before_hz"], result.get("resonance_before_interval_hz"),
                                      steps[0]),
@@ -161,7 +161,7 @@ def _limits_rows(result: dict) -> list:
     }
     checked = {"max_bw_loss_percent": finite(pct), "max_loss_change_db": lc is not None}
     v = result["verdict"]
-    cert, cert_text = v.get("certainty") or {}, v.get("certainty_text") or {}
+    cert, cert_text = v.get("certainty") or {}, v.get("certainty_text") or {}  # OPTIONAL: with intervals only
 
     def certainty(k):
         c = cert.get(k)
@@ -217,7 +217,7 @@ def compare_html(result: dict, png_path: str | None = None, title: str = "", alo
                                    "feedpoint (solid, top) and at the analyzer (dashed, bottom)."})
     along_uri = file_data_uri(along_png)
     u = result.get("uncertainty")
-    steps = [x for x in ((result.get("baseline") or {}).get("step_hz"), (result.get("after") or {}).get("step_hz")) if x]
+    steps = [x for x in (result["baseline"]["step_hz"], result["after"]["step_hz"]) if x]
     step = min(steps) if steps else None
     return render_page(
         "compare.html.j2",
@@ -237,6 +237,6 @@ def compare_html(result: dict, png_path: str | None = None, title: str = "", alo
         warnings=[str(w) for w in result.get("warnings") or []],
         analyzer_missing="the baseline's line is known only at its measured points",
         limits=_limits_rows(result), line_rows=_line_rows(result["line"]), figures=figures,
-        along={"uri": along_uri, "text": (result.get("along_the_line") or {}).get("text", "")} if along_uri else None,
+        along={"uri": along_uri, "text": result["along_the_line"]["text"]} if along_uri else None,
         notes=list(result.get("notes") or []),
         run_time=run_time.strftime("%Y-%m-%d %H:%M %Z").strip())

@@ -2,8 +2,10 @@
 
 One file per output: ``summary`` (``deembed correct``: ``<stem>.summary.json`` and ``--json``), ``compare``
 (``<after>.compare.json``, ``compare --json``), ``site`` (``site.json``, ``site --json``), ``budget``
-(``budget --json``) and ``characterization`` (``characterize --json``). They describe the documented keys;
-outputs may carry more. The test suite validates every JSON output against its schema (jsonschema, a test
+(``budget --json``), ``characterization`` (``characterize --json``), ``locate`` (``<stem>.along.json``,
+``locate --json``) and ``trend`` (``trend.json``, ``trend --json``). They describe the documented keys;
+outputs may carry more. ``summary``'s ``$defs/along_the_line`` (with ``length`` and ``reflection``) is a copy of
+``locate``'s, which owns it (tests/test_json_schemas.py checks that the copy is the same). The test suite validates every JSON output against its schema (jsonschema, a test
 dependency); nothing validates at run time.
 """
 from __future__ import annotations
@@ -12,7 +14,7 @@ import json
 import os
 
 SCHEMA_DIR = os.path.join(os.path.dirname(os.path.abspath(__file__)), "schemas")
-SCHEMAS = ("summary", "compare", "site", "budget", "characterization")
+SCHEMAS = ("summary", "compare", "site", "budget", "characterization", "locate", "trend")
 
 
 def schema_path(name: str) -> str:

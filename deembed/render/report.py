@@ -123,8 +123,8 @@ def _glance(summary: dict, fq: _Freq) -> dict:
     """Three headline numbers: lowest SWR at each end and the line's loss."""
 
     def low(end):
-        m = end.get("min_swr") or {}
-        u = end.get("uncertainty") or {}
+        m = end["min_swr"]
+        u = end.get("uncertainty") or {}  # OPTIONAL: none without phase, None without draws
         if finite(m.get("swr")) and u.get("min_swr"):
             text = fmt_number(m["swr"], u["min_swr"])          # "1.20 (1.12 to 1.29)"
             value, _, rest = text.partition(" (")
@@ -132,7 +132,7 @@ def _glance(summary: dict, fq: _Freq) -> dict:
                                          + fmt_freq_interval(m.get("freq_hz"), u.get("min_swr_freq_hz"))}
         return {"swr": num(m.get("swr")), "sub": "at " + fq(m.get("freq_hz"))}
 
-    ml = summary["line"].get("matched_loss_db") or {}
+    ml = summary["line"]["matched_loss_db"]
     return {"feedpoint": low(summary["feedpoint"]), "analyzer": low(summary["analyzer"]),
             "loss": f"{num(ml.get('at_low'))}\u2013{num(ml.get('at_high'))} dB"}
 
@@ -163,8 +163,8 @@ def _parts(line) -> list:
 
 def _line(summary: dict, corr, fq: _Freq) -> dict:
     ln = summary["line"]
-    ml = ln.get("matched_loss_db") or {}
-    el = ln.get("electrical_length_deg") or {}
+    ml = ln["matched_loss_db"]
+    el = ln["electrical_length_deg"]
 
     def edge(key):
         deg = el.get(key)
@@ -207,7 +207,7 @@ def _between(bp) -> dict | None:
 
 def _resonances(end: dict, fq: _Freq) -> dict:
     items = [r for r in end.get("resonances") or [] if finite(r.get("freq_hz"))]
-    centre = (end.get("min_swr") or {}).get("freq_hz")
+    centre = end["min_swr"]["freq_hz"]
     chosen = items
     if len(items) > MAX_RESONANCES:
         key = (lambda r: abs(r["freq_hz"] - centre)) if finite(centre) else (lambda r: r["freq_hz"])
@@ -228,8 +228,8 @@ def _resonances(end: dict, fq: _Freq) -> dict:
 
 
 def _spans(end: dict, key: str, freq_range, fq: _Freq) -> dict:
-    spans = [s for s in (end.get("swr_spans_hz") or {}).get(key) or [] if s and finite(s[0]) and finite(s[1])]
-    cuts = list((end.get("swr_spans_cut_by_sweep_edge") or {}).get(key) or [])
+    spans = [s for s in end["swr_spans_hz"].get(key) or [] if s and finite(s[0]) and finite(s[1])]
+    cuts = list(end["swr_spans_cut_by_sweep_edge"].get(key) or [])
     if len(cuts) != len(spans):  # older summaries: work the flag out from the sweep's edges
         cuts = [s[0] <= freq_range[0] or s[1] >= freq_range[1] for s in spans]
     order = sorted(range(len(spans)), key=lambda i: spans[i][1] - spans[i][0], reverse=True)
@@ -254,7 +254,7 @@ def _ends(summary: dict, fq: _Freq) -> dict:
     rng = (sw["low_hz"], sw["high_hz"])
 
     def low(end):
-        m = end.get("min_swr") or {}
+        m = end["min_swr"]
         if not finite(m.get("swr")):
             return None
         u = end.get("uncertainty") or {}
@@ -270,7 +270,7 @@ def _ends(summary: dict, fq: _Freq) -> dict:
         return {"imp": fmt_number(end["q"], iv, default_decimals=1), "imp_at": fq(end.get("q_freq_hz")),
                 "imp_na": "n/a", "span": num(end.get("q_from_span"), ".1f", None)}
 
-    keys = sorted((fp.get("swr_spans_hz") or {}).keys(), key=float)
+    keys = sorted(fp["swr_spans_hz"], key=float)
     return {
         "low": (low(sh), low(fp)),
         "resonances": (_resonances(sh, fq), _resonances(fp, fq)),
@@ -282,7 +282,7 @@ def _ends(summary: dict, fq: _Freq) -> dict:
 def _trust(summary: dict) -> dict:
     """How far the findings can be trusted: the noise, how the intervals were made, what limits them."""
     sw = summary["sweep"]
-    u = (summary.get("feedpoint") or {}).get("uncertainty") or {}
+    u = summary["feedpoint"].get("uncertainty") or {}  # OPTIONAL: none without phase, None without draws
     noise = sw.get("noise_gamma_rms")
     out = {"noise": f"{noise:.2g}" if finite(noise) else None, "mc": None, "limited_by": None}
     if u:
@@ -338,19 +338,19 @@ def _power(summary: dict, fq: _Freq) -> dict | None:
     p = summary.get("power")
     if not p:
         return None
-    ant, tx_end = p.get("at_antenna") or {}, p.get("at_transmitter") or {}
+    ant, tx_end = p["at_antenna"], p["at_transmitter"]
     tx = tx_end.get("forward_w")  # the budget's words (deembed budget --json): the transmitter's forward power
     if not finite(tx) or tx <= 0:
         return None
     parts = []
     for label, w, colour in (("into the antenna", ant.get("delivered_w"), FEEDPOINT_COLOUR),
-                             ("lost in the line", (p.get("line") or {}).get("dissipated_w"), LINE_LOSS_COLOUR),
+                             ("lost in the line", p["line"]["dissipated_w"], LINE_LOSS_COLOUR),
                              ("back at the transmitter", tx_end.get("reflected_w"), ANALYZER_COLOUR)):
         if finite(w):
             share = max(w / tx * 100, 0.0)
             parts.append({"label": label, "w": f"{w:.1f}", "colour": colour, "width": f"{share:.2f}",
                           "share": _share(share)})
-    retuned = (p.get("matched_at_transmitter") or {}).get("delivered_w")
+    retuned = p["matched_at_transmitter"]["delivered_w"]
     return {"tx": f"{tx:g}", "at": fq(p.get("at_freq_hz")), "parts": parts,
             "retuned": f"{retuned:.1f}" if finite(retuned) else None}
 
@@ -359,7 +359,7 @@ def _render_png(key: str, corr, table: dict, summary: dict) -> bytes | None:
     """A plot rendered in memory, for a report written without the PNG files."""
     import io
 
-    keys = (summary.get("feedpoint") or {}).get("swr_spans_hz") or {}
+    keys = summary["feedpoint"]["swr_spans_hz"]
     fig = plots.correction_plot(key, corr, table, tuple(float(k) for k in keys) or (2.0,))
     if fig is None:
         return None
@@ -391,15 +391,15 @@ def _along(summary: dict, written: dict) -> dict | None:
         t = str(t or "")
         return t[:1].upper() + t[1:]
 
-    if not info.get("resolves_line"):
-        return {"resolves": False, "text": info.get("text", "")}
+    if not info["resolves_line"]:
+        return {"resolves": False, "text": cap(info["text"])}
     rows = [{"where": f"{r['distance_m']:.1f} m" if r.get("distance_m") is not None else f"{r['one_way_delay_ns']:.1f} ns",
              "seen": f"{r['return_loss_db']:.1f} dB",
              "at_point": f"{r['return_loss_at_point_db']:.1f} dB" if r.get("return_loss_at_point_db") is not None
              else "n/a",
              "kind": r.get("kind") or ""} for r in info.get("reflections", [])]
-    return {"resolves": True, "text": cap(info.get("text", "")), "mode": info.get("mode", "band-pass"),
-            "length": cap((info.get("length") or {}).get("verdict", "")), "rows": rows,
+    return {"resolves": True, "text": cap(info["text"]), "mode": info.get("mode", "band-pass"),
+            "length": cap((info["length"] or {}).get("verdict", "")), "rows": rows,
             "figure": file_data_uri(written.get("along_png"))}
 
 

@@ -46,7 +46,7 @@ def _rows(summary: dict) -> list:
             rows.append({"name": ant["name"], "error": ant["error"], "verdict_text": VERDICT_TEXT[ERROR]})
             continue
         base = ant["baseline"]
-        base_report = (base.get("outputs") or {}).get("report_html")
+        base_report = base["outputs"].get("report_html")
         n_cmp = len(ant["comparisons"])
         for j, cmp in enumerate(ant["comparisons"]):
             shift = cmp["resonance_shift_hz"]
@@ -57,7 +57,7 @@ def _rows(summary: dict) -> list:
                 between = (f"between characterized points: {bp.get('method')}"
                            + (f", estimated error up to {err:.2g} in |\u0393|" if err is not None and
                               bp.get("method") != "exact" else ""))
-            outs = cmp.get("outputs") or {}
+            outs = cmp["outputs"]
             links = [{"href": href(outs[k]), "text": text} for k, text in LINKS if outs.get(k)]
             date = cmp.get("date")
             if j == 0:

@@ -14,6 +14,7 @@ from .intervals import fmt_freq_interval, fmt_number, fmt_shift_interval, step_f
 
 
 def _unc(end: dict) -> dict:
+    """An end's intervals: OPTIONAL (no key without phase, None without draws)."""
     return end.get("uncertainty") or {}
 
 
@@ -88,7 +89,7 @@ def _row(label: str, left: str, right: str) -> str:
 
 
 def _min(end: dict, step_hz=None) -> str:
-    m = end.get("min_swr") or {}
+    m = end["min_swr"]
     if m.get("swr") is None:
         return "n/a"
     u = _unc(end)
@@ -207,12 +208,12 @@ def correction_text(summary: dict, out_dir: str | None = None) -> str:
         _row("lowest SWR", _min(sh, step), _min(fp, step)),
         _row("resonance (X = 0)", _res(sh, step), _res(fp, step)),
     ]
-    for key in (fp.get("swr_spans_hz") or {}):
+    for key in fp["swr_spans_hz"]:
         cells = []
         for end in (sh, fp):
             ivs = (_unc(end).get("swr_spans_hz") or {}).get(key)
-            cells.append(_spans((end.get("swr_spans_hz") or {}).get(key), cut=(end.get("swr_spans_cut_by_sweep_edge")
-                                                                              or {}).get(key), ivs=ivs, step_hz=step))
+            cells.append(_spans(end["swr_spans_hz"].get(key), cut=end["swr_spans_cut_by_sweep_edge"].get(key),
+                                ivs=ivs, step_hz=step))
         lines.append(_row(f"SWR <= {key} span", *cells))
     lines.append(_row("Q near best match", _q(sh), _q(fp)))
     if fp.get("phase") is False:
@@ -327,7 +328,7 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
         v = result[f"resonance_{side}_hz"]
         if v is None:
             return "n/a"
-        step = (result.get("baseline" if side == "before" else "after") or {}).get("step_hz")
+        step = result["baseline" if side == "before" else "after"]["step_hz"]
         return freq_text(v, result.get(f"resonance_{side}_interval_hz"), step)
 
     shift = result["resonance_shift_hz"]
@@ -487,7 +488,7 @@ def report_text(r: dict) -> str:
 def _between_lines(ant: dict) -> list[str]:
     """For an antenna on a characterized line: one line saying how the line was evaluated between its points
     (as ``correct``'s terminal does), then that evaluation's warnings, each said once for the antenna."""
-    blocks = [("baseline", (ant.get("baseline") or {}).get("between_points"))]
+    blocks = [("baseline", (ant["baseline"] or {}).get("between_points"))]  # None: a failed antenna
     blocks += [(os.path.basename(str(c.get("file", ""))), c.get("between_points")) for c in ant.get("comparisons") or []]
     blocks = [(who, bp) for who, bp in blocks if bp]
     if not blocks:
