@@ -127,3 +127,17 @@ def test_no_q_where_no_resonance_is_near_the_match():
     d = end_findings(f, gamma(z))
     assert d["resonances"] and abs(d["resonances"][0]["freq_hz"] - 13.157e6) < 20e3
     assert d["q"] is None
+
+
+def test_a_dense_noisy_sweep_gives_one_event_per_crossing():
+    # On a dense sweep the noise alone crosses a threshold (and X = 0) many times around each edge (and each
+    # resonance), further apart than a few sweep steps; read with hysteresis (a gap or an excursion inside the
+    # noise is none) the E10 antenna [D] still has one resonance at 14 MHz and one span per threshold, with
+    # the 2:1 edges at 13.754700 and 14.249675 MHz within the noise's reach (common practice, no source).
+    f = np.linspace(12e6, 16e6, 200_001)
+    g = noisy(gamma(series_rlc(f)), 0.003, seed=4)
+    d = end_findings(f, g)
+    assert len(d["resonances_hz"]) == 1 and d["resonances_hz"][0] == pytest.approx(14e6, abs=2e3)
+    assert all(len(v) == 1 for v in d["swr_spans_hz"].values())
+    (lo, hi), = d["swr_spans_hz"]["2"]
+    assert lo == pytest.approx(13.754700e6, abs=5e3) and hi == pytest.approx(14.249675e6, abs=5e3)

@@ -1027,19 +1027,33 @@ def detection_trace(gamma, half: int | None = None):
     return out
 
 
-def _merge(positions, gap):
-    """Group sorted positions closer than gap; return lists of member indices."""
-    groups = []
-    for i, p in enumerate(positions):
-        if groups and p - positions[groups[-1][-1]] < gap:
-            groups[-1].append(i)
-        else:
-            groups.append([i])
-    return groups
+def detection_noise_gain(n: int, half: int | None = None) -> float:
+    """The factor by which :func:`detection_trace` scales independent noise at an interior sample (the norm of
+    its centre weights); 1 for traces it leaves unsmoothed."""
+    if half is None:
+        half = int(np.clip(round(n / 200), 2, 10))
+    if n < 15:
+        return 1.0
+    k = np.arange(-half, half + 1, dtype=float)
+    return float(np.linalg.norm(np.linalg.pinv(_vander(k / half))[0]))
 
 
-def _detect_resonances(f, g):
-    """Sign changes of X on the detection trace: [(freq_hz, sense)] after merging noise clusters."""
+GAP_SIGMAS = 5.0
+"""Two SWR spans are one unless the detection trace rises above the threshold between them by more than this
+many standard deviations of its noise in |Gamma|, and two sign changes of X are one cluster unless X leaves its
+noise band as far between them (hysteresis, as a noisy threshold crossing is read; common practice, no source):
+on a dense sweep the noise alone crosses a level many times around each edge and each resonance, further
+apart than a few steps. Five, not three: the smoothed noise's largest excursion over a gap of a few hundred
+samples reaches 4 standard deviations (seen on 200001-point test sweeps)."""
+
+
+def _detect_resonances(f, g, noise=None):
+    """Sign changes of X on the detection trace: [(freq_hz, sense)] after merging noise clusters.
+
+    Neighbouring sign changes are one cluster when they are closer than :data:`MERGE_STEPS` steps or when X
+    stays within :data:`GAP_SIGMAS` of its noise between them (``noise``: the trace's complex noise RMS per
+    sample, which reaches X = Im z as 2 / |1 - Gamma|^2 of it, per part 1 / sqrt 2); a cluster with an odd
+    number of them is one resonance at their mean, an even one is none."""
     z = _to_domain(g, "z")
     x = z.imag
     fin = np.isfinite(z)
@@ -1054,20 +1068,34 @@ def _detect_resonances(f, g):
         gk = g[k] + t * (g[k + 1] - g[k])
         if abs(gk) >= RESOLVED_GAMMA_LIMIT:
             continue
-        found.append((float(fr), "series" if rising[k] else "parallel"))
+        found.append((float(fr), "series" if rising[k] else "parallel", int(k)))
     if len(found) < 2:
-        return found
+        return [(fr, sense) for fr, sense, _ in found]
     gap = MERGE_STEPS * float(np.median(np.diff(f)))
+    if noise is not None:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sx = np.asarray(noise, dtype=float) * 2 / np.abs(1 - g) ** 2 / math.sqrt(2)
+    groups = [[0]]
+    for i in range(1, len(found)):
+        (fa, _, ka), (fb, _, kb) = found[groups[-1][-1]], found[i]
+        between = slice(ka + 1, kb + 1)
+        noisy = noise is not None and bool(np.all(np.abs(x[between]) < GAP_SIGMAS * sx[between]))
+        if fb - fa < gap or noisy:
+            groups[-1].append(i)
+        else:
+            groups.append([i])
     out = []
-    for grp in _merge([p for p, _ in found], gap):
+    for grp in groups:
         if len(grp) % 2 == 0:
             continue
         out.append((float(np.mean([found[i][0] for i in grp])), found[grp[0]][1]))
     return out
 
 
-def _detect_spans(f, g, threshold):
-    """Spans of SWR <= threshold on the detection trace (edges interpolated; merged across short gaps)."""
+def _detect_spans(f, g, threshold, noise=None):
+    """Spans of SWR <= threshold on the detection trace (edges interpolated; merged across short gaps and
+    across gaps where the trace stays within :data:`GAP_SIGMAS` of its |Gamma| noise ``noise`` (per sample)
+    above the threshold)."""
     level = (threshold - 1) / (threshold + 1)
     m = np.abs(g)
     inside = np.isfinite(m) & (m <= level)
@@ -1082,8 +1110,11 @@ def _detect_spans(f, g, threshold):
     if len(spans) > 1:
         gap = MERGE_STEPS * float(np.median(np.diff(f)))
         merged = [spans[0]]
-        for lo, hi in spans[1:]:
-            if lo - merged[-1][1] < gap:
+        for j in range(1, len(spans)):
+            lo, hi = spans[j]
+            between = slice(stops[j - 1] + 1, starts[j])       # the samples of the gap, all above the level
+            noisy = noise is not None and bool(np.all(m[between] < level + GAP_SIGMAS * noise[between]))
+            if lo - merged[-1][1] < gap or noisy:
                 merged[-1][1] = hi
             else:
                 merged.append([lo, hi])
@@ -1131,7 +1162,7 @@ def find_events(freq_hz, gamma, *, sigma=None, thresholds=(1.5, 2.0, 3.0), noise
         return es
     gd = detection_trace(g)
 
-    for fr, sense in _detect_resonances(f, gd):
+    for fr, sense in _detect_resonances(f, gd, noise=sig * detection_noise_gain(f.size)):
         m = local_model(f, g, sig, fr, domains=("z",) if sense == "series" else ("y",))
         if m is not None:
             es.resonances.append(Event("resonance", m, (fr - m.fc_hz) / m.h_hz, sense=sense))
@@ -1145,7 +1176,7 @@ def find_events(freq_hz, gamma, *, sigma=None, thresholds=(1.5, 2.0, 3.0), noise
 
     for t in thresholds:
         key = threshold_key(t)
-        spans, level = _detect_spans(f, gd, t)
+        spans, level = _detect_spans(f, gd, t, noise=sig * (detection_noise_gain(f.size) / math.sqrt(2)))
         es.spans[key] = spans
         es.cut[key] = [bool(lo <= f[0] or hi >= f[-1]) for lo, hi in spans]
         for j, (lo, hi) in enumerate(spans):
