@@ -172,8 +172,8 @@ def refuse_absurd_loss(corr) -> None:
     over = ml > MAX_MATCHED_LOSS_DB
     if over.any():
         k = int(np.argmax(np.where(over, ml, -np.inf)))
-        raise InputFileError(corr.source, f"through the line given, {matched_loss_refusal(float(ml[k]), float(corr.freq_hz[k]))} "
-                                          "(and the unit of the sweep's frequencies)")
+        raise InputFileError(corr.source, "through the line given, "
+                             + matched_loss_refusal(float(ml[k]), float(corr.freq_hz[k])))
 
 
 SWR_NOT_PLOTTED = 1e6
