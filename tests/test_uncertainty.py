@@ -10,9 +10,15 @@ import numpy as np
 import pytest
 
 from deembed.analysis import uncertainty as un
-from deembed.analysis.smooth import find_events
+from deembed.analysis.characterize import characterize
+from deembed.analysis.smooth import MAX_WINDOW_POINTS, blocks_for, find_events
 from deembed.analysis.trust import UncertaintySettings, assess
+from deembed.base.errors import OptionError
+from deembed.cli.options import OPTION_FOR_FIELD
 from deembed.io.cables import catalog
+from deembed.io.charfile import line_from_characterization, write_characterization
+from deembed.io.touchstone import read_sweep
+from deembed.physics.between import feedpoint_error
 from deembed.physics.deembedding import embed_gamma, feedpoint_gamma
 from deembed.physics.line import DB_PER_NP, Line, LossModel, Section
 from deembed.physics.line_draws import DRAWS_ERROR_BOUND, Scratch, s_terms, section_parts, section_s_terms
@@ -281,15 +287,11 @@ def test_same_seed_same_intervals_and_draws_are_off_with_zero():
 
 
 def test_calibration_presets_and_parsing():
-    from deembed.base.errors import OptionError
-
     assert un.parse_calibration("bench").directivity < un.parse_calibration("hobby").directivity
     assert un.parse_calibration("0.02").tracking == 0.02
     with pytest.raises(OptionError) as exc:
         un.parse_calibration("excellent")
     assert exc.value.field == "calibration"          # the field, which the command line maps to its option
-    from deembed.cli.options import OPTION_FOR_FIELD
-
     assert exc.value.render(OPTION_FOR_FIELD).startswith("--cal-uncertainty: ")
 
 
@@ -383,8 +385,6 @@ def test_band_interpolated_between_its_frequencies_agrees_with_the_full_band():
 def test_the_step_draws_a_bounded_number_of_frequencies():
     # the work is bounded in the sweep's length: the line and the feedpoint are drawn at most at the band's
     # frequencies and the feedpoint windows' samples, each window at most MAX_WINDOW_POINTS samples
-    from deembed.analysis.smooth import MAX_WINDOW_POINTS, blocks_for
-
     n = 200_001
     f, g, line, a = _dense_sweep(n, 0.003)
     b_idx = un.band_indices(n)
@@ -400,10 +400,6 @@ def test_the_step_draws_a_bounded_number_of_frequencies():
 # ------------------------------------------------------------------------ a characterized line's scatter
 
 def _characterized_sample(tmp_path):
-    from deembed.analysis.characterize import characterize
-    from deembed.io.charfile import line_from_characterization, write_characterization
-    from deembed.io.touchstone import read_sweep
-
     std = {k: read_sweep(os.path.join(SAMPLES, f"dipole-40m-far-{k}.s1p")) for k in ("open", "short", "load")}
     ch = characterize(std["open"].freq_hz, gamma_open=std["open"].gamma, gamma_short=std["short"].gamma,
                       gamma_load=std["load"].gamma)
@@ -419,8 +415,6 @@ def test_characterization_scatter_widens_the_intervals_as_first_order_propagatio
     # eq. (10), sensitivities by central differences through the same fixed local models, the scatter of
     # sweep points nearest one characterized point taken as one input): within 10 %, with the analyzer's
     # noise and calibration left out so that the rest (the between-points offset) is small.
-    from deembed.physics.between import feedpoint_error
-
     line, sw = _characterized_sample(tmp_path)
     f, g = sw.freq_hz, sw.gamma
     s = terms_of(line, f)
