@@ -171,10 +171,9 @@ def _deembed_module_names(rel: str, tree) -> set[str]:
     return names
 
 
-PRIVATE_IMPORTS_PENDING = {
-    # A module reaching into another's private name, as "file:name". May only shrink: make the name public
-    # (renamed, with a docstring) or keep the code in its own module, and delete the line here.
-}
+PRIVATE_IMPORTS_PENDING: set[str] = set()
+"""A module reaching into another's private name, as "file:name". May only shrink (it is empty now): make the
+name public (renamed, with a docstring) or keep the code in its own module."""
 
 
 def _private(name: str) -> bool:
@@ -212,9 +211,8 @@ HASATTR_ALLOWED = {
     "deembed/render/pages.py: hasattr(value, '__html__')",          # jinja2/markupsafe's markup protocol
 }
 
-HASATTR_PENDING = {
-    # hasattr on a line part still there; may only shrink (use part.kind or isinstance).
-}
+HASATTR_PENDING: set[str] = set()
+"""hasattr on a line part still there; may only shrink (it is empty now: use part.kind or isinstance)."""
 
 
 def test_line_parts_are_told_apart_by_kind_not_by_hasattr_or_class_name():

@@ -443,9 +443,12 @@ def test_site_terminal_says_how_a_characterized_line_was_evaluated_between_its_p
     warned = between_warnings(bp)
     assert warned and all(f"  20 m dipole: warning: {w}" in text.splitlines() for w in warned)
     assert sum("too far for this run" in line for line in text.splitlines()) == 1   # said once per antenna
-    # the same words as correct's terminal for the baseline sweep
+    # the same words as correct's terminal for the baseline sweep (ends with nothing found: the keys every end has)
+    nothing_found = {"min_swr": {"freq_hz": None, "swr": None}, "resonances_hz": [], "resonances": [],
+                     "swr_spans_hz": {}, "swr_spans_cut_by_sweep_edge": {}, "q": None, "q_freq_hz": None,
+                     "q_from_span": None}
     base_summary = {"sweep": {"file": "base.s1p", "points": 400, "low_hz": 3e6, "high_hz": 30e6},
                     "line": {"description": "run", "matched_loss_db": {"at_low": 0.1, "at_high": 0.2}, "low_hz": 3e6,
                              "high_hz": 30e6, "between_points": bp},
-                    "feedpoint": {}, "analyzer": {}, "warnings": warned}
+                    "feedpoint": nothing_found, "analyzer": nothing_found, "warnings": warned}
     assert f"        between points: {said}" in correction_text(base_summary).splitlines()

@@ -258,6 +258,11 @@ def test_trim_interval_follows_the_resonance_interval_and_its_lost_draws_rule():
             assert res_iv is None and t["length_change_percent_interval"] is None
 
 
+NO_FINDINGS = {"min_swr": {"freq_hz": None, "swr": None}, "resonances_hz": [], "resonances": [], "swr_spans_hz": {},
+               "swr_spans_cut_by_sweep_edge": {}, "q": None, "q_freq_hz": None, "q_from_span": None}
+"""An end of a summary with nothing found (the keys every end has: analysis.findings.EndFindings)."""
+
+
 def test_trim_interval_is_read_in_the_verbs_direction():
     # a negative change means shorten (trim_advice); -0.9 % with [-1.72, +0.066] is "shorten by 0.9 %, from -0.1
     # to 1.7" (JCGM 100:2008 7.2.6 for the digits: two of the half-width 0.89, then one decimal)
@@ -270,8 +275,8 @@ def test_trim_interval_is_read_in_the_verbs_direction():
         return {"sweep": {"file": "x.s1p", "points": 501, "low_hz": 6.6e6, "high_hz": 7.6e6},
                 "line": {"description": "run", "matched_loss_db": {"at_low": 0.4, "at_high": 0.5}, "low_hz": 6.6e6,
                          "high_hz": 7.6e6},
-                "feedpoint": {"trim": trim, "resonances": [{"freq_hz": 7.03838e6, "kind": "series"}]},
-                "analyzer": {}, "warnings": []}
+                "feedpoint": {**NO_FINDINGS, "trim": trim, "resonances": [{"freq_hz": 7.03838e6, "kind": "series"}]},
+                "analyzer": NO_FINDINGS, "warnings": []}
 
     def trim_line(s):
         (line,) = [x for x in correction_text(s).splitlines() if x.startswith("trim")]
