@@ -180,7 +180,7 @@ def _freq_unit(hz: float):
 
 
 def fmt_freq(hz: float, digits: int = 4, resolution_hz: float | None = None) -> str:
-    """Readable frequency: 14.2 MHz, 7.1 kHz.
+    """Readable frequency: 28.4 MHz, 7.1 kHz.
 
     With ``resolution_hz`` (a sweep's step, say) the number gets the decimals that resolution supports and no
     more: 6.848 MHz on a 2 kHz grid, 145.60 MHz on a 20 kHz grid. Otherwise ``digits`` significant digits.

@@ -65,7 +65,7 @@ def fmt_freq_interval(value_hz, interval=None, *, default_digits: int = 6) -> st
     return f"{v:.{d}f} {unit} ({lo:.{d}f} to {hi:.{d}f})"
 
 
-def _signed(v: float, d: int) -> str:
+def signed_fixed(v: float, d: int) -> str:
     """``+1.2``, ``-0.4``; a value that rounds to zero prints as ``0.0``, never ``-0.0`` or ``+0.0``."""
     text = f"{v:+.{d}f}"
     return text[1:] if float(text) == 0 else text
@@ -78,10 +78,10 @@ def fmt_shift_interval(value_hz, interval=None) -> str:
     v = float(value_hz) / 1e3
     step = step_for(*interval) if interval else None
     if step is None:
-        return f"{_signed(v, 1)} kHz"
+        return f"{signed_fixed(v, 1)} kHz"
     d = _decimals(step / 1e3)
     lo, hi = (float(x) / 1e3 for x in interval)
-    return f"{_signed(v, d)} kHz ({_signed(lo, d)} to {_signed(hi, d)})"
+    return f"{signed_fixed(v, d)} kHz ({signed_fixed(lo, d)} to {signed_fixed(hi, d)})"
 
 
 __all__ = ["fmt_freq_interval", "fmt_number", "fmt_shift_interval", "freq_unit", "step_for"]

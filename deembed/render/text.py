@@ -10,7 +10,7 @@ from ..base.textsafe import write_control
 from ..base.units import SWR_PRINT_MAX, fmt_freq, fmt_span, fmt_swr
 from ..base.verdicts import ERROR, TEXT as VERDICT_TEXT, WITHIN
 from .along import along_line_text
-from .intervals import fmt_freq_interval, fmt_number, fmt_shift_interval, step_for
+from .intervals import fmt_freq_interval, fmt_number, fmt_shift_interval, signed_fixed, step_for
 
 
 def _unc(end: dict) -> dict:
@@ -373,7 +373,7 @@ def compare_text(result: dict, limit_names: dict | None = None) -> str:
     ln = result["line"]
     if ln["loss_change_db"] is not None:
         lines.append(f"\nline     {ln['before']}\n  now    {ln['after']}\n         matched loss change "
-                     f"{ln['loss_change_db']['at_centre']:+.2f} dB at band centre")
+                     f"{signed_fixed(ln['loss_change_db']['at_centre'], 2)} dB at band centre")
     texts = {k: between_text(bp) for k, bp in (ln.get("between_points") or {}).items() if bp}
     if len(set(texts.values())) == 1 and len(texts) == 2:
         lines.append(f"line between points: {next(iter(texts.values()))}")
@@ -423,7 +423,7 @@ def report_text(r: dict) -> str:
     out.append("")
     out.append("Line model")
     out.append(f"  Z0               {m['z0_ohm']:.2f} ohm{'' if m['z0_fitted'] else ' (nominal, not measured)'}")
-    out.append(f"  one-way delay    {m['delay_s'] * 1e9:.3f} ns  (electrical length {m['free_space_length_m']:.3f} m)")
+    out.append(f"  one-way delay    {m['delay_s'] * 1e9:.3f} ns  (free-space length {m['free_space_length_m']:.3f} m)")
     if "vf" in r:
         out.append(f"  velocity factor  {r['vf']:.4f}  over {r['length_m']:.3f} m")
     if "k1_db_per_100ft" in r:
