@@ -71,6 +71,7 @@ def characterize_command(
         raise OptionError("--out", f"{out!r}: --out is a folder (the run's 2-port is written into it as NAME.line.s2p); "
                                    "give a folder, e.g. --out results")
     out_file = os.path.join(out, characterization_name(next(iter(given.values()))))
+    check_not_input(out, list(given.values()) + [cables], "--out")  # --out naming an input file itself
     check_not_input(out_file, list(given.values()) + [cables], "--out")
     z0 = parse_resistance(z0, "--z0")
     if load_r is not None and "load" not in given:
