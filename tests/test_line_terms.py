@@ -92,3 +92,19 @@ def test_measured_two_port_is_used_on_its_own_grid():
     s11, s21s12, s22, loss = line.deembed_terms(f)
     assert np.array_equal(s11, s[:, 0, 0]) and np.array_equal(s21s12, s[:, 1, 0] * s[:, 0, 1])
     assert np.array_equal(loss, -20 * np.log10(np.abs(s[:, 1, 0])))
+
+
+def test_measured_two_port_at_some_of_its_own_points_only():
+    # A measured 2-port is known at its measured frequencies and nowhere else (invariant, no source needed):
+    # any subset of them gives those rows exactly; a frequency it was not measured at is refused.
+    from deembed.base.errors import OptionError
+
+    f = np.linspace(1e6, 30e6, 11)
+    s = np.random.default_rng(3).normal(size=(11, 2, 2)) * 0.1 + 0j
+    part = MeasuredTwoPort(f, s)
+    rows = np.array([0, 4, 10])
+    assert np.array_equal(part.s_params(f[rows]), s[rows])
+    with pytest.raises(OptionError):
+        part.s_params(np.array([f[0], 2.5e6]))
+    with pytest.raises(OptionError):
+        part.s_params(np.array([31e6]))

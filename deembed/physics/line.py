@@ -311,6 +311,10 @@ class MeasuredTwoPort:
         f = np.asarray(freq_hz, dtype=float)
         if f.shape == self.freq_hz.shape and np.array_equal(f, self.freq_hz):
             return self.s
+        # some of its own frequencies (the uncertainty step evaluates a line at a subset of the sweep's points)
+        idx = np.searchsorted(self.freq_hz, f)
+        if f.ndim == 1 and np.all(idx < self.freq_hz.size) and np.array_equal(self.freq_hz[np.minimum(idx, self.freq_hz.size - 1)], f):
+            return self.s[idx]
         raise OptionError(
             "line",
             f"{self.source or self.label} was measured at other frequencies than the sweep; "
