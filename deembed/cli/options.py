@@ -150,8 +150,6 @@ NameOpt = typer.Option(None, "--name", help="The antenna's name in the history s
 
 def record_options(record, date, name, *, baseline_date=None):
     """Check --record/--date/--name together; returns the parsed dates (date, baseline_date)."""
-    from ..jobs.record import check_store, parse_date
-
     if record is None:
         for opt, v in (("--date", date), ("--name", name), ("--baseline-date", baseline_date)):
             if v is not None:
@@ -161,6 +159,8 @@ def record_options(record, date, name, *, baseline_date=None):
         raise OptionError("--record", "empty; give a file name (e.g. site.history.sqlite) or a postgresql:// URL")
     if name is not None and not name.strip():
         raise OptionError("--name", "empty name; give the antenna's name, e.g. --name \"2 m vertical\"")
+    from ..jobs.record import check_store, parse_date  # the history store's modules only when recording
+
     d = parse_date(date, "--date") if date is not None else None
     bd = parse_date(baseline_date, "--baseline-date") if baseline_date is not None else None
     check_store(record)
