@@ -48,7 +48,7 @@ def _pixels(fig) -> np.ndarray:
 def _frequency_figure(f, y, thin: bool):
     fig, ax = plots._axes(None)
     if thin:
-        plots._trace(ax, f, y, color="#c0582b", lw=2.0)
+        plots.plot_thinned(ax, f, y, color="#c0582b", lw=2.0)
     else:
         ax.plot(f, y, color="#c0582b", lw=2.0)
     ax.set_xlim(f[0], f[-1])
@@ -100,3 +100,27 @@ def test_thinned_smith_trace_draws_the_same_picture():
 def test_tiny_paths_are_kept(n):
     x = np.linspace(0, 1, n)
     assert np.array_equal(path_cells(x, x, (0, 1, 0, 1), (100, 100)), np.arange(n))
+
+
+def test_compare_plot_thins_its_swr_traces():
+    # A dense sweep gives each SWR trace of the comparison figure no more points than its axes' pixel columns
+    # can show (two runs per column), and keeps the sweep's highest SWR (the envelope keeps every peak).
+    from types import SimpleNamespace
+
+    from deembed.render.compare_page import compare_plot
+
+    n = 200_001
+    f = np.linspace(140e6, 152e6, n)
+    rng = np.random.default_rng(7)
+    g = 0.2 + 0.01 * rng.standard_normal(n) + 0j
+    g[123_456] = 0.6  # one spike: SWR 4
+    side = SimpleNamespace(freq_hz=f, gamma_feedpoint=g, gamma_analyzer=g * 0.5)
+    fig = compare_plot(side, side)
+    swr_axes = fig.axes[0]
+    columns = int(fig.get_figwidth() * plots.DPI * swr_axes.get_position().width)  # the axes' pixel columns
+    for line in swr_axes.get_lines():
+        x = line.get_xdata()
+        if len(x) > 2:
+            assert len(x) <= 2 * plots.RUNS_PER_COLUMN * columns + 2
+    assert max(np.nanmax(line.get_ydata()) for line in swr_axes.get_lines() if len(line.get_xdata()) > 2) == \
+        pytest.approx(4.0)  # SWR = (1 + 0.6) / (1 - 0.6), F2 in the check values (Pozar eq. 2.41, from memory)

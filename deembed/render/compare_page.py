@@ -17,7 +17,7 @@ from .along import along_plot
 from .intervals import fmt_number, fmt_shift_interval
 from .labels import CAUSE_LABELS, LIMIT_LABELS, label
 from .pages import file_data_uri, finite, href, render_page
-from .plots import PLOT_BOUNDS, finish, shown, smith_frame, smith_grid, smith_trace, swr_scale
+from .plots import PLOT_BOUNDS, finish, plot_thinned, shown, smith_frame, smith_grid, smith_trace, swr_scale
 from .text import freq_text
 
 BEFORE_COLOUR = "#3f51a3"
@@ -33,7 +33,9 @@ def compare_plot(before, after, title: str = ""):
     from matplotlib.figure import Figure
 
 
-    fig = Figure(figsize=(12, 10), layout="constrained")
+    fig = Figure(figsize=(12, 10))
+    # a fixed layout (no constrained-layout solve): room for each SWR panel's title and legend row above it
+    fig.subplots_adjust(left=0.06, right=0.985, bottom=0.06, top=0.89 if title else 0.92, hspace=0.42, wspace=0.08)
     axes = fig.subplots(2, 2, width_ratios=(1.5, 1))
     for row, (end, attr, ls) in enumerate((("feedpoint (corrected)", "gamma_feedpoint", "-"),
                                            ("analyzer end (measured)", "gamma_analyzer", "--"))):
@@ -42,7 +44,7 @@ def compare_plot(before, after, title: str = ""):
         for corr, colour, label in ((before, BEFORE_COLOUR, BEFORE_LABEL), (after, AFTER_COLOUR, AFTER_LABEL)):
             g = getattr(corr, attr)
             s = shown(rf.swr(g), PLOT_BOUNDS["swr"])
-            ax_swr.plot(corr.freq_hz / 1e6, s, color=colour, lw=1.8, ls=ls, label=label)
+            plot_thinned(ax_swr, corr.freq_hz / 1e6, s, color=colour, lw=1.8, ls=ls, label=label)
             traces.append(s)
             smith_trace(ax_sm, g, colour, ls, label, lw=1.6, ms=4)
         swr_scale(ax_swr, traces, (2.0,))

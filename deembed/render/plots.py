@@ -99,7 +99,7 @@ def _width_px(ax) -> int:
     return max(int(fig.get_figwidth() * DPI * ax.get_position().width), 1)
 
 
-def _trace(ax, x, y, **kw):
+def plot_thinned(ax, x, y, **kw):
     """``ax.plot(x, y, **kw)``, thinned to the min/max envelope the axes' pixel width can show."""
     x = np.asarray(x)
     y = np.asarray(y)
@@ -191,8 +191,8 @@ def swr_plot(corr, ax=None, limits=(2.0,), title="SWR at both ends", band=None, 
         hi = np.minimum(np.asarray(band[1], dtype=float), 1e3)
         ax.fill_between(f, lo, hi, where=np.isfinite(lo), color=FEEDPOINT_COLOUR, alpha=0.18, lw=0,
                         label=f"feedpoint, {coverage:.0%} interval")
-    _trace(ax, f, s_sh, color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"], **_marks(f))
-    _trace(ax, f, s_fp, color=FEEDPOINT_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    plot_thinned(ax, f, s_sh, color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"], **_marks(f))
+    plot_thinned(ax, f, s_fp, color=FEEDPOINT_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
     swr_scale(ax, [s_sh, s_fp], limits, label_at=f[0])
     finish(ax, "SWR", title)
@@ -209,8 +209,8 @@ def magnitude_swr_plot(corr, limits=(2.0,), ax=None, title="SWR at both ends (sw
     lo, hi = rf.swr(corr.gamma_feedpoint_mag_low), rf.swr(corr.gamma_feedpoint_mag_high)
     ax.fill_between(f, lo, np.where(np.isfinite(hi), hi, np.nan), color=FEEDPOINT_COLOUR, alpha=0.18, lw=0,
                     label="feedpoint: true SWR lies in this band")
-    _trace(ax, f, s_sh, color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"], **_marks(f))
-    _trace(ax, f, s_fp, color=FEEDPOINT_COLOUR, lw=2.0, label="at the feedpoint (estimated from |Gamma|)", **_marks(f))
+    plot_thinned(ax, f, s_sh, color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"], **_marks(f))
+    plot_thinned(ax, f, s_fp, color=FEEDPOINT_COLOUR, lw=2.0, label="at the feedpoint (estimated from |Gamma|)", **_marks(f))
     _xrange(ax, f)
     swr_scale(ax, [s_sh, s_fp], limits, label_at=f[0])
     finish(ax, "SWR", title)
@@ -221,9 +221,9 @@ def return_loss_plot(corr, ax=None):
     """Return loss (positive dB) at both ends."""
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
-    _trace(ax, f, shown(rf.return_loss_db(corr.gamma_analyzer), PLOT_BOUNDS["db"]), color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"],
+    plot_thinned(ax, f, shown(rf.return_loss_db(corr.gamma_analyzer), PLOT_BOUNDS["db"]), color=ANALYZER_COLOUR, lw=1.6, ls="--", label=LABELS["analyzer"],
            **_marks(f))
-    _trace(ax, f, shown(rf.return_loss_db(corr.gamma_feedpoint), PLOT_BOUNDS["db"]), color=FEEDPOINT_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
+    plot_thinned(ax, f, shown(rf.return_loss_db(corr.gamma_feedpoint), PLOT_BOUNDS["db"]), color=FEEDPOINT_COLOUR, lw=2.0, label=LABELS["feedpoint"], **_marks(f))
     _xrange(ax, f)
     ax.invert_yaxis()
     finish(ax, "Return loss (dB, larger is better)", "Return loss at both ends")
@@ -235,8 +235,8 @@ def impedance_plot(corr, ax=None):
     fig, ax = _axes(ax)
     f = _mhz(corr.freq_hz)
     z = shown(rf.z_from_gamma(corr.gamma_feedpoint), PLOT_BOUNDS["ohm"])
-    _trace(ax, f, z.real, color=FEEDPOINT_COLOUR, lw=2.0, label="R (resistance)", **_marks(f))
-    _trace(ax, f, z.imag, color="#2f7d6d", lw=2.0, ls="-.", label="X (reactance)", **_marks(f))
+    plot_thinned(ax, f, z.real, color=FEEDPOINT_COLOUR, lw=2.0, label="R (resistance)", **_marks(f))
+    plot_thinned(ax, f, z.imag, color="#2f7d6d", lw=2.0, ls="-.", label="X (reactance)", **_marks(f))
     _xrange(ax, f)
     ax.axhline(0, color="#444444", lw=0.8)
     ax.axhline(50, color="#8a8a8a", lw=0.8, ls=":")
@@ -306,11 +306,11 @@ def budget_plot(freq_hz, budget: dict, ax=None):
     """Power budget against frequency: delivered into the antenna, lost in the line, returned."""
     fig, ax = _axes(ax)
     f = _mhz(freq_hz)
-    _trace(ax, f, budget["budget_delivered_w"], color=FEEDPOINT_COLOUR, lw=2.0, label="radiated or lost in the antenna",
+    plot_thinned(ax, f, budget["budget_delivered_w"], color=FEEDPOINT_COLOUR, lw=2.0, label="radiated or lost in the antenna",
            **_marks(f))
-    _trace(ax, f, budget["budget_line_dissipated_w"], color="#8b6c3e", lw=1.6, ls="-.", label="lost in the line",
+    plot_thinned(ax, f, budget["budget_line_dissipated_w"], color="#8b6c3e", lw=1.6, ls="-.", label="lost in the line",
            **_marks(f))
-    _trace(ax, f, budget["budget_reflected_at_tx_w"], color=ANALYZER_COLOUR, lw=1.6, ls="--",
+    plot_thinned(ax, f, budget["budget_reflected_at_tx_w"], color=ANALYZER_COLOUR, lw=1.6, ls="--",
            label="reflected back to the transmitter", **_marks(f))
     _xrange(ax, f)
     finish(ax, "Watts", "Where the transmitter's power goes")
