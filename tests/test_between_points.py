@@ -190,11 +190,11 @@ def test_cli_correct_and_compare_carry_between_points(tmp_path, capsys):
     assert res["line"]["between_points"]["before"]["estimated_error"] < 0.01
 
 
-def test_site_carries_between_points(tmp_path):
+def write_characterized_site(tmp_path, grid):
+    """A site file of one antenna behind the mixed run characterized on ``grid`` (run.s2p), swept before and
+    after a 200 kHz detune at 400 other frequencies (base.s1p, after.s1p); returns the site file's path."""
     from deembed.io.touchstone import write_touchstone
-    from deembed.jobs.site import run_site
 
-    grid = np.linspace(3e6, 30e6, 201)
     _characterize_file(tmp_path, mixed_run(grid), grid)
     f2 = _other_points()
     for name, f0 in (("base.s1p", 14e6), ("after.s1p", 14.2e6)):
@@ -203,6 +203,13 @@ def test_site_carries_between_points(tmp_path):
     site = tmp_path / "hill.site.toml"
     site.write_text('name = "Invented hill"\n\n[[antenna]]\nname = "20 m dipole"\nline = "run.s2p"\n'
                     'baseline = "base.s1p"\nlatest = "after.s1p"\n')
+    return site
+
+
+def test_site_carries_between_points(tmp_path):
+    from deembed.jobs.site import run_site
+
+    site = write_characterized_site(tmp_path, np.linspace(3e6, 30e6, 201))
     out = tmp_path / "site-out"
     summary = run_site(str(site), str(out), workers=1)
     feed = summary["antennas"][0]

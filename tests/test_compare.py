@@ -420,22 +420,14 @@ def test_site_terminal_says_how_a_characterized_line_was_evaluated_between_its_p
     # A run characterized every 675 kHz is too coarse for its 2 x 156 ns echo (1/(2 x two-way delay) with a
     # margin of 4 asks for 492 kHz; tests/test_between_points.py): the site terminal says so per antenna, in the
     # words correct's terminal uses (deembed.analysis.between.between_text / between_warnings).
-    from test_between_points import _characterize_file, _other_points, _sweep, mixed_run
+    from test_between_points import write_characterized_site
 
     from deembed.analysis.between import between_text, between_warnings
-    from deembed.io.touchstone import write_touchstone
     from deembed.jobs.site import run_site
     from deembed.render.text import correction_text, site_text
 
-    grid = np.linspace(3e6, 30e6, 41)
-    _characterize_file(tmp_path, mixed_run(grid), grid)
-    f2 = _other_points()
-    for name, f0 in (("base.s1p", 14e6), ("after.s1p", 14.2e6)):
-        sweep, _ = _sweep(mixed_run, f2, f0_ant=f0)
-        write_touchstone(tmp_path / name, f2, sweep.gamma)
-    (tmp_path / "hill.site.toml").write_text('name = "Invented hill"\n\n[[antenna]]\nname = "20 m dipole"\n'
-                                             'line = "run.s2p"\nbaseline = "base.s1p"\nlatest = "after.s1p"\n')
-    summary = run_site(str(tmp_path / "hill.site.toml"), str(tmp_path / "out"), workers=1)
+    site = write_characterized_site(tmp_path, np.linspace(3e6, 30e6, 41))
+    summary = run_site(str(site), str(tmp_path / "out"), workers=1)
     text = site_text(summary, str(tmp_path / "out"))
     bp = summary["antennas"][0]["baseline"]["between_points"]
     said = between_text(bp)
